@@ -1,0 +1,2 @@
+// Package pipeline joins striate's stages into one recognizer.
+package pipeline

@@ -41,6 +41,7 @@ type Channel struct {
 	Scale       int     `json:"scale"`       // index of the scale this channel belongs to
 	Pair        int     `json:"pair"`        // index of the quadrature partner in the bank, -1 if none
 	FitR2       float64 `json:"fit_r2"`      // learned atoms: R² of the 2-D Gabor fit, else 0
+	Surround    float64 `json:"surround,omitempty"` // DoG: surround σ_s, pixels
 }
 
 // Kernel is one square correlation kernel of odd size Size×Size, row-major:

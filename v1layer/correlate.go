@@ -1,0 +1,70 @@
+package v1layer
+
+// padImage copies the h×w image img into the (h+2R)×(w+2R) buffer dst,
+// filling the border of width R with zeros or with the reflection
+// (d c b a | a b c d). It needs R ≤ min(h, w) for BorderReflect.
+func padImage(dst, img []float32, h, w, R int, b Border) {
+	pw := w + 2*R
+	for py := 0; py < h+2*R; py++ {
+		row := dst[py*pw : py*pw+pw]
+		y := py - R
+		if y < 0 || y >= h {
+			if b != BorderReflect {
+				clear(row)
+				continue
+			}
+			y = reflectIndex(y, h)
+		}
+		src := img[y*w : y*w+w]
+		copy(row[R:R+w], src)
+		if b == BorderReflect {
+			for i := 0; i < R; i++ {
+				row[R-1-i] = src[reflectIndex(-1-i, w)]
+				row[R+w+i] = src[reflectIndex(w+i, w)]
+			}
+		} else {
+			clear(row[:R])
+			clear(row[R+w:])
+		}
+	}
+}
+
+// reflectIndex maps i in [−n, 2n) into [0, n) by half-sample reflection.
+func reflectIndex(i, n int) int {
+	if i < 0 {
+		return -i - 1
+	}
+	if i >= n {
+		return 2*n - i - 1
+	}
+	return i
+}
+
+// correlateDirect writes the correlation of the padded image pad (row
+// stride pw, border R) with the size×size kernel k to dst (h×w):
+//
+//	dst(y,x) = Σ_v Σ_u k[v][u]·img(y+v−r, x+u−r)
+//
+// as row AXPYs over pre-padded rows. It is the plain reference path used
+// for kernels no separable plan beats.
+func correlateDirect(dst, pad []float32, pw, h, w, R int, k []float32, size int) {
+	r := size / 2
+	off := R - r
+	for y := 0; y < h; y++ {
+		out := dst[y*w : y*w+w]
+		clear(out)
+		for v := 0; v < size; v++ {
+			row := pad[(y+off+v)*pw+off:]
+			for u := 0; u < size; u++ {
+				c := k[v*size+u]
+				if c == 0 {
+					continue
+				}
+				in := row[u : u+w]
+				for x := range out {
+					out[x] += c * in[x]
+				}
+			}
+		}
+	}
+}

@@ -1,0 +1,96 @@
+// Package v1layer is striate's fixed V1-like front end: a retina / LGN
+// stage of centre-surround differences of Gaussians, a bank of Gabor simple
+// cells (or any bank of kernels, such as one learned by package learn), and
+// complex cells built from them — quadrature energy, optional length
+// summation, end-stopping and divisive normalisation, and max pooling over
+// position and scale. It does no I/O, no learning and no printing.
+//
+// # Data layout
+//
+// Input images are float32, row-major h×w, values in [0,1]. Output is a
+// Maps (C×OH×OW channel-major); Channels describes every output channel
+// (kind, orientation, phase, wavelength, polarity, scale).
+//
+// # Coordinates
+//
+// Kernels are applied as CORRELATION (no flip):
+//
+//	out(y,x) = Σ_{v=−r..r} Σ_{u=−r..r} k[v+r][u+r]·img(y+v, x+u)
+//
+// with u the column offset (rightwards) and v the row offset (downwards).
+// Angles use the image y axis pointing up (y = −v), counter-clockwise from
+// +x. These are the conventions of the reference work
+// ../shared/bench/filterbank.json.
+//
+// # Retina / LGN: difference of Gaussians
+//
+// Centre-surround receptive fields (Rodieck 1965; Enroth-Cugell & Robson
+// 1966), modelled as a difference of Gaussians:
+//
+//	Gc(u,v) = exp(−(u²+v²)/2σc²)/Σ,  Gs likewise with σs = ratio·σc,
+//	k = Gc − Gs,  k /= ||k||₂,  support r = ceil(3σs)
+//
+// Both Gaussians are normalised to sum 1 over the same square support, so
+// Σk = 0 and a uniform field gives zero response. ratio = 1.6 approximates
+// the Laplacian of Gaussian (Marr & Hildreth 1980). The response r is
+// half-wave rectified into an on-centre channel max(0,r) and an off-centre
+// channel max(0,−r) (or kept signed). Optional local contrast normalisation
+// divides by a Gaussian-weighted local RMS plus a constant:
+//
+//	n(x) = r(x) / (ε + sqrt(Σ_x' G_σ(x−x')·r(x')²))
+//
+// # Simple cells: Gabor bank
+//
+// Daugman (1985)'s form, a Gaussian envelope times a sinusoidal carrier:
+//
+//	x' = x cosθ + y sinθ,  y' = −x sinθ + y cosθ   (x = u, y = −v)
+//	env = exp(−(x'² + γ²y'²)/2σ²),  car = cos(2π x'/λ − ψ)
+//	k = env·(car − c),  c = Σ env·car / Σ env   (zero mean, envelope kept)
+//	k /= ||k||₂
+//
+// θ is the carrier direction (θ = 0: vertical stripes, responding to
+// vertical edges and bars), λ the wavelength in pixels, ψ the phase (0 even
+// / cosine, π/2 odd / sine; four polarities add π and 3π/2), γ the aspect
+// ratio. σ follows from the half-amplitude spatial-frequency bandwidth b in
+// octaves:
+//
+//	σ/λ = (1/π)·sqrt(ln2/2)·(2^b+1)/(2^b−1)    (b=1: 0.5622; b=1.5: 0.3924)
+//
+// Scales are octave-spaced, λ_s = λ₀·2^s; the square support has radius
+// r = ceil(3σ/min(γ,1)).
+//
+// # Complex cells
+//
+// Quadrature energy of an even/odd pair (Adelson & Bergen 1985):
+// C = sqrt(e² + o²), invariant to the phase of a grating. Optional length
+// summation and end-stopping along the preferred orientation (the bar axis
+// d_θ = (−sinθ, cosθ)) — see LengthConfig and EndStopConfig for the
+// formulas (double-stopped operator after Heitger et al. 1992). Optional
+// divisive normalisation (Heeger 1992) across the orientations of one
+// scale: N_i = C_i / sqrt(σ² + mean_j C_j²). Order: energy, length
+// summation, divisive normalisation, end-stopping, then pooling.
+//
+// Max pooling over position: P(i,j) = max over the window of side Size
+// centred at (s·i, s·j), clipped to the image; output ceil(H/s)×ceil(W/s).
+// With Pool.Scales it is also a max over the scales of channels that differ
+// only in scale.
+//
+// # Borders and sizes
+//
+// Border zero reads 0 outside the image; Border reflect mirrors it about
+// the edge including the edge pixel (d c b a | a b c d, scipy.ndimage's
+// "reflect"). Output maps have the input's size before pooling. An input
+// side must be at least r_max+1, the radius of the largest kernel plus one
+// (15 px for the default bank, whose largest kernel is 29×29): below that a
+// reflected border would need more than one reflection and the receptive
+// field of the coarsest cell would not even reach across the image. This
+// is deliberately looser than "at least the kernel size": the reference
+// work itself applies the 29×29 kernels to 28×28 MNIST digits.
+//
+// # Concurrency
+//
+// New returns an immutable *FrontEnd safe for concurrent use. Apply takes
+// a per-call scratch from a pool and allocates nothing once scratch for the
+// image size exists; ApplyBatch spreads images over a given number of
+// goroutines, each with its own scratch.
+package v1layer

@@ -9,12 +9,12 @@ import (
 type Kind uint8
 
 const (
-	KindDoG     Kind = iota + 1 // centre-surround difference of Gaussians
-	KindGabor                   // hand-set Gabor simple cell
-	KindLearned                 // atom learned from natural images (package learn)
-	KindEnergy                  // complex cell: quadrature energy of a pair
-	KindRectified               // complex-cell stand-in: half-wave rectified simple cell
-	KindEndStop                 // end-stopped (hypercomplex) cell
+	KindDoG       Kind = iota + 1 // centre-surround difference of Gaussians
+	KindGabor                     // hand-set Gabor simple cell
+	KindLearned                   // atom learned from natural images (package learn)
+	KindEnergy                    // complex cell: quadrature energy of a pair
+	KindRectified                 // complex-cell stand-in: half-wave rectified simple cell
+	KindEndStop                   // end-stopped (hypercomplex) cell
 )
 
 var kindNames = [...]string{"", "dog", "gabor", "learned", "energy", "rectified", "endstop"}
@@ -32,15 +32,15 @@ func (k Kind) String() string {
 // Fields that do not apply to a kind are zero.
 type Channel struct {
 	Kind        Kind    `json:"kind"`
-	Orientation float64 `json:"orientation"` // carrier direction θ, radians in [0, π)
-	Phase       float64 `json:"phase"`       // ψ, radians: 0 even (cos), π/2 odd (sin)
-	Wavelength  float64 `json:"wavelength"`  // λ, pixels
-	Sigma       float64 `json:"sigma"`       // envelope σ (Gabor) or centre σ (DoG), pixels
-	Aspect      float64 `json:"aspect"`      // envelope aspect ratio γ
-	Polarity    int     `json:"polarity"`    // +1 on-centre / positive half-wave, -1 off, 0 none
-	Scale       int     `json:"scale"`       // index of the scale this channel belongs to
-	Pair        int     `json:"pair"`        // index of the quadrature partner in the bank, -1 if none
-	FitR2       float64 `json:"fit_r2"`      // learned atoms: R² of the 2-D Gabor fit, else 0
+	Orientation float64 `json:"orientation"`        // carrier direction θ, radians in [0, π)
+	Phase       float64 `json:"phase"`              // ψ, radians: 0 even (cos), π/2 odd (sin)
+	Wavelength  float64 `json:"wavelength"`         // λ, pixels
+	Sigma       float64 `json:"sigma"`              // envelope σ (Gabor) or centre σ (DoG), pixels
+	Aspect      float64 `json:"aspect"`             // envelope aspect ratio γ
+	Polarity    int     `json:"polarity"`           // +1 on-centre / positive half-wave, -1 off, 0 none
+	Scale       int     `json:"scale"`              // index of the scale this channel belongs to
+	Pair        int     `json:"pair"`               // index of the quadrature partner in the bank, -1 if none
+	FitR2       float64 `json:"fit_r2"`             // learned atoms: R² of the 2-D Gabor fit, else 0
 	Surround    float64 `json:"surround,omitempty"` // DoG: surround σ_s, pixels
 }
 

@@ -1,0 +1,532 @@
+package learn
+
+import (
+	"crypto/sha256"
+	"encoding/binary"
+	"encoding/json"
+	"errors"
+	"fmt"
+	"math"
+	"math/rand/v2"
+	"time"
+
+	"github.com/striate/striate/learn/internal/nn"
+)
+
+// Head kinds and optimisers (values of HeadConfig.Kind and .Optimizer).
+const (
+	KindSoftmax = "softmax"
+	KindMLP     = "mlp"
+	OptAdam     = "adam"
+	OptSGD      = "sgd"
+
+	ScheduleConstant = "constant"
+	ScheduleCosine   = "cosine"
+)
+
+// Adam's moment decay rates and denominator offset, the values recommended by
+// Kingma & Ba (2015), "Adam: a method for stochastic optimization", Algorithm 1.
+const (
+	adamBeta1 = 0.9
+	adamBeta2 = 0.999
+	adamEps   = 1e-8
+)
+
+// Limits of HeadConfig fields, chosen so that a typo fails loudly rather than
+// allocating gigabytes.
+const (
+	maxHidden = 1 << 14
+	maxEpochs = 1 << 16
+)
+
+// HeadConfig holds the hyper-parameters of a supervised head. The zero value
+// is a usable default; every field documents its zero-value meaning. It
+// round-trips through encoding/json.
+type HeadConfig struct {
+	// Kind is "softmax" (multinomial logistic regression; default) or "mlp"
+	// (one hidden ReLU layer).
+	Kind string `json:"kind,omitempty"`
+	// Hidden is the number of hidden units of an mlp; 0 means 256. Ignored for softmax.
+	Hidden int `json:"hidden,omitempty"`
+	// Epochs is the maximum number of passes over the training rows; 0 means 30.
+	Epochs int `json:"epochs,omitempty"`
+	// Batch is the minibatch size; 0 means 128. It is clipped to the number of
+	// training rows; a last partial minibatch of each epoch is skipped (the
+	// rows it would hold are different every epoch).
+	Batch int `json:"batch,omitempty"`
+	// Optimizer is "adam" (default; Kingma & Ba 2015) or "sgd" (with momentum).
+	Optimizer string `json:"optimizer,omitempty"`
+	// LR is the learning rate; 0 means 1e-3 for adam and 0.05 for sgd.
+	LR float64 `json:"lr,omitempty"`
+	// Momentum is the sgd momentum μ in v ← μv + g, p ← p − lr·v; 0 means 0.9,
+	// a negative value means none. Ignored by adam.
+	Momentum float64 `json:"momentum,omitempty"`
+	// Schedule is "constant" (default) or "cosine": lr·(1 + cos(π·e/Epochs))/2
+	// in epoch e = 0, 1, ...
+	Schedule string `json:"schedule,omitempty"`
+	// L2 is λ in the loss term (λ/2)·Σ||W||² over the weight matrices (not the
+	// biases) of the standardised-feature model; 0 means 1e-4, negative means none.
+	// With n training rows this matches scikit-learn's LogisticRegression with
+	// C = 1/(λ·n).
+	L2 float64 `json:"l2,omitempty"`
+	// ValFrac is the fraction of rows held out (seeded, at random) for
+	// validation and early stopping; 0 means 0.1, negative means no validation
+	// (the head is then the last epoch's weights).
+	ValFrac float64 `json:"val_frac,omitempty"`
+	// Patience is the number of epochs without a lower validation loss after
+	// which training stops; 0 means 5, negative means never stop early. With
+	// validation the head holds the weights of the epoch with the lowest
+	// validation loss.
+	Patience int `json:"patience,omitempty"`
+	// Seed drives the validation split, the initial weights and the minibatch
+	// order; the same seed, data and config give bit-identical heads.
+	Seed uint64 `json:"seed,omitempty"`
+}
+
+// resolved returns c with defaults filled in, or an error naming the bad field.
+func (c HeadConfig) resolved() (HeadConfig, error) {
+	r := c
+	switch r.Kind {
+	case "":
+		r.Kind = KindSoftmax
+	case KindSoftmax, KindMLP:
+	default:
+		return r, fmt.Errorf("learn: HeadConfig.Kind %q: want %q or %q", c.Kind, KindSoftmax, KindMLP)
+	}
+	if r.Kind == KindMLP {
+		if r.Hidden == 0 {
+			r.Hidden = 256
+		}
+		if r.Hidden < 1 || r.Hidden > maxHidden {
+			return r, fmt.Errorf("learn: HeadConfig.Hidden %d outside [1, %d]", c.Hidden, maxHidden)
+		}
+	} else {
+		r.Hidden = 0
+	}
+	if r.Epochs == 0 {
+		r.Epochs = 30
+	}
+	if r.Epochs < 1 || r.Epochs > maxEpochs {
+		return r, fmt.Errorf("learn: HeadConfig.Epochs %d outside [1, %d]", c.Epochs, maxEpochs)
+	}
+	if r.Batch == 0 {
+		r.Batch = 128
+	}
+	if r.Batch < 1 {
+		return r, fmt.Errorf("learn: HeadConfig.Batch %d: want ≥ 1 (0 means 128)", c.Batch)
+	}
+	switch r.Optimizer {
+	case "":
+		r.Optimizer = OptAdam
+	case OptAdam, OptSGD:
+	default:
+		return r, fmt.Errorf("learn: HeadConfig.Optimizer %q: want %q or %q", c.Optimizer, OptAdam, OptSGD)
+	}
+	if r.LR == 0 {
+		r.LR = 1e-3
+		if r.Optimizer == OptSGD {
+			r.LR = 0.05
+		}
+	}
+	if !(r.LR > 0 && r.LR < 100) {
+		return r, fmt.Errorf("learn: HeadConfig.LR %g outside (0, 100)", c.LR)
+	}
+	if r.Momentum == 0 {
+		r.Momentum = 0.9
+	}
+	if r.Momentum < 0 {
+		r.Momentum = 0
+	}
+	if r.Momentum >= 1 || math.IsNaN(r.Momentum) {
+		return r, fmt.Errorf("learn: HeadConfig.Momentum %g: want < 1", c.Momentum)
+	}
+	switch r.Schedule {
+	case "":
+		r.Schedule = ScheduleConstant
+	case ScheduleConstant, ScheduleCosine:
+	default:
+		return r, fmt.Errorf("learn: HeadConfig.Schedule %q: want %q or %q", c.Schedule, ScheduleConstant, ScheduleCosine)
+	}
+	if r.L2 == 0 {
+		r.L2 = 1e-4
+	}
+	if r.L2 < 0 {
+		r.L2 = 0
+	}
+	if math.IsNaN(r.L2) || math.IsInf(r.L2, 0) {
+		return r, fmt.Errorf("learn: HeadConfig.L2 %g is not finite", c.L2)
+	}
+	if r.ValFrac == 0 {
+		r.ValFrac = 0.1
+	}
+	if r.ValFrac < 0 {
+		r.ValFrac = 0
+	}
+	if !(r.ValFrac < 0.9) {
+		return r, fmt.Errorf("learn: HeadConfig.ValFrac %g: want < 0.9 (0 means 0.1, negative none)", c.ValFrac)
+	}
+	if r.Patience == 0 {
+		r.Patience = 5
+	}
+	if r.Patience < 0 {
+		r.Patience = 0 // never stop
+	}
+	return r, nil
+}
+
+// HeadFitOptions carries the run-time (non-model) options of HeadConfig.FitWith.
+type HeadFitOptions struct {
+	// Progress receives one Step per epoch; nil is silent.
+	Progress Progress
+	// CheckpointEvery > 0 calls Checkpoint after every that many epochs.
+	CheckpointEvery int
+	// Checkpoint receives the training state. If it returns an error the fit
+	// stops there and FitWith returns that error (wrapped): this is how a run
+	// is interrupted on purpose. The checkpoint is not retained by the fit.
+	Checkpoint func(*HeadCheckpoint) error
+	// Resume, if not nil, continues the run a checkpoint recorded. The data and
+	// config must be those of the interrupted run; the result is then
+	// bit-identical to an uninterrupted run.
+	Resume *HeadCheckpoint
+}
+
+// HeadReport describes a finished fit.
+type HeadReport struct {
+	Config        HeadConfig // with defaults filled in
+	NTrain, NVal  int        // rows used for training and validation
+	Batch         int        // effective minibatch size
+	StepsPerEpoch int
+	Epochs        int       // epochs run, including those before a resume
+	BestEpoch     int       // 1-based epoch whose weights the head holds
+	Stopped       bool      // early stopping ended the run before Config.Epochs
+	TrainLoss     []float64 // per epoch: mean minibatch loss, L2 term included
+	ValLoss       []float64 // per epoch: mean cross-entropy on validation (nil without)
+	ValAcc        []float64 // per epoch: validation accuracy (nil without)
+	Elapsed       time.Duration
+}
+
+// Fit trains a head on n = len(y) feature vectors X (row-major n×d, d =
+// len(X)/n) with labels y in [0, nClasses). progress may be nil.
+func (c HeadConfig) Fit(X []float32, y []int, nClasses int, progress Progress) (*Head, HeadReport, error) {
+	return c.FitWith(X, y, nClasses, HeadFitOptions{Progress: progress})
+}
+
+// FitWith is Fit with checkpointing and resumption.
+func (c HeadConfig) FitWith(X []float32, y []int, nClasses int, opt HeadFitOptions) (*Head, HeadReport, error) {
+	start := time.Now()
+	cfg, err := c.resolved()
+	rep := HeadReport{Config: cfg}
+	if err != nil {
+		return nil, rep, err
+	}
+	n := len(y)
+	if n < 2 {
+		return nil, rep, fmt.Errorf("learn: head fit: %d labelled rows, need at least 2", n)
+	}
+	if len(X)%n != 0 || len(X) == 0 {
+		return nil, rep, fmt.Errorf("learn: head fit: len(X) = %d is not a positive multiple of len(y) = %d", len(X), n)
+	}
+	d := len(X) / n
+	if nClasses < 2 {
+		return nil, rep, fmt.Errorf("learn: head fit: nClasses %d, need at least 2", nClasses)
+	}
+	for i, v := range y {
+		if v < 0 || v >= nClasses {
+			return nil, rep, &HeadDataError{Field: "y", Index: i, Msg: fmt.Sprintf("label %d outside [0, %d)", v, nClasses)}
+		}
+	}
+	for i, v := range X {
+		if math.IsNaN(float64(v)) || math.IsInf(float64(v), 0) {
+			return nil, rep, &HeadDataError{Field: "X", Index: i, Msg: fmt.Sprintf("feature %d of row %d is %g", i%d, i/d, v)}
+		}
+	}
+	if opt.CheckpointEvery < 0 {
+		return nil, rep, fmt.Errorf("learn: HeadFitOptions.CheckpointEvery %d: want ≥ 0", opt.CheckpointEvery)
+	}
+
+	// Validation split: a seeded permutation, the first nVal rows held out.
+	perm := rand.New(rand.NewPCG(cfg.Seed, 0x7661_6c69_6461_7465)).Perm(n)
+	nVal := 0
+	if cfg.ValFrac > 0 {
+		nVal = int(math.Round(cfg.ValFrac * float64(n)))
+		nVal = max(1, min(nVal, n-1))
+	}
+	val, train := perm[:nVal], append([]int(nil), perm[nVal:]...)
+	nTrain := len(train)
+	batch := min(cfg.Batch, nTrain)
+	steps := nTrain / batch
+	rep.NTrain, rep.NVal, rep.Batch, rep.StepsPerEpoch = nTrain, nVal, batch, steps
+
+	mean, std := standardize(X, d, train)
+
+	net, err := nn.New(nn.Spec{In: d, Hidden: cfg.Hidden, Out: nClasses, Batch: batch, L2: cfg.L2})
+	if err != nil {
+		return nil, rep, fmt.Errorf("learn: head fit: %w", err)
+	}
+	defer net.Close()
+	params := net.Params32()
+	grads := make([][]float32, len(params))
+	st := &headState{}
+	for i, p := range params {
+		grads[i] = make([]float32, len(p))
+		st.opt1 = append(st.opt1, make([]float32, len(p)))
+		if cfg.Optimizer == OptAdam {
+			st.opt2 = append(st.opt2, make([]float32, len(p)))
+		}
+	}
+	cfgJSON, _ := json.Marshal(cfg)
+	fp := headFingerprint(cfgJSON, X, y, nClasses)
+	if opt.Resume != nil {
+		if err := opt.Resume.restore(st, params, fp); err != nil {
+			return nil, rep, err
+		}
+	} else {
+		headInit(params, cfg, d, nClasses)
+		st.bestLoss = math.Inf(1)
+	}
+
+	valX := headGatherRows(nil, X, d, val)
+	valY := make([]int, nVal)
+	for i, r := range val {
+		valY[i] = y[r]
+	}
+	xb, yb := net.X32(), net.Y32()
+	var probs, scratch []float32
+	for epoch := st.epoch; epoch < cfg.Epochs; epoch++ {
+		lr := cfg.LR
+		if cfg.Schedule == ScheduleCosine {
+			lr = cfg.LR * 0.5 * (1 + math.Cos(math.Pi*float64(epoch)/float64(cfg.Epochs)))
+		}
+		order := rand.New(rand.NewPCG(cfg.Seed, uint64(epoch)+1)).Perm(nTrain)
+		var lossSum float64
+		for s := 0; s < steps; s++ {
+			clear(yb)
+			for b := 0; b < batch; b++ {
+				r := train[order[s*batch+b]]
+				row := X[r*d : (r+1)*d]
+				dst := xb[b*d : (b+1)*d]
+				for j, v := range row {
+					dst[j] = (v - mean[j]) / std[j]
+				}
+				yb[b*nClasses+y[r]] = 1
+			}
+			loss, err := net.Eval(grads)
+			if err != nil {
+				return nil, rep, fmt.Errorf("learn: head fit: epoch %d step %d: %w (lower HeadConfig.LR)", epoch+1, s+1, err)
+			}
+			lossSum += loss
+			st.t++
+			headUpdate(params, grads, st, cfg, lr)
+		}
+		st.trainLoss = append(st.trainLoss, lossSum/float64(steps))
+		st.epoch = epoch + 1
+		msg := fmt.Sprintf("epoch %d loss %.4f", epoch+1, lossSum/float64(steps))
+		if nVal > 0 {
+			hd := headFromParams(cfg, d, nClasses, mean, std, params, false)
+			if len(scratch) < hd.ScratchLen(nVal) {
+				scratch = make([]float32, hd.ScratchLen(nVal))
+			}
+			probs = hd.PredictBatch(probs, valX, scratch)
+			vl, va := headCrossEntropy(probs, valY, nClasses)
+			st.valLoss = append(st.valLoss, vl)
+			st.valAcc = append(st.valAcc, va)
+			msg += fmt.Sprintf(" val %.4f acc %.4f", vl, va)
+			if vl < st.bestLoss {
+				st.bestLoss, st.bestEpoch, st.bad = vl, epoch+1, 0
+				st.best = headCopyParams(st.best, params)
+			} else {
+				st.bad++
+			}
+		} else {
+			st.bestEpoch = epoch + 1
+		}
+		if opt.Progress != nil {
+			opt.Progress.Step(epoch+1, cfg.Epochs, msg)
+		}
+		stop := nVal > 0 && cfg.Patience > 0 && st.bad >= cfg.Patience
+		if stop {
+			st.stopped = true
+		}
+		if opt.CheckpointEvery > 0 && opt.Checkpoint != nil && (epoch+1)%opt.CheckpointEvery == 0 && !stop && epoch+1 < cfg.Epochs {
+			if err := opt.Checkpoint(st.snapshot(params, fp)); err != nil {
+				st.fill(&rep)
+				rep.Elapsed = time.Since(start)
+				return nil, rep, fmt.Errorf("learn: head fit stopped by the checkpoint callback after epoch %d: %w", epoch+1, err)
+			}
+		}
+		if stop {
+			break
+		}
+	}
+	st.fill(&rep)
+	final := params
+	if nVal > 0 && st.best != nil {
+		final = st.best
+	}
+	rep.Elapsed = time.Since(start)
+	return headFromParams(cfg, d, nClasses, mean, std, final, true), rep, nil
+}
+
+// HeadDataError reports bad training data.
+type HeadDataError struct {
+	Field string // "X" or "y"
+	Index int    // flat index of the offending value
+	Msg   string
+}
+
+func (e *HeadDataError) Error() string {
+	return fmt.Sprintf("learn: bad %s at index %d: %s", e.Field, e.Index, e.Msg)
+}
+
+// headState is everything a checkpoint must carry besides the parameters.
+type headState struct {
+	epoch, t        int         // epochs done, optimiser steps done
+	opt1, opt2      [][]float32 // adam m, v; sgd velocity in opt1
+	best            [][]float32 // parameters at bestEpoch (validation only)
+	bestLoss        float64
+	bestEpoch, bad  int
+	stopped         bool
+	trainLoss       []float64
+	valLoss, valAcc []float64
+}
+
+func (st *headState) fill(rep *HeadReport) {
+	rep.Epochs, rep.BestEpoch, rep.Stopped = st.epoch, st.bestEpoch, st.stopped
+	rep.TrainLoss = append([]float64(nil), st.trainLoss...)
+	if rep.NVal > 0 {
+		rep.ValLoss = append([]float64(nil), st.valLoss...)
+		rep.ValAcc = append([]float64(nil), st.valAcc...)
+	}
+}
+
+// update applies one optimiser step with learning rate lr.
+func headUpdate(params, grads [][]float32, st *headState, cfg HeadConfig, lr float64) {
+	if cfg.Optimizer == OptAdam {
+		// Kingma & Ba (2015), Algorithm 1, with the bias corrections folded
+		// into the step size: α_t = α·sqrt(1−β2^t)/(1−β1^t) and ε̂ = ε·sqrt(1−β2^t).
+		t := float64(st.t)
+		c2 := math.Sqrt(1 - math.Pow(adamBeta2, t))
+		step := float32(lr * c2 / (1 - math.Pow(adamBeta1, t)))
+		eps := float32(adamEps * c2)
+		const b1, b2 = float32(adamBeta1), float32(adamBeta2)
+		for i, p := range params {
+			g, m, v := grads[i], st.opt1[i], st.opt2[i]
+			for j := range p {
+				gj := g[j]
+				m[j] = b1*m[j] + (1-b1)*gj
+				v[j] = b2*v[j] + (1-b2)*gj*gj
+				p[j] -= step * m[j] / (float32(math.Sqrt(float64(v[j]))) + eps)
+			}
+		}
+		return
+	}
+	mu, a := float32(cfg.Momentum), float32(lr)
+	for i, p := range params {
+		g, v := grads[i], st.opt1[i]
+		for j := range p {
+			v[j] = mu*v[j] + g[j]
+			p[j] -= a * v[j]
+		}
+	}
+}
+
+// headInit sets the starting weights: zero for softmax regression (the loss
+// is convex, so the start only affects speed), He-normal N(0, 2/fan-in) for
+// the ReLU layer (He et al. 2015) and N(0, 1/fan-in) for the output layer of an
+// mlp; biases zero.
+func headInit(params [][]float32, cfg HeadConfig, d, k int) {
+	for _, p := range params {
+		clear(p)
+	}
+	if cfg.Kind != KindMLP {
+		return
+	}
+	rng := rand.New(rand.NewPCG(cfg.Seed, 0x696e_6974))
+	s1 := math.Sqrt(2 / float64(d))
+	for j := range params[0] {
+		params[0][j] = float32(s1 * rng.NormFloat64())
+	}
+	s2 := math.Sqrt(1 / float64(cfg.Hidden))
+	for j := range params[2] {
+		params[2][j] = float32(s2 * rng.NormFloat64())
+	}
+}
+
+func headCopyParams(dst, src [][]float32) [][]float32 {
+	if dst == nil {
+		dst = make([][]float32, len(src))
+	}
+	for i, s := range src {
+		dst[i] = append(dst[i][:0], s...)
+	}
+	return dst
+}
+
+// headFromParams builds a head; own=false copies the parameter slices.
+func headFromParams(cfg HeadConfig, d, k int, mean, std []float32, p [][]float32, own bool) *Head {
+	cp := func(s []float32) []float32 {
+		if own {
+			return s
+		}
+		return append([]float32(nil), s...)
+	}
+	m, sd := append([]float32(nil), mean...), append([]float32(nil), std...)
+	if cfg.Kind == KindMLP {
+		return newHead(KindMLP, d, cfg.Hidden, k, m, sd, cp(p[0]), cp(p[1]), cp(p[2]), cp(p[3]))
+	}
+	return newHead(KindSoftmax, d, 0, k, m, sd, cp(p[0]), cp(p[1]), nil, nil)
+}
+
+func headGatherRows(dst, X []float32, d int, rows []int) []float32 {
+	dst = dst[:0]
+	for _, r := range rows {
+		dst = append(dst, X[r*d:(r+1)*d]...)
+	}
+	return dst
+}
+
+// headCrossEntropy returns the mean −log p(y) (probabilities floored at 1e-30 so a
+// confident mistake costs 69 nats, not +Inf) and the accuracy.
+func headCrossEntropy(probs []float32, y []int, k int) (loss, acc float64) {
+	for i, c := range y {
+		row := probs[i*k : (i+1)*k]
+		loss -= math.Log(math.Max(float64(row[c]), 1e-30))
+		best := 0
+		for j, v := range row {
+			if v > row[best] {
+				best = j
+			}
+		}
+		if best == c {
+			acc++
+		}
+	}
+	return loss / float64(len(y)), acc / float64(len(y))
+}
+
+// fingerprint identifies a (config, data) pair so a checkpoint is not resumed
+// on something else.
+func headFingerprint(cfgJSON []byte, X []float32, y []int, k int) [32]byte {
+	h := sha256.New()
+	h.Write(cfgJSON)
+	var buf [8 << 10]byte
+	put := func(vals int, at func(i int) uint32) {
+		for i := 0; i < vals; {
+			j := 0
+			for ; j+4 <= len(buf) && i < vals; i, j = i+1, j+4 {
+				binary.LittleEndian.PutUint32(buf[j:], at(i))
+			}
+			h.Write(buf[:j])
+		}
+	}
+	put(len(X), func(i int) uint32 { return math.Float32bits(X[i]) })
+	put(len(y), func(i int) uint32 { return uint32(y[i]) })
+	binary.LittleEndian.PutUint32(buf[:4], uint32(k))
+	h.Write(buf[:4])
+	var out [32]byte
+	copy(out[:], h.Sum(nil))
+	return out
+}
+
+// ErrHeadCheckpointMismatch reports a checkpoint resumed with other data or config.
+var ErrHeadCheckpointMismatch = errors.New("learn: checkpoint was written for a different config or data set")

@@ -3,6 +3,8 @@ package eval
 import (
 	"fmt"
 	"math"
+
+	"github.com/striate/striate/datasets"
 )
 
 // Predictor is what eval needs from a fitted pipeline: the number of classes
@@ -174,4 +176,17 @@ func Classify(probs [][]float32) []int {
 		out[i] = Argmax(p)
 	}
 	return out
+}
+
+// FromSet converts a datasets.Set to Data (pixel/255 as float32; one
+// allocation for all images).
+func FromSet(s *datasets.Set) *Data {
+	n := s.H * s.W
+	flat := make([]float32, s.N*n)
+	d := &Data{Name: s.Name, Source: s.Source, H: s.H, W: s.W, Images: make([][]float32, s.N),
+		Labels: append([]int(nil), s.Labels...), Classes: append([]string(nil), s.Classes...)}
+	for i := range s.N {
+		d.Images[i] = s.Float(flat[i*n:(i+1)*n:(i+1)*n], i)
+	}
+	return d
 }

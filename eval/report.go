@@ -1,0 +1,609 @@
+package eval
+
+import (
+	"encoding/base64"
+	"encoding/json"
+	"fmt"
+	"html"
+	"math"
+	"os"
+	"path/filepath"
+	"strings"
+	"time"
+
+	"github.com/striate/striate/v1layer"
+)
+
+// Report is everything one evaluation run produced, as plain data, so a
+// command can fill it piece by piece and WriteReport can render it. Empty
+// sections are left out of the rendering.
+type Report struct {
+	Title   string    `json:"title"`
+	Created time.Time `json:"created"`
+	Summary string    `json:"summary,omitempty"` // one paragraph under the title
+	Command string    `json:"command,omitempty"` // the command line that produced it
+	// Config is any JSON-marshalable configuration (e.g. pipeline.Config
+	// values keyed by model name); it is shown as indented JSON.
+	Config      any                `json:"config,omitempty"`
+	Data        []Provenance       `json:"data,omitempty"`
+	Models      []ModelResult      `json:"models,omitempty"`
+	Comparisons []*Comparison      `json:"comparisons,omitempty"`
+	Robustness  []*Robustness      `json:"robustness,omitempty"`
+	Labels      []*LabelCurve      `json:"label_efficiency,omitempty"`
+	Invariance  []InvarianceResult `json:"invariance,omitempty"`
+	Figures     []Figure           `json:"figures,omitempty"` // extra figures, e.g. filter mosaics
+	Notes       []string           `json:"notes,omitempty"`
+}
+
+// Provenance says where a data set came from.
+type Provenance struct {
+	Name    string   `json:"name"`
+	Source  string   `json:"source"`
+	Train   int      `json:"train"` // images used for training (0 if none)
+	Test    int      `json:"test"`  // images used for testing
+	H       int      `json:"h"`
+	W       int      `json:"w"`
+	Classes []string `json:"classes"`
+	Note    string   `json:"note,omitempty"`
+}
+
+// ModelResult is one fitted model's scores on one test set.
+type ModelResult struct {
+	Name         string   `json:"name"`
+	Data         string   `json:"data"` // Provenance.Name of its test set
+	Description  string   `json:"description,omitempty"`
+	TrainSeconds float64  `json:"train_seconds,omitempty"`
+	Metrics      *Metrics `json:"metrics"`
+	Speed        *Speed   `json:"speed,omitempty"`
+}
+
+// InvarianceResult is the grating probe of one front end; Channels, when
+// set, names each row's kind, orientation and wavelength.
+type InvarianceResult struct {
+	Model    string              `json:"model"`
+	Channels []v1layer.Channel   `json:"channels,omitempty"`
+	Rows     []ChannelInvariance `json:"rows"`
+}
+
+// Figure is a PNG figure supplied by the caller. Name becomes the file stem
+// under figures/ (letters, digits and '-' are kept).
+type Figure struct {
+	Name    string `json:"name"`
+	Title   string `json:"title"`
+	Caption string `json:"caption,omitempty"`
+	PNG     []byte `json:"-"`
+}
+
+// Files written by WriteReport inside its folder.
+const (
+	ReportMarkdown = "report.md"
+	ReportHTML     = "report.html"
+	ReportJSON     = "results.json"
+	ReportFigures  = "figures"
+)
+
+// WriteReport renders r into dir (created if missing): report.md with its
+// figures as PNG files under figures/, report.html with the same content and
+// every figure embedded as a data: URI (one self-contained file), and
+// results.json with r as JSON. It returns the paths written. Tables are
+// GitHub-flavoured markdown tables with one header row, so both files parse
+// mechanically; results.json carries the full precision.
+func WriteReport(dir string, r *Report) ([]string, error) {
+	if r == nil {
+		return nil, fmt.Errorf("eval: WriteReport with a nil report")
+	}
+	if r.Created.IsZero() {
+		r.Created = time.Now().UTC()
+	}
+	doc, err := buildDoc(r)
+	if err != nil {
+		return nil, err
+	}
+	figDir := filepath.Join(dir, ReportFigures)
+	if err := os.MkdirAll(figDir, 0o755); err != nil {
+		return nil, fmt.Errorf("eval: report folder: %w", err)
+	}
+	var written []string
+	write := func(name string, b []byte) error {
+		p := filepath.Join(dir, name)
+		if err := os.WriteFile(p, b, 0o644); err != nil {
+			return fmt.Errorf("eval: writing report: %w", err)
+		}
+		written = append(written, p)
+		return nil
+	}
+	for _, b := range doc {
+		if f, ok := b.(figBlock); ok {
+			if err := write(filepath.Join(ReportFigures, f.file), f.png); err != nil {
+				return nil, err
+			}
+		}
+	}
+	if err := write(ReportMarkdown, []byte(renderMarkdown(doc))); err != nil {
+		return nil, err
+	}
+	if err := write(ReportHTML, []byte(renderHTML(r.Title, doc))); err != nil {
+		return nil, err
+	}
+	js, err := json.MarshalIndent(sanitizeJSON(r), "", " ")
+	if err != nil {
+		return nil, fmt.Errorf("eval: encoding results.json: %w", err)
+	}
+	if err := write(ReportJSON, append(js, '\n')); err != nil {
+		return nil, err
+	}
+	return written, nil
+}
+
+// sanitizeJSON round-trips r through a JSON encoding with NaN and ±Inf
+// replaced by null, so results.json is always valid JSON.
+func sanitizeJSON(r *Report) any {
+	cp := *r
+	for i := range cp.Models {
+		if s := cp.Models[i].Speed; s != nil {
+			cs := *s
+			for _, f := range []*float64{&cs.ExtractPerSec, &cs.PredictPerSec, &cs.LatencyP50, &cs.LatencyP99} {
+				if math.IsNaN(*f) || math.IsInf(*f, 0) {
+					*f = 0
+				}
+			}
+			cp.Models[i].Speed = &cs
+		}
+	}
+	return &cp
+}
+
+// The report is first built as a list of blocks, then rendered twice.
+type block interface{ isBlock() }
+
+type headBlock struct {
+	level int
+	text  string
+}
+type paraBlock struct{ text string }
+type codeBlock struct{ text string }
+type tableBlock struct {
+	header []string
+	rows   [][]string
+}
+type figBlock struct {
+	file, title, caption string
+	png                  []byte
+}
+type listBlock struct{ items []string }
+
+func (headBlock) isBlock()  {}
+func (paraBlock) isBlock()  {}
+func (codeBlock) isBlock()  {}
+func (tableBlock) isBlock() {}
+func (figBlock) isBlock()   {}
+func (listBlock) isBlock()  {}
+
+func slug(s string) string {
+	var b strings.Builder
+	dash := false
+	for _, r := range strings.ToLower(s) {
+		if r >= 'a' && r <= 'z' || r >= '0' && r <= '9' {
+			b.WriteRune(r)
+			dash = false
+		} else if !dash && b.Len() > 0 {
+			b.WriteByte('-')
+			dash = true
+		}
+	}
+	return strings.TrimRight(b.String(), "-")
+}
+
+func f4(x float64) string { return fmt.Sprintf("%.4f", x) }
+
+// secs formats a duration in seconds; empty when unknown (0).
+func secs(s float64) string {
+	if s == 0 {
+		return ""
+	}
+	return fmt.Sprintf("%.1f", s)
+}
+
+func buildDoc(r *Report) ([]block, error) {
+	var doc []block
+	add := func(b ...block) { doc = append(doc, b...) }
+	used := map[string]int{}
+	fig := func(stem, title, caption string, png []byte) {
+		s := slug(stem)
+		if s == "" {
+			s = "figure"
+		}
+		used[s]++
+		if used[s] > 1 {
+			s = fmt.Sprintf("%s-%d", s, used[s])
+		}
+		add(figBlock{s + ".png", title, caption, png})
+	}
+
+	title := r.Title
+	if title == "" {
+		title = "striate evaluation report"
+	}
+	add(headBlock{1, title})
+	meta := "Created " + r.Created.UTC().Format(time.RFC3339) + "."
+	if r.Command != "" {
+		meta += " Command: `" + r.Command + "`."
+	}
+	add(paraBlock{meta})
+	if r.Summary != "" {
+		add(paraBlock{r.Summary})
+	}
+
+	if len(r.Data) > 0 {
+		add(headBlock{2, "Data"})
+		t := tableBlock{header: []string{"data", "source", "train images", "test images", "size (px)", "classes"}}
+		for _, d := range r.Data {
+			t.rows = append(t.rows, []string{d.Name, d.Source, fmt.Sprint(d.Train), fmt.Sprint(d.Test),
+				fmt.Sprintf("%d×%d", d.H, d.W), strings.Join(d.Classes, ", ")})
+		}
+		add(t)
+		for _, d := range r.Data {
+			if d.Note != "" {
+				add(paraBlock{d.Name + ": " + d.Note})
+			}
+		}
+	}
+
+	if len(r.Models) > 0 {
+		add(headBlock{2, "Accuracy"})
+		add(paraBlock{"Accuracy with its 95% Wilson score interval; macro F1 is the unweighted mean over classes; " +
+			"log-loss in nats; ECE is the expected calibration error over 15 equal-width confidence bins (Guo et al. 2017)."})
+		t := tableBlock{header: []string{"model", "data", "n", "accuracy", "ci_low", "ci_high", "macro_f1", "weighted_f1", "top2", "log_loss", "ece", "train_s"}}
+		for _, m := range r.Models {
+			if m.Metrics == nil {
+				return nil, fmt.Errorf("eval: report model %q has no metrics", m.Name)
+			}
+			mm := m.Metrics
+			top2 := ""
+			for _, tk := range mm.TopK {
+				if tk.K == 2 {
+					top2 = f4(tk.Accuracy)
+				}
+			}
+			t.rows = append(t.rows, []string{m.Name, m.Data, fmt.Sprint(mm.N), f4(mm.Accuracy), f4(mm.CI.Lo), f4(mm.CI.Hi),
+				f4(mm.Macro.F1), f4(mm.Weighted.F1), top2, f4(mm.LogLoss), f4(mm.ECE), secs(m.TrainSeconds)})
+		}
+		add(t)
+		for _, m := range r.Models {
+			if m.Description != "" {
+				add(paraBlock{"**" + m.Name + "**: " + m.Description})
+			}
+		}
+		// Per data set: per-class bars and reliability over its models.
+		for _, dname := range dataOrder(r.Models) {
+			var names []string
+			var ms []*Metrics
+			for _, m := range r.Models {
+				if m.Data == dname {
+					names = append(names, m.Name)
+					ms = append(ms, m.Metrics)
+				}
+			}
+			png, err := PerClassFigure(names, ms, "Per-class F1 on "+dname)
+			if err != nil {
+				return nil, err
+			}
+			fig("per-class-"+dname, "Per-class F1 on "+dname, "F1 score of each class, one bar per model.", png)
+			png, err = ReliabilityFigure(names, ms, "Reliability on "+dname)
+			if err != nil {
+				return nil, err
+			}
+			fig("reliability-"+dname, "Reliability on "+dname,
+				"Accuracy against mean confidence in each of 15 confidence bins; points on the dashed diagonal are calibrated.", png)
+		}
+		add(headBlock{2, "Per-class scores and confusion matrices"})
+		for _, m := range r.Models {
+			mm := m.Metrics
+			add(headBlock{3, m.Name + " on " + m.Data})
+			t := tableBlock{header: []string{"class", "precision", "recall", "f1", "support"}}
+			for _, c := range mm.PerClass {
+				t.rows = append(t.rows, []string{c.Class, f4(c.Precision), f4(c.Recall), f4(c.F1), fmt.Sprint(c.Support)})
+			}
+			t.rows = append(t.rows, []string{"macro avg", f4(mm.Macro.Precision), f4(mm.Macro.Recall), f4(mm.Macro.F1), fmt.Sprint(mm.N)})
+			t.rows = append(t.rows, []string{"weighted avg", f4(mm.Weighted.Precision), f4(mm.Weighted.Recall), f4(mm.Weighted.F1), fmt.Sprint(mm.N)})
+			add(t)
+			ct := tableBlock{header: append([]string{"true \\ predicted"}, mm.Classes...)}
+			for i, row := range mm.Confusion {
+				cells := []string{mm.Classes[i]}
+				for _, v := range row {
+					cells = append(cells, fmt.Sprint(v))
+				}
+				ct.rows = append(ct.rows, cells)
+			}
+			add(ct)
+			png, err := ConfusionFigure(mm, "Confusion: "+m.Name+" on "+m.Data)
+			if err != nil {
+				return nil, err
+			}
+			fig("confusion-"+m.Name+"-"+m.Data, "Confusion matrix of "+m.Name+" on "+m.Data,
+				"Rows are true classes, columns predicted; numbers are counts, colour is the fraction of the true class (the diagonal is per-class recall).", png)
+		}
+	}
+
+	if len(r.Comparisons) > 0 {
+		add(headBlock{2, "Paired comparisons"})
+		add(paraBlock{"Same test images for both models. only_a / only_b count the images only one of them gets right; " +
+			"p is the exact two-sided McNemar test on those discordant pairs; the difference (a − b) has a paired bootstrap percentile interval."})
+		t := tableBlock{header: []string{"a", "b", "n", "accuracy_a", "accuracy_b", "diff", "diff_ci_low", "diff_ci_high", "only_a", "only_b", "mcnemar_p", "resamples"}}
+		for _, c := range r.Comparisons {
+			t.rows = append(t.rows, []string{c.NameA, c.NameB, fmt.Sprint(c.N), f4(c.AccuracyA), f4(c.AccuracyB), f4(c.Diff),
+				f4(c.DiffCI.Lo), f4(c.DiffCI.Hi), fmt.Sprint(c.OnlyA), fmt.Sprint(c.OnlyB), fmt.Sprintf("%.4g", c.PValue), fmt.Sprint(c.Resamples)})
+		}
+		add(t)
+	}
+
+	if len(r.Robustness) > 0 {
+		add(headBlock{2, "Robustness"})
+		add(paraBlock{"Models trained on clean images, tested on perturbed copies of the test set (the same perturbed images for every model); accuracy with 95% Wilson interval."})
+		t := tableBlock{header: []string{"model", "data", "kind", "level", "unit", "perturbation", "accuracy", "ci_low", "ci_high"}}
+		for _, rb := range r.Robustness {
+			for _, p := range rb.Points {
+				t.rows = append(t.rows, []string{rb.Model, rb.Data, p.Kind, fmt.Sprintf("%g", p.Level), p.Unit, p.Label, f4(p.Accuracy), f4(p.CI.Lo), f4(p.CI.Hi)})
+			}
+		}
+		add(t)
+		for _, dname := range robDataOrder(r.Robustness) {
+			var cs []*Robustness
+			for _, rb := range r.Robustness {
+				if rb.Data == dname {
+					cs = append(cs, rb)
+				}
+			}
+			png, err := RobustnessFigure(cs)
+			if err != nil {
+				return nil, err
+			}
+			fig("robustness-"+dname, "Robustness on "+dname,
+				"Test accuracy against perturbation level, one panel per perturbation; bars are 95% Wilson intervals.", png)
+		}
+	}
+
+	if len(r.Labels) > 0 {
+		add(headBlock{2, "Label efficiency"})
+		add(paraBlock{"Test accuracy after training on a class-balanced subset with the given number of labelled images per class (subsets nested across sizes)."})
+		t := tableBlock{header: []string{"model", "data", "per_class", "n_train", "repeat", "accuracy", "ci_low", "ci_high"}}
+		for _, lc := range r.Labels {
+			for _, p := range lc.Points {
+				t.rows = append(t.rows, []string{lc.Model, lc.Data, fmt.Sprint(p.PerClass), fmt.Sprint(p.NTrain), fmt.Sprint(p.Repeat), f4(p.Accuracy), f4(p.CI.Lo), f4(p.CI.Hi)})
+			}
+		}
+		add(t)
+		byData := map[string][]*LabelCurve{}
+		var order []string
+		for _, lc := range r.Labels {
+			if _, ok := byData[lc.Data]; !ok {
+				order = append(order, lc.Data)
+			}
+			byData[lc.Data] = append(byData[lc.Data], lc)
+		}
+		for _, dname := range order {
+			png, err := LabelFigure(byData[dname], "Label efficiency on "+dname)
+			if err != nil {
+				return nil, err
+			}
+			fig("label-efficiency-"+dname, "Label efficiency on "+dname, "Test accuracy against labelled training images per class; bars are 95% Wilson intervals.", png)
+		}
+	}
+
+	if len(r.Invariance) > 0 {
+		add(headBlock{2, "Front-end invariance"})
+		add(paraBlock{"Each front-end channel probed with full-field sinusoidal gratings over orientation, wavelength and phase. " +
+			"phase_corr: correlation of the centre response a quarter cycle apart (1 = phase-invariant, 0 = linear); " +
+			"shift_corr: correlation of the whole map under a 1 px shift; F1/F0 at the preferred grating classifies simple (> 1) and complex (< 1) cells (Skottun et al. 1991)."})
+		for _, iv := range r.Invariance {
+			add(headBlock{3, iv.Model})
+			t := tableBlock{header: []string{"channel", "kind", "orientation_deg", "wavelength_px", "pref_orientation_deg", "pref_wavelength_px", "phase_corr", "shift_corr", "f1_f0"}}
+			var labels []string
+			for i, row := range iv.Rows {
+				kind, ori, wl := "", "", ""
+				if i < len(iv.Channels) {
+					ch := iv.Channels[i]
+					kind = ch.Kind.String()
+					ori = fmt.Sprintf("%.1f", ch.Orientation*180/math.Pi)
+					wl = fmt.Sprintf("%.2f", ch.Wavelength)
+				}
+				labels = append(labels, fmt.Sprintf("%d %s", i, kind))
+				t.rows = append(t.rows, []string{fmt.Sprint(row.Channel), kind, ori, wl, fmt.Sprintf("%.1f", row.PrefOrientation*180/math.Pi),
+					fmt.Sprintf("%g", row.PrefWavelength), f4(row.PhaseCorr), f4(row.ShiftCorr), fmt.Sprintf("%.4g", row.Modulation)})
+			}
+			add(t)
+			png, err := InvarianceFigure(iv.Rows, labels, "Invariance of "+iv.Model)
+			if err != nil {
+				return nil, err
+			}
+			fig("invariance-"+iv.Model, "Grating invariance of "+iv.Model,
+				"Top: phase and shift correlation per channel. Bottom: F1/F0 modulation ratio at the preferred grating "+
+					"(log scale; linear cells, whose mean response is 0, are capped at 100; values below 0.001 are drawn at 0.001).", png)
+		}
+	}
+
+	var speedRows [][]string
+	for _, m := range r.Models {
+		if s := m.Speed; s != nil {
+			speedRows = append(speedRows, []string{m.Name, fmt.Sprint(s.Images), fmt.Sprint(s.Workers), fmt.Sprintf("%.0f", s.ExtractPerSec),
+				fmt.Sprintf("%.0f", s.PredictPerSec), fmt.Sprintf("%.3f", s.LatencyP50), fmt.Sprintf("%.3f", s.LatencyP99),
+				fmt.Sprintf("%.1f", float64(s.HeapPeak)/(1<<20)), fmt.Sprint(s.ModelBytes)})
+		}
+	}
+	if len(speedRows) > 0 {
+		add(headBlock{2, "Speed and memory"})
+		add(paraBlock{"Throughput in images per second of wall time (median of repeats, batches over all workers); latency of single-image prediction on one worker; " +
+			"peak heap is the largest sampled live-heap size during the runs, in MiB; model size is the saved file in bytes."})
+		add(tableBlock{header: []string{"model", "images", "workers", "extract_img_per_s", "predict_img_per_s", "latency_p50_ms", "latency_p99_ms", "peak_heap_mib", "model_bytes"}, rows: speedRows})
+	}
+
+	if len(r.Figures) > 0 {
+		add(headBlock{2, "Filters and other figures"})
+		for _, f := range r.Figures {
+			if len(f.PNG) == 0 {
+				return nil, fmt.Errorf("eval: report figure %q has no PNG data", f.Name)
+			}
+			fig(f.Name, f.Title, f.Caption, f.PNG)
+		}
+	}
+
+	if r.Config != nil {
+		add(headBlock{2, "Configuration"})
+		js, err := json.MarshalIndent(r.Config, "", "  ")
+		if err != nil {
+			return nil, fmt.Errorf("eval: report configuration: %w", err)
+		}
+		add(codeBlock{string(js)})
+	}
+	if len(r.Notes) > 0 {
+		add(headBlock{2, "Notes"})
+		add(listBlock{r.Notes})
+	}
+	return doc, nil
+}
+
+func dataOrder(ms []ModelResult) []string {
+	var out []string
+	seen := map[string]bool{}
+	for _, m := range ms {
+		if !seen[m.Data] {
+			seen[m.Data] = true
+			out = append(out, m.Data)
+		}
+	}
+	return out
+}
+
+func robDataOrder(rs []*Robustness) []string {
+	var out []string
+	seen := map[string]bool{}
+	for _, r := range rs {
+		if !seen[r.Data] {
+			seen[r.Data] = true
+			out = append(out, r.Data)
+		}
+	}
+	return out
+}
+
+// mdCell makes a string safe inside a markdown table cell.
+func mdCell(s string) string {
+	s = strings.ReplaceAll(s, "|", `\|`)
+	return strings.ReplaceAll(s, "\n", " ")
+}
+
+func renderMarkdown(doc []block) string {
+	var b strings.Builder
+	for _, bl := range doc {
+		switch v := bl.(type) {
+		case headBlock:
+			fmt.Fprintf(&b, "%s %s\n\n", strings.Repeat("#", v.level), v.text)
+		case paraBlock:
+			fmt.Fprintf(&b, "%s\n\n", v.text)
+		case codeBlock:
+			fmt.Fprintf(&b, "```json\n%s\n```\n\n", v.text)
+		case listBlock:
+			for _, it := range v.items {
+				fmt.Fprintf(&b, "- %s\n", it)
+			}
+			b.WriteString("\n")
+		case tableBlock:
+			cells := make([]string, len(v.header))
+			for i, h := range v.header {
+				cells[i] = mdCell(h)
+			}
+			fmt.Fprintf(&b, "| %s |\n", strings.Join(cells, " | "))
+			seps := make([]string, len(v.header))
+			for i := range seps {
+				seps[i] = "---"
+			}
+			fmt.Fprintf(&b, "|%s|\n", strings.Join(seps, "|"))
+			for _, row := range v.rows {
+				cells := make([]string, len(row))
+				for i, c := range row {
+					cells[i] = mdCell(c)
+				}
+				fmt.Fprintf(&b, "| %s |\n", strings.Join(cells, " | "))
+			}
+			b.WriteString("\n")
+		case figBlock:
+			fmt.Fprintf(&b, "![%s](%s/%s)\n\n", v.title, ReportFigures, v.file)
+			if v.caption != "" {
+				fmt.Fprintf(&b, "*%s*\n\n", v.caption)
+			}
+		}
+	}
+	return b.String()
+}
+
+// inlineMD renders the two inline forms the report uses, **bold** and
+// `code`, on already-escaped text.
+func inlineMD(s string) string {
+	s = html.EscapeString(s)
+	for _, pair := range [][3]string{{"**", "<strong>", "</strong>"}, {"`", "<code>", "</code>"}} {
+		for {
+			i := strings.Index(s, pair[0])
+			if i < 0 {
+				break
+			}
+			j := strings.Index(s[i+len(pair[0]):], pair[0])
+			if j < 0 {
+				break
+			}
+			j += i + len(pair[0])
+			s = s[:i] + pair[1] + s[i+len(pair[0]):j] + pair[2] + s[j+len(pair[0]):]
+		}
+	}
+	return s
+}
+
+const htmlStyle = `body{font-family:system-ui,-apple-system,"Segoe UI",Helvetica,Arial,sans-serif;max-width:1100px;margin:2em auto;padding:0 1em;color:#222;line-height:1.45}
+table{border-collapse:collapse;margin:1em 0;font-size:0.85em;display:block;overflow-x:auto}
+th,td{border:1px solid #ccc;padding:3px 7px;text-align:right;white-space:nowrap}
+th{background:#f0f3f7}td:first-child,th:first-child{text-align:left}
+figure{margin:1.5em 0}figure img{max-width:100%;border:1px solid #eee}figcaption{font-size:0.9em;color:#555}
+pre{background:#f6f8fa;padding:1em;overflow-x:auto;font-size:0.8em}code{background:#f6f8fa;padding:0 3px}`
+
+func renderHTML(title string, doc []block) string {
+	var b strings.Builder
+	fmt.Fprintf(&b, "<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n<title>%s</title>\n<style>\n%s\n</style>\n</head>\n<body>\n",
+		html.EscapeString(title), htmlStyle)
+	for _, bl := range doc {
+		switch v := bl.(type) {
+		case headBlock:
+			fmt.Fprintf(&b, "<h%d>%s</h%d>\n", v.level, inlineMD(v.text), v.level)
+		case paraBlock:
+			fmt.Fprintf(&b, "<p>%s</p>\n", inlineMD(v.text))
+		case codeBlock:
+			fmt.Fprintf(&b, "<pre><code>%s</code></pre>\n", html.EscapeString(v.text))
+		case listBlock:
+			b.WriteString("<ul>\n")
+			for _, it := range v.items {
+				fmt.Fprintf(&b, "<li>%s</li>\n", inlineMD(it))
+			}
+			b.WriteString("</ul>\n")
+		case tableBlock:
+			b.WriteString("<table>\n<thead><tr>")
+			for _, h := range v.header {
+				fmt.Fprintf(&b, "<th>%s</th>", html.EscapeString(h))
+			}
+			b.WriteString("</tr></thead>\n<tbody>\n")
+			for _, row := range v.rows {
+				b.WriteString("<tr>")
+				for _, c := range row {
+					fmt.Fprintf(&b, "<td>%s</td>", html.EscapeString(c))
+				}
+				b.WriteString("</tr>\n")
+			}
+			b.WriteString("</tbody>\n</table>\n")
+		case figBlock:
+			fmt.Fprintf(&b, "<figure>\n<img alt=\"%s\" src=\"data:image/png;base64,%s\">\n", html.EscapeString(v.title), base64.StdEncoding.EncodeToString(v.png))
+			if v.caption != "" {
+				fmt.Fprintf(&b, "<figcaption>%s</figcaption>\n", inlineMD(v.caption))
+			}
+			b.WriteString("</figure>\n")
+		}
+	}
+	b.WriteString("</body>\n</html>\n")
+	return b.String()
+}

@@ -1,0 +1,265 @@
+package eval
+
+import (
+	"bytes"
+	"encoding/json"
+	"flag"
+	"image/png"
+	"math"
+	"os"
+	"path/filepath"
+	"regexp"
+	"strconv"
+	"strings"
+	"testing"
+	"time"
+
+	"github.com/striate/striate/v1layer"
+)
+
+var reportDir = flag.String("reportdir", "", "also write the sample report to this folder (to look at it)")
+
+// sampleReport builds a report from the committed prediction file and the
+// test fakes: two "models" on one data set (the second with its
+// probabilities sharpened, so it differs), a six-kind robustness sweep, a
+// label-efficiency curve, an invariance probe and speed figures.
+func sampleReport(t *testing.T) *Report {
+	p := loadPredictions(t)
+	m1, err := Score(p.Labels, p.Probs, p.Classes, MetricsConfig{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	sharp := make([][]float32, len(p.Probs))
+	for i, row := range p.Probs {
+		s := make([]float32, len(row))
+		var sum float64
+		for c, v := range row {
+			x := math.Pow(float64(v), 3)
+			if c == p.Labels[i] && i%3 == 0 {
+				x *= 4
+			}
+			s[c] = float32(x)
+			sum += x
+		}
+		for c := range s {
+			s[c] = float32(float64(s[c]) / sum)
+		}
+		sharp[i] = s
+	}
+	m2, err := Score(p.Labels, sharp, p.Classes, MetricsConfig{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	cmp, err := Compare("hand-set", "learned", p.Labels, Classify(p.Probs), Classify(sharp), CompareConfig{Seed: 1})
+	if err != nil {
+		t.Fatal(err)
+	}
+	test := twoLevelData(400, 4, 4, 0.03)
+	var conds []Condition
+	units := map[string]string{"noise": "σ, pixel units", "shift": "px", "rotate": "degrees", "scale": "factor − 1", "blur": "σ, px", "contrast": "1 − factor"}
+	for _, kind := range []string{"noise", "shift", "rotate", "scale", "blur", "contrast"} {
+		conds = append(conds, Condition{Kind: kind, Unit: units[kind], Level: 0})
+		for _, s := range []float64{0.05, 0.1, 0.2} {
+			conds = append(conds, Condition{Kind: kind, Unit: units[kind], Level: s, P: noiseP{s}})
+		}
+	}
+	r1, err := RobustnessSweep("hand-set", meanPredictor{0.5}, test, conds, RobustnessConfig{Seed: 1})
+	if err != nil {
+		t.Fatal(err)
+	}
+	r2, err := RobustnessSweep("learned", meanPredictor{0.51}, test, conds, RobustnessConfig{Seed: 1})
+	if err != nil {
+		t.Fatal(err)
+	}
+	train := gaussData(120, 4, 8, 1.2, 1)
+	gtest := gaussData(200, 4, 8, 1.2, 2)
+	fit := func(idx []int) (Predictor, error) { return fitCentroids(train, idx), nil }
+	l1, err := LabelEfficiency("hand-set", fit, train.Labels, gtest, LabelConfig{PerClass: []int{1, 2, 5, 10, 20, 50, 100}, Repeats: 2})
+	if err != nil {
+		t.Fatal(err)
+	}
+	l2, err := LabelEfficiency("learned", fit, train.Labels, gtest, LabelConfig{PerClass: []int{1, 2, 5, 10, 20, 50, 100}, Seed: 7})
+	if err != nil {
+		t.Fatal(err)
+	}
+	inv, err := Invariance(fakeCells(8), InvarianceConfig{Wavelengths: []float64{4, 8}, Orientations: 4})
+	if err != nil {
+		t.Fatal(err)
+	}
+	chans := []v1layer.Channel{{Kind: v1layer.KindGabor}, {Kind: v1layer.KindGabor, Phase: math.Pi / 2},
+		{Kind: v1layer.KindRectified}, {Kind: v1layer.KindEnergy}}
+	for i := range chans {
+		chans[i].Wavelength = 8
+	}
+	return &Report{
+		Title:   "Sample report | garment-sorting station",
+		Created: time.Date(2026, 12, 1, 12, 0, 0, 0, time.UTC),
+		Summary: "A **synthetic** report built by the eval tests from `predictions.json` and test fakes.",
+		Command: "go test ./eval -run TestWriteReport",
+		Config:  map[string]any{"hand-set": map[string]int{"orientations": 4}, "learned": map[string]int{"atoms": 64}},
+		Data: []Provenance{{Name: "garments", Source: "testdata/eval/predictions.json", Train: 0, Test: len(p.Labels), H: 28, W: 28,
+			Classes: p.Classes, Note: "synthetic predictions"}},
+		Models: []ModelResult{
+			{Name: "hand-set", Data: "garments", Description: "Gabor bank", TrainSeconds: 12.5, Metrics: m1,
+				Speed: &Speed{Images: 300, Workers: 2, ExtractPerSec: 4100, PredictPerSec: 3900, LatencyP50: 0.41, LatencyP99: 0.93, HeapPeak: 48 << 20, ModelBytes: 123456}},
+			{Name: "learned", Data: "garments", Metrics: m2},
+		},
+		Comparisons: []*Comparison{cmp},
+		Robustness:  []*Robustness{r1, r2},
+		Labels:      []*LabelCurve{l1, l2},
+		Invariance:  []InvarianceResult{{Model: "test cells", Channels: chans, Rows: inv}},
+		Notes:       []string{"Numbers here are synthetic.", "A `code` note."},
+	}
+}
+
+// parseMarkdownTables returns every table in md as header + rows.
+func parseMarkdownTables(md string) [][][]string {
+	var tables [][][]string
+	var cur [][]string
+	split := func(line string) []string {
+		line = strings.TrimSpace(line)
+		line = strings.TrimPrefix(strings.TrimSuffix(line, "|"), "|")
+		// Cells escape a literal '|' as \|.
+		var out []string
+		var b strings.Builder
+		for i := 0; i < len(line); i++ {
+			if line[i] == '\\' && i+1 < len(line) && line[i+1] == '|' {
+				b.WriteByte('|')
+				i++
+				continue
+			}
+			if line[i] == '|' {
+				out = append(out, strings.TrimSpace(b.String()))
+				b.Reset()
+				continue
+			}
+			b.WriteByte(line[i])
+		}
+		return append(out, strings.TrimSpace(b.String()))
+	}
+	for _, line := range strings.Split(md, "\n") {
+		if strings.HasPrefix(line, "|") {
+			if strings.HasPrefix(line, "|---") {
+				continue
+			}
+			cur = append(cur, split(line))
+			continue
+		}
+		if cur != nil {
+			tables = append(tables, cur)
+			cur = nil
+		}
+	}
+	return tables
+}
+
+func TestWriteReport(t *testing.T) {
+	r := sampleReport(t)
+	dir := t.TempDir()
+	if *reportDir != "" {
+		dir = *reportDir
+	}
+	files, err := WriteReport(dir, r)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var pngs []string
+	for _, f := range files {
+		if strings.HasSuffix(f, ".png") {
+			pngs = append(pngs, f)
+			b, err := os.ReadFile(f)
+			if err != nil {
+				t.Fatal(err)
+			}
+			img, err := png.Decode(bytes.NewReader(b))
+			if err != nil {
+				t.Fatalf("%s: %v", f, err)
+			}
+			if s := img.Bounds().Size(); s.X < 400 || s.Y < 300 {
+				t.Errorf("%s is only %v px", f, s)
+			}
+		}
+	}
+	// per-class + reliability (1 data set), confusion ×2, robustness, labels, invariance
+	if len(pngs) != 7 {
+		t.Errorf("%d figures: %v; want 7", len(pngs), pngs)
+	}
+
+	md, err := os.ReadFile(filepath.Join(dir, ReportMarkdown))
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, p := range pngs {
+		if !strings.Contains(string(md), "("+ReportFigures+"/"+filepath.Base(p)+")") {
+			t.Errorf("report.md does not show %s", filepath.Base(p))
+		}
+	}
+	// The accuracy table parses and carries the scores.
+	tables := parseMarkdownTables(string(md))
+	var acc [][]string
+	for _, tb := range tables {
+		if len(tb) > 0 && tb[0][0] == "model" && len(tb[0]) > 3 && tb[0][3] == "accuracy" {
+			acc = tb
+		}
+	}
+	if len(acc) != 3 {
+		t.Fatalf("accuracy table %v; want header + 2 rows", acc)
+	}
+	for i, m := range r.Models {
+		got, err := strconv.ParseFloat(acc[i+1][3], 64)
+		if err != nil || math.Abs(got-m.Metrics.Accuracy) > 5e-5 {
+			t.Errorf("table accuracy of %s = %q; want %.4f", m.Name, acc[i+1][3], m.Metrics.Accuracy)
+		}
+	}
+	for _, tb := range tables {
+		for j, row := range tb {
+			if len(row) != len(tb[0]) {
+				t.Errorf("table %q row %d has %d cells; header has %d", tb[0][0], j, len(row), len(tb[0]))
+			}
+		}
+	}
+
+	// results.json round-trips the scores.
+	js, err := os.ReadFile(filepath.Join(dir, ReportJSON))
+	if err != nil {
+		t.Fatal(err)
+	}
+	var back Report
+	if err := json.Unmarshal(js, &back); err != nil {
+		t.Fatalf("results.json: %v", err)
+	}
+	if len(back.Models) != 2 || back.Models[1].Metrics.Accuracy != r.Models[1].Metrics.Accuracy ||
+		len(back.Robustness) != 2 || back.Comparisons[0].PValue != r.Comparisons[0].PValue {
+		t.Errorf("results.json lost data: %+v", back.Models)
+	}
+
+	// report.html is self-contained: every figure inline, nothing fetched.
+	h, err := os.ReadFile(filepath.Join(dir, ReportHTML))
+	if err != nil {
+		t.Fatal(err)
+	}
+	hs := string(h)
+	if n := strings.Count(hs, `src="data:image/png;base64,`); n != len(pngs) {
+		t.Errorf("report.html embeds %d images; want %d", n, len(pngs))
+	}
+	if regexp.MustCompile(`(src|href)="(http|/|\.)`).MatchString(hs) {
+		t.Error("report.html refers to an outside resource")
+	}
+	if !strings.Contains(hs, "Sample report | garment-sorting station") || !strings.Contains(hs, "<strong>synthetic</strong>") {
+		t.Error("report.html lacks the escaped title or the inline markup")
+	}
+}
+
+func TestWriteReportRejects(t *testing.T) {
+	if _, err := WriteReport(t.TempDir(), nil); err == nil {
+		t.Error("nil report accepted")
+	}
+	r := &Report{Models: []ModelResult{{Name: "x"}}}
+	if _, err := WriteReport(t.TempDir(), r); err == nil {
+		t.Error("model without metrics accepted")
+	}
+	r = &Report{Figures: []Figure{{Name: "empty"}}}
+	if _, err := WriteReport(t.TempDir(), r); err == nil {
+		t.Error("figure without PNG accepted")
+	}
+}

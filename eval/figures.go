@@ -191,9 +191,9 @@ type confGrid struct {
 	rowSum []float64
 }
 
-func (g confGrid) Dims() (c, r int)   { return len(g.m), len(g.m) }
-func (g confGrid) X(c int) float64    { return float64(c) }
-func (g confGrid) Y(r int) float64    { return float64(r) }
+func (g confGrid) Dims() (c, r int) { return len(g.m), len(g.m) }
+func (g confGrid) X(c int) float64  { return float64(c) }
+func (g confGrid) Y(r int) float64  { return float64(r) }
 func (g confGrid) Z(c, r int) float64 {
 	row := len(g.m) - 1 - r
 	if g.rowSum[row] == 0 {
@@ -552,5 +552,3 @@ func minOf(vs ...plotter.Values) float64 {
 	}
 	return m
 }
-
-

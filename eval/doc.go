@@ -32,13 +32,53 @@
 // p = min(1, 2·P(X ≤ min(b,c))), and the accuracy difference with a seeded
 // paired bootstrap percentile interval (Efron & Tibshirani 1993).
 //
+// # Sweeps
+//
+//   - RobustnessSweep: a model fitted on clean images is scored on perturbed
+//     copies of the test set, one Condition at a time (StandardConditions
+//     builds the datasets perturbations: noise, blur, contrast, shift,
+//     rotation, scale, several levels each). Image i always gets the noise
+//     seed mix(Seed, i), so every model sees the same perturbed images.
+//   - LabelEfficiency: for k labels per class, a class-balanced subset
+//     (datasets.PerClass, nested across k for one seed) is passed to a
+//     caller-supplied FitFunc and the result scored on the test set.
+//   - Invariance: each channel of a front end (any MapsFunc, such as
+//     (*v1layer.FrontEnd).Apply) is probed with full-field gratings
+//     I = ½ + ½·C·cos(2π/λ·(x cos θ + y sin θ) + φ). Per channel it reports the
+//     correlation of the centre response a quarter cycle of phase apart
+//     (0 for a linear cell, 1 for a quadrature-energy cell), the
+//     correlation of the whole map under a 1 px shift, and the modulation
+//     ratio F1/F0 over a cycle of phase at the preferred grating
+//     (Skottun et al. 1991: > 1 simple, < 1 complex; π/2 for a half-wave
+//     rectified linear cell).
+//
+// # Speed and memory (MeasureSpeed, ModelSize)
+//
+// Throughput in images per second of wall time (median of repeats after a
+// warm-up batch), single-image latency quantiles p50/p99, and the peak live
+// heap sampled every millisecond through runtime/metrics. Timings are only
+// as quiet as the machine: compare figures taken in one run.
+//
+// # Report (WriteReport)
+//
+// A Report is plain data. WriteReport writes a folder with report.md (PNG
+// figures under figures/), one self-contained report.html with the same
+// figures embedded as data: URIs, and results.json. Tables are markdown
+// tables with a single header row; figures are drawn with gonum/plot, with
+// labelled axes and units.
+//
 // # Checks against the outside world
 //
 // The Wilson interval and McNemar p-value equal SciPy 1.10.1's
 // scipy.stats.binomtest; confusion matrix, per-class scores, log-loss and
 // top-k equal scikit-learn 1.2.1 on a committed prediction file; the ECE is
-// checked on a hand-worked example. The generator script and its values are
-// in testdata/eval/.
+// checked on a hand-worked example; the bootstrap interval width against the
+// normal-theory variance of a paired difference; robustness and
+// label-efficiency sweeps against closed-form accuracies (Φ(δ√n/σ) for a
+// mean-threshold rule under Gaussian noise, the Bayes limit Φ(Δ/2) for
+// nearest-mean classification); the invariance probe against the known F1/F0
+// of rectified and energy cells. The generator script and its values are in
+// testdata/eval/.
 //
 // # Concurrency
 //

@@ -89,9 +89,9 @@ func mixSeed(seed uint64, i int) uint64 {
 }
 
 // RobustnessSweep evaluates p, fitted on clean data, on test perturbed by
-// each condition in turn and returns the accuracy of each. The clean test
-// set is scored for conditions with a nil Perturber. Progress, if set,
-// counts conditions.
+// each condition in turn and returns the accuracy of each. Conditions with a
+// nil Perturber score the clean test set (predicted once and reused).
+// Progress, if set, counts conditions.
 func RobustnessSweep(model string, p Predictor, test *Data, conds []Condition, cfg RobustnessConfig) (*Robustness, error) {
 	if err := test.Validate(); err != nil {
 		return nil, err
@@ -119,21 +119,30 @@ func RobustnessSweep(model string, p Predictor, test *Data, conds []Condition, c
 	prog := run.Progress
 	run.Progress = nil
 	out := &Robustness{Model: model, Data: test.Name, Seed: cfg.Seed}
+	var clean []int // predictions on the clean images, computed once
 	for ci, c := range conds {
-		imgs := test.Images
 		label := "clean"
-		if c.P != nil {
-			for i, src := range test.Images {
-				c.P.Apply(pert[i], src, test.H, test.W, mixSeed(cfg.Seed, i))
+		var pred []int
+		if c.P == nil && clean != nil {
+			pred = clean
+		} else {
+			imgs := test.Images
+			if c.P != nil {
+				for i, src := range test.Images {
+					c.P.Apply(pert[i], src, test.H, test.W, mixSeed(cfg.Seed, i))
+				}
+				imgs = pert
+				label = c.P.String()
 			}
-			imgs = pert
-			label = c.P.String()
+			probs, err := Predict(p, imgs, test.H, test.W, run)
+			if err != nil {
+				return nil, fmt.Errorf("eval: robustness %s under %s: %w", model, label, err)
+			}
+			pred = Classify(probs)
+			if c.P == nil {
+				clean = pred
+			}
 		}
-		probs, err := Predict(p, imgs, test.H, test.W, run)
-		if err != nil {
-			return nil, fmt.Errorf("eval: robustness %s under %s: %w", model, label, err)
-		}
-		pred := Classify(probs)
 		correct := 0
 		for i, l := range test.Labels {
 			if pred[i] == l {

@@ -74,3 +74,5 @@ func TestRobustnessErrors(t *testing.T) {
 		t.Error("class-count mismatch accepted")
 	}
 }
+
+func normalCDF(x float64) float64 { return distuv.UnitNormal.CDF(x) }

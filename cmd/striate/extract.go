@@ -172,8 +172,11 @@ func readNPY(path string) (*npyArray, error) {
 		return nil, bad(10, "header %q: Fortran order not supported", h)
 	}
 	i := strings.Index(h, "'shape': (")
+	if i < 0 {
+		return nil, bad(10, "header %q: malformed shape", h)
+	}
 	j := strings.Index(h[i:], ")")
-	if i < 0 || j < 0 {
+	if j < 0 {
 		return nil, bad(10, "header %q: malformed shape", h)
 	}
 	n := 1

@@ -75,6 +75,7 @@ func TestReadNPYRejectsDamage(t *testing.T) {
 		"fortran":      bytes.Replace(good, []byte("False"), []byte("True "), 1),
 		"badshape":     bytes.Replace(good, []byte("(3, 4)"), []byte("(3x 4)"), 1),
 		"sizemismatch": bytes.Replace(good, []byte("(3, 4)"), []byte("(3, 5)"), 1),
+		"shapenotuple": bytes.Replace(good, []byte("'shape': (3, 4)"), []byte("'shape':  3, 4)"), 1),
 		"hugeshape":    bytes.Replace(good, []byte("'shape': (3, 4), }"), []byte("'shape': (99999,99999),}"), 1),
 	} {
 		p := filepath.Join(dir, name+".npy")
@@ -87,4 +88,30 @@ func TestReadNPYRejectsDamage(t *testing.T) {
 			t.Errorf("%s: err %v; want *npyError", name, err)
 		}
 	}
+}
+
+// FuzzReadNPY feeds damaged and random headers to the reader: it must
+// return an array whose size matches its shape, or an error, never panic.
+func FuzzReadNPY(f *testing.F) {
+	for _, name := range []string{"float32_3x4.npy", "int32_5.npy", "float32_0x7.npy"} {
+		b, err := os.ReadFile(filepath.Join(npyDir, name))
+		if err != nil {
+			f.Fatal(err)
+		}
+		f.Add(b)
+	}
+	dir := f.TempDir()
+	f.Fuzz(func(t *testing.T, b []byte) {
+		p := filepath.Join(dir, "x.npy")
+		if err := os.WriteFile(p, b, 0o644); err != nil {
+			t.Fatal(err)
+		}
+		a, err := readNPY(p)
+		if err != nil {
+			return
+		}
+		if n := shapeLen(a.Shape); n != len(a.F32)+len(a.I32) {
+			t.Fatalf("shape %v but %d values", a.Shape, len(a.F32)+len(a.I32))
+		}
+	})
 }

@@ -1,0 +1,203 @@
+package pipeline
+
+import (
+	"encoding/json"
+	"fmt"
+	"io"
+	"os"
+
+	"github.com/striate/striate/learn"
+	"github.com/striate/striate/v1layer"
+)
+
+// Config describes a pipeline: the ordered stages an image goes through and
+// the supervised head. It is a plain value that round-trips through JSON
+// (it is stored in every model file); every field's zero value means the
+// documented default, so Config{} is the default recognizer. Build it in Go
+// or read it with ParseConfig / LoadConfig, which reject unknown keys.
+//
+// Stages, in order:
+//
+//	input      any image → grey (BT.601 luma) → resized to Input.Height×Input.Width
+//	front      v1layer front end (hand-set Gabor bank, or the bank in Front.Bank)
+//	templates  learned templates over complex-cell patches, pooled (learn)   [optional]
+//	pool       pooling of the front end's maps onto a grid, when there are no templates
+//	head       softmax or MLP on standardised features (learn)
+type Config struct {
+	// Input sets the size every image is converted to before the front end.
+	Input InputConfig `json:"input"`
+	// Front is the front end; its zero value is v1layer's default. A learned
+	// bank goes in Front.Bank (with Front.Gabor.Disable set).
+	Front v1layer.Config `json:"front"`
+	// Pool is the pooling applied to the front end's maps when no template
+	// layer follows.
+	Pool PoolConfig `json:"pool"`
+	// Head is the supervised head; its zero value is learn's default.
+	Head learn.HeadConfig `json:"head"`
+	// Unlabeled is the number of unlabeled images (taken without their
+	// labels) the unsupervised stages are fitted on: 0 means 10000, -1 means
+	// all of them. Ignored when no stage is unsupervised.
+	Unlabeled int `json:"unlabeled,omitempty"`
+	// Seed seeds every fitted stage whose own Seed is 0 (each stage gets a
+	// different seed derived from this one). The same Seed and data give a
+	// bit-identical model file.
+	Seed uint64 `json:"seed,omitempty"`
+}
+
+// InputConfig sets the image size the pipeline works at. Images of any other
+// size are resized (datasets.ToGray: x/image/draw, bilinear).
+type InputConfig struct {
+	// Height and Width in pixels; 0 means 28 (MNIST, Fashion-MNIST). Range [8, 1024].
+	Height int `json:"height,omitempty"`
+	Width  int `json:"width,omitempty"`
+}
+
+// PoolConfig pools the front end's C×H×W maps onto a coarser grid: each
+// output cell is the mean (or max) of a Size×Size window, windows Stride
+// apart, clipped at the border. Size 1 (the default) keeps the maps as they
+// are. Sqrt replaces every pooled value v ≥ 0 by sqrt(v) (a variance-
+// stabilising compression of energy responses; common practice).
+type PoolConfig struct {
+	// Op is "avg" (default) or "max".
+	Op string `json:"op,omitempty"`
+	// Size of the window in cells; 0 means 1 (no pooling). Range [1, 16].
+	Size int `json:"size,omitempty"`
+	// Stride between windows; 0 means Size. Range [1, Size].
+	Stride int `json:"stride,omitempty"`
+	// Sqrt compresses the pooled values by a square root.
+	Sqrt bool `json:"sqrt,omitempty"`
+}
+
+// Defaults and ranges of Config fields.
+const (
+	defaultSide      = 28
+	minSide, maxSide = 8, 1024
+	defaultUnlabeled = 10000
+	maxPoolSize      = 16
+)
+
+// withDefaults fills every zero field with its documented default.
+func (c Config) withDefaults() Config {
+	if c.Input.Height == 0 {
+		c.Input.Height = defaultSide
+	}
+	if c.Input.Width == 0 {
+		c.Input.Width = defaultSide
+	}
+	if c.Pool.Op == "" {
+		c.Pool.Op = "avg"
+	}
+	if c.Pool.Size == 0 {
+		c.Pool.Size = 1
+	}
+	if c.Pool.Stride == 0 {
+		c.Pool.Stride = c.Pool.Size
+	}
+	if c.Unlabeled == 0 {
+		c.Unlabeled = defaultUnlabeled
+	}
+	return c
+}
+
+// Validate checks every field and, once, that the stages fit together: the
+// input is large enough for the front end, and the pooled maps are not empty.
+// It returns the first problem found, naming the field and the valid range.
+func (c Config) Validate() error {
+	_, err := c.plan()
+	return err
+}
+
+// shapes is what Validate works out: the shape after each stage.
+type shapes struct {
+	front       *v1layer.FrontEnd
+	c, oh, ow   int    // front-end output
+	pc, ph, pw  int    // after pooling
+	cfg         Config // with defaults
+	frontConfig v1layer.Config
+}
+
+func (c Config) plan() (*shapes, error) {
+	c = c.withDefaults()
+	if c.Input.Height < minSide || c.Input.Height > maxSide || c.Input.Width < minSide || c.Input.Width > maxSide {
+		return nil, fmt.Errorf("pipeline: input size %d×%d; want each side in [%d, %d] (0 means %d)", c.Input.Height, c.Input.Width, minSide, maxSide, defaultSide)
+	}
+	switch c.Pool.Op {
+	case "avg", "max":
+	default:
+		return nil, fmt.Errorf("pipeline: pool.op %q; want \"avg\" (default) or \"max\"", c.Pool.Op)
+	}
+	if c.Pool.Size < 1 || c.Pool.Size > maxPoolSize {
+		return nil, fmt.Errorf("pipeline: pool.size %d; want [1, %d] (0 means 1, no pooling)", c.Pool.Size, maxPoolSize)
+	}
+	if c.Pool.Stride < 1 || c.Pool.Stride > c.Pool.Size {
+		return nil, fmt.Errorf("pipeline: pool.stride %d; want [1, pool.size = %d] (0 means pool.size)", c.Pool.Stride, c.Pool.Size)
+	}
+	if c.Unlabeled < -1 {
+		return nil, fmt.Errorf("pipeline: unlabeled %d; want -1 (all), 0 (default %d) or a positive count", c.Unlabeled, defaultUnlabeled)
+	}
+	fe, err := v1layer.New(c.Front)
+	if err != nil {
+		return nil, fmt.Errorf("pipeline: front: %w", err)
+	}
+	ch, oh, ow, err := fe.OutShape(c.Input.Height, c.Input.Width)
+	if err != nil {
+		return nil, fmt.Errorf("pipeline: front end does not fit input %d×%d: %w", c.Input.Height, c.Input.Width, err)
+	}
+	s := &shapes{front: fe, c: ch, oh: oh, ow: ow, cfg: c, frontConfig: fe.Config()}
+	s.pc = ch
+	s.ph, s.pw = poolLen(oh, c.Pool.Size, c.Pool.Stride), poolLen(ow, c.Pool.Size, c.Pool.Stride)
+	if s.ph < 1 || s.pw < 1 {
+		return nil, fmt.Errorf("pipeline: pool.size %d is larger than the front end's %d×%d maps; use a smaller pool.size", c.Pool.Size, oh, ow)
+	}
+	return s, nil
+}
+
+// poolLen is the number of windows of size k, stride s over n cells, the
+// last one clipped: ceil((n−k)/s)+1 for n ≥ k.
+func poolLen(n, k, s int) int {
+	if n < k {
+		return 0
+	}
+	return (n-k+s-1)/s + 1
+}
+
+// ParseConfig reads a JSON configuration from r. Unknown keys are an error
+// that names the key and the keys valid at its level; missing keys keep their
+// zero-value defaults. The result is validated.
+func ParseConfig(r io.Reader) (Config, error) {
+	b, err := io.ReadAll(io.LimitReader(r, MaxHeaderBytes+1))
+	if err != nil {
+		return Config{}, fmt.Errorf("pipeline: reading config: %w", err)
+	}
+	if len(b) > MaxHeaderBytes {
+		return Config{}, fmt.Errorf("pipeline: config is larger than %d bytes", MaxHeaderBytes)
+	}
+	var c Config
+	if err := decodeStrict(b, &c, "config"); err != nil {
+		return Config{}, err
+	}
+	if err := c.Validate(); err != nil {
+		return Config{}, err
+	}
+	return c, nil
+}
+
+// LoadConfig is ParseConfig on the named file; errors name the file.
+func LoadConfig(path string) (Config, error) {
+	f, err := os.Open(path)
+	if err != nil {
+		return Config{}, fmt.Errorf("pipeline: %w", err)
+	}
+	defer f.Close()
+	c, err := ParseConfig(f)
+	if err != nil {
+		return Config{}, fmt.Errorf("%w (in %s)", err, path)
+	}
+	return c, nil
+}
+
+// MarshalIndent returns the configuration as indented JSON, the form
+// ParseConfig reads.
+func (c Config) MarshalIndent() ([]byte, error) {
+	return json.MarshalIndent(c, "", "  ")
+}

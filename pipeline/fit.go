@@ -1,0 +1,186 @@
+package pipeline
+
+import (
+	"fmt"
+	"math/rand/v2"
+	"sync/atomic"
+	"time"
+
+	"github.com/striate/striate/datasets"
+	"github.com/striate/striate/learn"
+)
+
+// FitOptions are the run-time options of Fit; none of them changes the
+// fitted model.
+type FitOptions struct {
+	// Workers is the number of goroutines for feature extraction; ≤ 0 means 1.
+	Workers int
+	// Progress receives the steps of each phase (a message names the phase);
+	// nil is silent. Step is called from Fit's own goroutine.
+	Progress learn.Progress
+	// Unlabeled, if not nil, is the set the unsupervised stages are fitted
+	// on (its labels are never read). Otherwise they are fitted on training
+	// images with their labels ignored.
+	Unlabeled *datasets.Set
+}
+
+// FitReport describes a finished fit. It is not stored in model files.
+type FitReport struct {
+	Unsupervised time.Duration // fitting the unsupervised stages
+	Features     time.Duration // extracting the training features
+	HeadTime     time.Duration // fitting the head
+	Total        time.Duration
+	Head         learn.HeadReport
+	NTrain       int
+	FeatureLen   int
+}
+
+// Fit fits a pipeline: first the unsupervised stages on unlabeled images
+// (opts.Unlabeled, or cfg.Unlabeled training images taken without labels),
+// then the features of every training image, then the head on those
+// features and train's labels. The same cfg (Seed included) and data give a
+// bit-identical model file whatever opts.Workers is.
+func Fit(cfg Config, train *datasets.Set, opts FitOptions) (*Model, error) {
+	m, _, err := FitReported(cfg, train, opts)
+	return m, err
+}
+
+// FitReported is Fit that also returns timings and the head's report.
+func FitReported(cfg Config, train *datasets.Set, opts FitOptions) (*Model, FitReport, error) {
+	start := time.Now()
+	var rep FitReport
+	p, err := cfg.plan()
+	if err != nil {
+		return nil, rep, err
+	}
+	cfg = p.cfg
+	if err := checkSet(train, "training set"); err != nil {
+		return nil, rep, err
+	}
+	if len(train.Classes) < 2 {
+		return nil, rep, fmt.Errorf("pipeline: training set %q has %d classes; a classifier needs at least 2", train.Name, len(train.Classes))
+	}
+	if opts.Unlabeled != nil {
+		if err := checkSet(opts.Unlabeled, "unlabeled set"); err != nil {
+			return nil, rep, err
+		}
+	}
+	if cfg.Head.Seed == 0 {
+		cfg.Head.Seed = stageSeed(cfg.Seed, seedHead)
+	}
+	rep.NTrain = train.N
+
+	t0 := time.Now()
+	var tmpl *templateStage // the unsupervised stages are fitted here
+	rep.Unsupervised = time.Since(t0)
+
+	t0 = time.Now()
+	d := p.featureLen(tmpl)
+	rep.FeatureLen = d
+	X := make([]float32, train.N*d)
+	extractSet(p, tmpl, train, nil, X, opts.Workers, opts.Progress, "features")
+	rep.Features = time.Since(t0)
+
+	t0 = time.Now()
+	head, hrep, err := cfg.Head.Fit(X, train.Labels, len(train.Classes), opts.Progress)
+	rep.Head = hrep
+	if err != nil {
+		return nil, rep, fmt.Errorf("pipeline: fitting the head: %w", err)
+	}
+	rep.HeadTime = time.Since(t0)
+	m, err := newModel(cfg, train.Classes, p, tmpl, head)
+	rep.Total = time.Since(start)
+	return m, rep, err
+}
+
+func checkSet(s *datasets.Set, what string) error {
+	if s == nil {
+		return fmt.Errorf("pipeline: %s is nil", what)
+	}
+	if err := s.Validate(); err != nil {
+		return fmt.Errorf("pipeline: %s: %w", what, err)
+	}
+	if s.N < 2 || s.H < 1 || s.W < 1 {
+		return fmt.Errorf("pipeline: %s %q has %d images of %d×%d; want at least 2 non-empty images", what, s.Name, s.N, s.H, s.W)
+	}
+	return nil
+}
+
+// Seed tags: each fitted stage draws from its own stream.
+const (
+	seedHead      = 1
+	seedTemplates = 2
+	seedUnlabeled = 3
+)
+
+// stageSeed derives the seed of one stage from the pipeline seed
+// (SplitMix64 finaliser; Steele, Lea & Flood 2014).
+func stageSeed(seed, tag uint64) uint64 {
+	z := seed + tag*0x9e3779b97f4a7c15
+	z = (z ^ (z >> 30)) * 0xbf58476d1ce4e5b9
+	z = (z ^ (z >> 27)) * 0x94d049bb133111eb
+	z ^= z >> 31
+	if z == 0 {
+		z = 1
+	}
+	return z
+}
+
+// unlabeledIndices picks n images of a set of size total by a seeded
+// permutation (all of them, in order, when n is -1 or ≥ total).
+func unlabeledIndices(total, n int, seed uint64) []int {
+	if n < 0 || n >= total {
+		idx := make([]int, total)
+		for i := range idx {
+			idx[i] = i
+		}
+		return idx
+	}
+	return rand.New(rand.NewPCG(seed, 0x756e_6c61_6265_6c64)).Perm(total)[:n]
+}
+
+// extractSet writes the features of images idx of s (all when idx is nil)
+// into X, row by row, over workers goroutines, reporting progress from the
+// calling goroutine.
+func extractSet(p *shapes, t *templateStage, s *datasets.Set, idx []int, X []float32, workers int, prog learn.Progress, msg string) {
+	n := s.N
+	if idx != nil {
+		n = len(idx)
+	}
+	d := p.featureLen(t)
+	ih, iw := p.cfg.Input.Height, p.cfg.Input.Width
+	var done atomic.Int64
+	fin := make(chan struct{})
+	go func() {
+		defer close(fin)
+		parallelFor(n, workers, func() *work { return new(work) }, func(*work) {}, func(i int, w *work) {
+			j := i
+			if idx != nil {
+				j = idx[i]
+			}
+			w.feat = s.Float(w.feat, j) // w.feat doubles as the pixel buffer
+			img := w.feat
+			if s.H != ih || s.W != iw {
+				w.gray = datasets.ToGray(w.gray, grayImage16(img, s.H, s.W), ih, iw)
+				img = w.gray
+			}
+			p.features(X[i*d:i*d:(i+1)*d], img, t, &w.maps)
+			done.Add(1)
+		})
+	}()
+	if prog == nil {
+		<-fin
+		return
+	}
+	tick := time.NewTicker(250 * time.Millisecond)
+	defer tick.Stop()
+	for {
+		select {
+		case <-fin:
+			prog.Step(n, n, msg)
+			return
+		case <-tick.C:
+			prog.Step(int(done.Load()), n, msg)
+		}
+	}
+}

@@ -1,0 +1,177 @@
+package pipeline
+
+import (
+	"bufio"
+	"encoding/json"
+	"fmt"
+	"io"
+	"os"
+	"strings"
+
+	"github.com/striate/striate/learn"
+	"github.com/striate/striate/v1layer"
+)
+
+// Tensor names in a model file:
+//
+//	front.bank.NNNN  [size size]  kernel NNNN of a learned bank (Front.Bank); its
+//	                              metadata stays in the header's config
+//	templates.*                   the template layer (see learn.Templates)
+//	head.*                        the head (see learn.Head.Tensors)
+const (
+	bankTensorPrefix = "front.bank."
+	tmplTensorPrefix = "templates."
+	headTensorPrefix = "head."
+)
+
+// Save writes the model in striate's model-file format (see modelfile.go):
+// the configuration and class names in the JSON header, the learned arrays
+// as little-endian float32 tensors, a SHA-256 at the end. Equal models give
+// bit-identical files.
+func (m *Model) Save(w io.Writer) error {
+	cfg := m.cfg
+	var ts []tensor
+	if b := cfg.Front.Bank; b != nil {
+		nb := &v1layer.Bank{Kernels: make([]v1layer.Kernel, len(b.Kernels))}
+		for i, k := range b.Kernels {
+			ts = append(ts, tensor{Name: fmt.Sprintf("%s%04d", bankTensorPrefix, i), DType: Float32, Shape: []int{k.Size, k.Size}, F: k.W})
+			k.W = nil
+			nb.Kernels[i] = k
+		}
+		cfg.Front.Bank = nb
+	}
+	if m.tmpl != nil {
+		for _, t := range m.tmpl.tensors() {
+			ts = append(ts, tensor{Name: t.Name, DType: Float32, Shape: t.Shape, F: t.Data})
+		}
+	}
+	for _, t := range m.head.Tensors() {
+		ts = append(ts, tensor{Name: t.Name, DType: Float32, Shape: t.Shape, F: t.Data})
+	}
+	cj, err := json.Marshal(cfg)
+	if err != nil {
+		return fmt.Errorf("pipeline: encoding the config: %v", err)
+	}
+	return encodeFile(w, &fileContents{Config: cj, Classes: m.classes, Tensors: ts})
+}
+
+// SaveFile writes the model to path (created or truncated).
+func (m *Model) SaveFile(path string) (err error) {
+	f, err := os.Create(path)
+	if err != nil {
+		return fmt.Errorf("pipeline: %w", err)
+	}
+	defer func() {
+		if cerr := f.Close(); err == nil && cerr != nil {
+			err = fmt.Errorf("pipeline: %w", cerr)
+		}
+	}()
+	bw := bufio.NewWriterSize(f, 1<<16)
+	if err := m.Save(bw); err != nil {
+		return err
+	}
+	if err := bw.Flush(); err != nil {
+		return fmt.Errorf("pipeline: writing %s: %w", path, err)
+	}
+	return nil
+}
+
+// Load reads a model written by Save. It checks the file completely before
+// building anything (magic, format version, sizes against hard limits and
+// the file length, checksum, every value finite) and never executes
+// anything it reads. A bad file gives a *FileError (errors.Is it against
+// ErrNotModelFile, ErrUnsupportedVersion, ErrTruncated, ErrChecksum,
+// ErrLimit or ErrMalformed) that says what is wrong.
+func Load(r io.Reader) (*Model, error) {
+	b, err := readAllLimited(r)
+	if err != nil {
+		return nil, err
+	}
+	return loadBytes(b)
+}
+
+// LoadFile is Load on the named file; errors name the file.
+func LoadFile(path string) (*Model, error) {
+	f, err := os.Open(path)
+	if err != nil {
+		return nil, fmt.Errorf("pipeline: %w", err)
+	}
+	defer f.Close()
+	m, err := Load(bufio.NewReaderSize(f, 1<<16))
+	if err != nil {
+		return nil, fmt.Errorf("%w (in %s)", err, path)
+	}
+	return m, nil
+}
+
+func malformed(field, format string, a ...any) error {
+	return fileErr(ErrMalformed, -1, field, format, a...)
+}
+
+func loadBytes(b []byte) (*Model, error) {
+	c, err := decodeFile(b)
+	if err != nil {
+		return nil, err
+	}
+	var cfg Config
+	if err := decodeStrict(c.Config, &cfg, "model config"); err != nil {
+		return nil, malformed("header.config", "%v", err)
+	}
+	used := make(map[string]bool, len(c.Tensors))
+	if bk := cfg.Front.Bank; bk != nil {
+		if len(bk.Kernels) > MaxTensors {
+			return nil, malformed("header.config.front.bank", "%d kernels; want at most %d", len(bk.Kernels), MaxTensors)
+		}
+		for i := range bk.Kernels {
+			k := &bk.Kernels[i]
+			name := fmt.Sprintf("%s%04d", bankTensorPrefix, i)
+			t := c.tensor(name)
+			if t == nil || t.DType != Float32 {
+				return nil, malformed("tensor "+name, "missing (the config's bank has %d kernels, each stored as a float32 tensor)", len(bk.Kernels))
+			}
+			if len(t.Shape) != 2 || t.Shape[0] != k.Size || t.Shape[1] != k.Size {
+				return nil, malformed("tensor "+name, "shape %v; the bank's kernel %d has size %d, so want [%d %d]", t.Shape, i, k.Size, k.Size, k.Size)
+			}
+			if len(k.W) != 0 {
+				return nil, malformed("header.config.front.bank", "kernel %d holds weights in the header; they belong in tensor %s", i, name)
+			}
+			k.W = t.F
+			used[name] = true
+		}
+	}
+	p, err := cfg.plan()
+	if err != nil {
+		return nil, malformed("header.config", "%v", err)
+	}
+	if len(c.Classes) < 2 {
+		return nil, malformed("header.classes", "%d classes; a model has at least 2", len(c.Classes))
+	}
+	var headTs, tmplTs []learn.NamedTensor
+	for _, t := range c.Tensors {
+		nt := learn.NamedTensor{Name: t.Name, Shape: t.Shape, Data: t.F}
+		switch {
+		case used[t.Name]:
+		case t.DType != Float32:
+			return nil, malformed("tensor "+t.Name, "dtype %s; this version stores float32 only", t.DType)
+		case strings.HasPrefix(t.Name, headTensorPrefix):
+			headTs = append(headTs, nt)
+		case strings.HasPrefix(t.Name, tmplTensorPrefix):
+			tmplTs = append(tmplTs, nt)
+		default:
+			return nil, malformed("tensor "+t.Name, "unknown tensor name; want %s*, %s* or %s*", bankTensorPrefix, tmplTensorPrefix, headTensorPrefix)
+		}
+	}
+	tmpl, err := loadTemplates(p, tmplTs)
+	if err != nil {
+		return nil, malformed("templates", "%v", err)
+	}
+	head, err := learn.NewHeadFromTensors(headTs)
+	if err != nil {
+		return nil, malformed("head", "%v", err)
+	}
+	m, err := newModel(p.cfg, c.Classes, p, tmpl, head)
+	if err != nil {
+		return nil, malformed("", "%v", err)
+	}
+	return m, nil
+}

@@ -220,14 +220,20 @@ func ioErr(err error) error {
 	return err
 }
 
-// readChunk is the step by which payload buffers grow, so that a header
-// claiming more data than the stream holds costs at most about twice the
-// bytes actually present.
-const readChunk = 1 << 20
+// readChunk is the first size of a payload buffer whose length is not known
+// to be present; it then doubles as data arrives, so a header claiming more
+// data than the stream holds costs at most about twice the bytes present.
+const readChunk = 64 << 10
 
-// readPayload reads exactly want bytes, growing the buffer as data arrives.
-func readPayload(r io.Reader, name string, h header) ([]byte, error) {
-	buf := make([]byte, 0, min(h.bytes, readChunk))
+// readPayload reads exactly h.bytes bytes. When present is true (a plain file
+// whose length was checked) the buffer is allocated at once; otherwise it
+// grows as data arrives.
+func readPayload(r io.Reader, name string, h header, present bool) ([]byte, error) {
+	first := min(h.bytes, readChunk)
+	if present {
+		first = h.bytes
+	}
+	buf := make([]byte, 0, first)
 	for int64(len(buf)) < h.bytes {
 		next := min(h.bytes, max(int64(len(buf))*2, readChunk))
 		if int64(cap(buf)) < next {
@@ -280,7 +286,7 @@ func readIDX(r io.Reader, name string, plainSize int64) (*IDX, error) {
 			Want: fmt.Sprintf("%d bytes of data for dimensions %v of %s (%d in all)", h.bytes, h.dims, h.typ, h.size+h.bytes),
 			Got:  fmt.Sprintf("%d bytes of data (file is %s)", plainSize-h.size, sizeWord(plainSize-h.size < h.bytes))}
 	}
-	data, err := readPayload(src, name, h)
+	data, err := readPayload(src, name, h, plainSize >= 0)
 	if err != nil {
 		return nil, err
 	}

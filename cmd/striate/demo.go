@@ -1,0 +1,126 @@
+package main
+
+import (
+	"flag"
+	"fmt"
+	"io"
+	"text/tabwriter"
+
+	"github.com/striate/striate/datasets"
+)
+
+func init() {
+	register(&command{
+		name:    "demo",
+		summary: "run the main job on embedded defaults (garment-sorting example)",
+		example: `  striate demo                 # the data the main job runs on
+  striate demo --mnist DIR     # MNIST from a folder instead of the Go module cache`,
+		setup: func(fs *flag.FlagSet, g *globals) func([]string) error {
+			var o demoOptions
+			fs.StringVar(&o.mnistDir, "mnist", "", "MNIST `folder` (default: $STRIATE_MNIST_DIR, else the GoMNIST Go module)")
+			fs.StringVar(&o.fashionDir, "fashion", "", "Fashion-MNIST `folder` (default: $STRIATE_FASHION_DIR, else "+datasets.FashionDefaultDir+")")
+			g.addQuiet(fs)
+			return func(args []string) error {
+				if len(args) > 0 {
+					return usagef("demo takes no arguments, got %q", args)
+				}
+				return runDemo(g, o)
+			}
+		},
+	})
+}
+
+type demoOptions struct {
+	mnistDir, fashionDir string
+}
+
+func runDemo(g *globals, o demoOptions) error {
+	w := g.stdout
+	fmt.Fprintln(w, "striate demo: a garment-sorting station at a second-hand clothing depot")
+	fmt.Fprintln(w)
+	sets, err := loadDemoData(o)
+	if err != nil {
+		return err
+	}
+	if err := printDataSummary(w, sets); err != nil {
+		return err
+	}
+	photos, err := datasets.Photos()
+	if err != nil {
+		return err
+	}
+	printPhotoSummary(w, photos)
+	return nil
+}
+
+// demoData holds the four splits the main job uses.
+type demoData struct {
+	fashionTrain, fashionTest, mnistTrain, mnistTest *datasets.Set
+}
+
+func loadDemoData(o demoOptions) (*demoData, error) {
+	var d demoData
+	var err error
+	if d.fashionTrain, err = datasets.LoadFashionMNIST(datasets.Train, o.fashionDir); err != nil {
+		return nil, err
+	}
+	if d.fashionTest, err = datasets.LoadFashionMNIST(datasets.Test, o.fashionDir); err != nil {
+		return nil, err
+	}
+	if d.mnistTrain, err = datasets.LoadMNIST(datasets.Train, o.mnistDir); err != nil {
+		return nil, err
+	}
+	if d.mnistTest, err = datasets.LoadMNIST(datasets.Test, o.mnistDir); err != nil {
+		return nil, err
+	}
+	return &d, nil
+}
+
+func printDataSummary(w io.Writer, d *demoData) error {
+	fmt.Fprintln(w, "Datasets")
+	tw := tabwriter.NewWriter(w, 0, 4, 2, ' ', 0)
+	fmt.Fprintln(tw, "  set\tsplit\timages\tsize\tclasses\tsmallest class\tlargest class")
+	for _, r := range []struct {
+		split string
+		s     *datasets.Set
+	}{
+		{"train", d.fashionTrain}, {"test", d.fashionTest}, {"train", d.mnistTrain}, {"test", d.mnistTest},
+	} {
+		counts := r.s.ClassCounts()
+		lo, hi := 0, 0
+		for c := range counts {
+			if counts[c] < counts[lo] {
+				lo = c
+			}
+			if counts[c] > counts[hi] {
+				hi = c
+			}
+		}
+		fmt.Fprintf(tw, "  %s\t%s\t%d\t%d×%d\t%d\t%s (%d)\t%s (%d)\n", r.s.Name, r.split, r.s.N, r.s.H, r.s.W,
+			len(r.s.Classes), r.s.Classes[lo], counts[lo], r.s.Classes[hi], counts[hi])
+	}
+	if err := tw.Flush(); err != nil {
+		return err
+	}
+	fmt.Fprintln(w)
+	return nil
+}
+
+func printPhotoSummary(w io.Writer, photos []datasets.Photo) {
+	fmt.Fprintf(w, "Natural photographs for learning filters: %d embedded\n", len(photos))
+	tw := tabwriter.NewWriter(w, 0, 4, 2, ' ', 0)
+	fmt.Fprintln(tw, "  name\tsize\tmean grey\tlicence")
+	for _, p := range photos {
+		var sum float64
+		for _, v := range p.Pix {
+			sum += float64(v)
+		}
+		lic := p.License
+		if len(lic) > 60 {
+			lic = lic[:57] + "..."
+		}
+		fmt.Fprintf(tw, "  %s\t%d×%d\t%.3f\t%s\n", p.Name, p.H, p.W, sum/float64(len(p.Pix)), lic)
+	}
+	tw.Flush()
+	fmt.Fprintln(w)
+}

@@ -196,6 +196,10 @@ func LoadConfig(path string) (Config, error) {
 	return c, nil
 }
 
+// DefaultConfig returns the default pipeline with every default spelled
+// out: what Config{} means, in a form that can be edited and saved.
+func DefaultConfig() Config { return Config{}.withDefaults() }
+
 // MarshalIndent returns the configuration as indented JSON, the form
 // ParseConfig reads.
 func (c Config) MarshalIndent() ([]byte, error) {

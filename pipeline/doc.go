@@ -1,2 +1,75 @@
-// Package pipeline joins striate's stages into one recognizer.
+// Package pipeline joins striate's stages into one recognizer that a Go
+// program can fit, save, load and call, and is the package to import when
+// striate is used as a feature extractor.
+//
+// # Stages
+//
+// A pipeline is an ordered list of stages, described by a Config and checked
+// once for shape compatibility (Config.Validate, also run by Fit and Load):
+//
+//	input      any image.Image → grey, BT.601 luma Y = 0.299R + 0.587G + 0.114B
+//	           (ITU-R BT.601), in [0,1] → resized to Input.Height×Input.Width
+//	           (datasets.ToGray; bilinear, x/image/draw)
+//	front      v1layer.FrontEnd: on/off DoG retina, simple cells (hand-set
+//	           Gabor bank or a learned bank in Front.Bank), complex cells,
+//	           local max pooling → C×H×W maps
+//	templates  (optional) templates learned without labels over patches of the
+//	           complex-cell maps, encoded convolutionally, pooled over position
+//	pool       (when there are no templates) mean or max of Size×Size windows of
+//	           each map, optionally square-rooted
+//	head       learn.Head: softmax regression or a one-hidden-layer ReLU MLP on
+//	           standardised features z = (x − mean)/std
+//
+// Fit fits the unsupervised stages first, on unlabeled images (FitOptions.
+// Unlabeled, or training images with their labels ignored), so that
+// label-efficiency results stay honest; then it extracts the features of
+// every training image and fits the head on them.
+//
+// # Using a fitted model
+//
+//	m, err := pipeline.LoadFile("mnist.stm")
+//	feat := m.Extract(img)             // []float32 of length m.FeatureLen()
+//	class, probs := m.Predict(img)     // index into m.Classes()
+//	probs2, err := m.PredictBatch(imgs, 28, 28, runtime.GOMAXPROCS(0))
+//
+// PredictBatch has the signature of eval.Predictor. Images of any size are
+// resized to the model's input size.
+//
+// # Concurrency
+//
+// A *Model is immutable after Fit or Load returns: all its methods may run
+// concurrently from any number of goroutines. Each call takes its scratch
+// (maps, features) from a sync.Pool. Batch methods spread images over the
+// given number of goroutines; every image's result is independent of how
+// the work was divided, so results do not depend on Workers.
+//
+// # Determinism
+//
+// Every fitted stage draws its randomness from a seed derived from
+// Config.Seed (SplitMix64, Steele, Lea & Flood 2014) unless the stage names
+// its own. The same Config and data give a bit-identical model file on the
+// same architecture, whatever FitOptions.Workers is.
+//
+// # Model files
+//
+// Save writes striate's own format, version FormatVersion:
+//
+//	"STRIATEM" | uint32 version | uint32 header length H | H bytes of JSON
+//	| zero padding to a multiple of 8 | tensors, little-endian | SHA-256
+//
+// The JSON header holds the Config, the class names, and for every tensor its
+// name, dtype, shape, offset and length; tensors are stored back to back in
+// header order. Load reads the file into memory (at most MaxFileBytes), then
+// checks, in order: magic, format version (an unknown version says which
+// versions this build reads), header length against MaxHeaderBytes and the
+// file length, the header's strict JSON, every tensor's rank, dimensions and
+// element count against MaxRank, MaxDim and MaxTensorElems, the file length
+// the header implies, the checksum, and every float32 being finite. Only
+// then does it allocate the tensors and rebuild the stages; nothing in a file
+// is ever executed. Every failure is a *FileError whose Kind (ErrTruncated,
+// ErrChecksum, ...) can be tested with errors.Is and whose message gives the
+// byte offset or field. Files are portable across architectures: the layout
+// is fixed little-endian, and a model saved on amd64 predicts the same
+// classes on arm64 (features agree to float32 rounding, not bit for bit,
+// because arm64 fuses multiply-adds).
 package pipeline

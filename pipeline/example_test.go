@@ -1,0 +1,70 @@
+package pipeline_test
+
+import (
+	"fmt"
+	"image"
+	"image/color"
+	"math"
+
+	"github.com/striate/striate/datasets"
+	"github.com/striate/striate/learn"
+	"github.com/striate/striate/pipeline"
+)
+
+// stripes draws a 28×28 grating: horizontal bars (class 0) or vertical bars
+// (class 1) of period 6 px with the given phase, as a garment-sorting station
+// might see ribbed versus pin-striped fabric.
+func stripes(vertical bool, phase float64) []uint8 {
+	px := make([]uint8, 28*28)
+	for y := 0; y < 28; y++ {
+		for x := 0; x < 28; x++ {
+			t := float64(y)
+			if vertical {
+				t = float64(x)
+			}
+			px[y*28+x] = uint8(127.5 + 127.5*math.Cos(2*math.Pi*t/6+phase))
+		}
+	}
+	return px
+}
+
+func stripeSet() *datasets.Set {
+	s := &datasets.Set{Name: "stripes", H: 28, W: 28, Classes: []string{"horizontal", "vertical"}}
+	for i := 0; i < 40; i++ {
+		s.Pix = append(s.Pix, stripes(i%2 == 1, float64(i)*0.7)...)
+		s.Labels = append(s.Labels, i%2)
+		s.N++
+	}
+	return s
+}
+
+// Fit a small pipeline, then use it as a feature extractor and a classifier
+// on an image of another size and colour model.
+func Example() {
+	cfg := pipeline.Config{
+		Pool: pipeline.PoolConfig{Size: 7},
+		Head: learn.HeadConfig{Kind: learn.KindSoftmax, Epochs: 20, ValFrac: -1},
+		Seed: 1,
+	}
+	m, err := pipeline.Fit(cfg, stripeSet(), pipeline.FitOptions{Workers: 2})
+	if err != nil {
+		fmt.Println(err)
+		return
+	}
+	// A 40×56 (w×h) purple RGBA image of vertical bars of period 8.6 px:
+	// resized to 28×28 grey, its bars have a period of about 6 px.
+	img := image.NewRGBA(image.Rect(0, 0, 40, 56))
+	for y := 0; y < 56; y++ {
+		for x := 0; x < 40; x++ {
+			v := uint8(127.5 + 127.5*math.Cos(2*math.Pi*float64(x)/8.6))
+			img.Set(x, y, color.RGBA{v, v / 2, v, 255})
+		}
+	}
+	feat := m.Extract(img)
+	class, _ := m.Predict(img)
+	fmt.Println("features:", len(feat), "=", m.FeatureLen())
+	fmt.Println("class:", m.Classes()[class])
+	// Output:
+	// features: 48 = 48
+	// class: vertical
+}

@@ -50,6 +50,13 @@ type InputConfig struct {
 	// Height and Width in pixels; 0 means 28 (MNIST, Fashion-MNIST). Range [8, 1024].
 	Height int `json:"height,omitempty"`
 	Width  int `json:"width,omitempty"`
+	// Normalize is "minmax" (default: stretch each image's grey values to
+	// span [0,1], which undoes a global contrast change) or "none".
+	Normalize string `json:"normalize,omitempty"`
+	// Center is "mass" (default: shift each image by whole pixels so that
+	// its centre of mass is at the image centre, as MNIST's makers did) or
+	// "none".
+	Center string `json:"center,omitempty"`
 }
 
 // PoolConfig pools the front end's C×H×W maps onto a coarser grid: each
@@ -83,6 +90,12 @@ func (c Config) withDefaults() Config {
 	}
 	if c.Input.Width == 0 {
 		c.Input.Width = defaultSide
+	}
+	if c.Input.Normalize == "" {
+		c.Input.Normalize = NormalizeMinMax
+	}
+	if c.Input.Center == "" {
+		c.Input.Center = CenterMass
 	}
 	if c.Pool.Op == "" {
 		c.Pool.Op = "avg"
@@ -120,6 +133,9 @@ func (c Config) plan() (*shapes, error) {
 	c = c.withDefaults()
 	if c.Input.Height < minSide || c.Input.Height > maxSide || c.Input.Width < minSide || c.Input.Width > maxSide {
 		return nil, fmt.Errorf("pipeline: input size %d×%d; want each side in [%d, %d] (0 means %d)", c.Input.Height, c.Input.Width, minSide, maxSide, defaultSide)
+	}
+	if err := c.Input.validate(); err != nil {
+		return nil, err
 	}
 	switch c.Pool.Op {
 	case "avg", "max":

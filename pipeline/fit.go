@@ -164,7 +164,7 @@ func extractSet(p *shapes, t *templateStage, s *datasets.Set, idx []int, X []flo
 				w.gray = datasets.ToGray(w.gray, grayImage16(img, s.H, s.W), ih, iw)
 				img = w.gray
 			}
-			p.features(X[i*d:i*d:(i+1)*d], img, t, &w.maps)
+			p.features(X[i*d:i*d:(i+1)*d], img, t, w)
 			done.Add(1)
 		})
 	}()

@@ -27,6 +27,7 @@ type Model struct {
 // work is one goroutine's scratch.
 type work struct {
 	gray  []float32
+	norm  []float32
 	maps  v1layer.Maps
 	feat  []float32
 	hsc   []float32
@@ -160,7 +161,7 @@ func (m *Model) headScratch(w *work) []float32 {
 // extractGray runs the stages on one grey image at the input size and
 // writes the features into dst (reused when its capacity suffices).
 func (m *Model) extractGray(dst, gray []float32, w *work) []float32 {
-	return m.plan.features(dst, gray, m.tmpl, &w.maps)
+	return m.plan.features(dst, gray, m.tmpl, w)
 }
 
 // parallel calls fn(i, scratch) for i in [0, n) over workers goroutines,

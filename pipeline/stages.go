@@ -14,11 +14,17 @@ func (s *shapes) featureLen(t *templateStage) int {
 	return s.pc * s.ph * s.pw
 }
 
-// features runs the front end on gray (the input-size image) into maps,
+// features runs the input normalisation and the front end on gray (the input-size image) into maps,
 // then the template layer or the pooling stage, writing into dst (reused
 // when its capacity suffices) and returning it.
-func (s *shapes) features(dst, gray []float32, t *templateStage, maps *v1layer.Maps) []float32 {
-	s.front.Apply(maps, gray, s.cfg.Input.Height, s.cfg.Input.Width)
+func (s *shapes) features(dst, gray []float32, t *templateStage, w *work) []float32 {
+	maps := &w.maps
+	h, wd := s.cfg.Input.Height, s.cfg.Input.Width
+	in := normalizeInput(w.norm, gray, h, wd, s.cfg.Input)
+	if len(in) > 0 && len(gray) > 0 && &in[0] != &gray[0] {
+		w.norm = in[:cap(in)]
+	}
+	s.front.Apply(maps, in, h, wd)
 	n := s.featureLen(t)
 	if cap(dst) < n {
 		dst = make([]float32, n)

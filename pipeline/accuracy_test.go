@@ -1,0 +1,192 @@
+package pipeline_test
+
+import (
+	"fmt"
+	"os"
+	"runtime"
+	"strings"
+	"testing"
+	"time"
+
+	"github.com/striate/striate/datasets"
+	"github.com/striate/striate/pipeline"
+)
+
+// The accuracy runs of issue 5, gated by STRIATE_LONG=1 (CI sets it).
+// STRIATE_ACC=mnist,fashion,labels (any subset; default all) picks the runs,
+// and STRIATE_ACC_CONFIG=file.json replaces the default config, for tuning.
+//
+// Every figure is printed (t.Log, visible with -v and on failure) and the
+// targets are asserted. Models are trained on clean training images only; the
+// perturbations are those of datasets.Perturbation, applied to the test
+// images: shifts in direction i mod 8 for test image i, rotations alternately
+// counter-clockwise and clockwise.
+
+func longRuns(t *testing.T, which string) {
+	t.Helper()
+	if os.Getenv("STRIATE_LONG") != "1" {
+		t.Skip("accuracy run: set STRIATE_LONG=1 (several minutes on 2 cores)")
+	}
+	if sel := os.Getenv("STRIATE_ACC"); sel != "" && !strings.Contains(sel, which) {
+		t.Skipf("STRIATE_ACC=%s does not select %s", sel, which)
+	}
+}
+
+func accConfig(t *testing.T) pipeline.Config {
+	t.Helper()
+	if p := os.Getenv("STRIATE_ACC_CONFIG"); p != "" {
+		c, err := pipeline.LoadConfig(p)
+		if err != nil {
+			t.Fatal(err)
+		}
+		t.Logf("config from %s", p)
+		return c
+	}
+	return pipeline.DefaultConfig()
+}
+
+// condition is one robustness test condition with the CNN baseline of
+// issue 5 (a LeNet-5-like network trained on clean data with PyTorch on
+// these machines; 0 = no baseline given).
+type condition struct {
+	name    string
+	perturb pipeline.Perturb
+	mnist   float64
+	fashion float64
+}
+
+func fixed(p datasets.Perturbation) pipeline.Perturb {
+	return func(i int) (datasets.Perturbation, uint64) { return p, uint64(i) + 1 }
+}
+
+func shift(l float64) pipeline.Perturb {
+	return func(i int) (datasets.Perturbation, uint64) {
+		return datasets.Perturbation{Kind: datasets.Shift, Level: l, Dir: i % 8}, 0
+	}
+}
+
+func rot(deg float64) pipeline.Perturb {
+	return func(i int) (datasets.Perturbation, uint64) {
+		d := deg
+		if i%2 == 1 {
+			d = -d
+		}
+		return datasets.Perturbation{Kind: datasets.Rotate, Level: d}, 0
+	}
+}
+
+var conditions = []condition{
+	{"clean", nil, 0.990, 0.896},
+	{"noise-0.1", fixed(datasets.Perturbation{Kind: datasets.Noise, Level: 0.1}), 0, 0},
+	{"noise-0.2", fixed(datasets.Perturbation{Kind: datasets.Noise, Level: 0.2}), 0, 0},
+	{"noise-0.3", fixed(datasets.Perturbation{Kind: datasets.Noise, Level: 0.3}), 0, 0.69},
+	{"noise-0.5", fixed(datasets.Perturbation{Kind: datasets.Noise, Level: 0.5}), 0.84, 0},
+	{"shift-2", shift(2), 0.92, 0},
+	{"shift-4", shift(4), 0.80, 0.60}, // issue 5's own targets (CNN: 47%, 37%)
+	{"rot-15", rot(15), 0, 0},
+	{"rot-30", rot(30), 0.84, 0.27},
+	{"contrast-0.5", fixed(datasets.Perturbation{Kind: datasets.Contrast, Level: 0.5}), 0, 0},
+	{"contrast-0.25", fixed(datasets.Perturbation{Kind: datasets.Contrast, Level: 0.25}), 0.97, 0.48},
+	{"blur-1", fixed(datasets.Perturbation{Kind: datasets.Blur, Level: 1}), 0, 0},
+}
+
+func workers() int { return runtime.GOMAXPROCS(0) }
+
+type progressLog struct{}
+
+func (progressLog) Step(int, int, string) {}
+
+// fitAndScore fits cfg on train, prints the timings and the accuracy under
+// every condition, and returns the accuracies by condition name.
+func fitAndScore(t *testing.T, name string, cfg pipeline.Config, train, test *datasets.Set, opts pipeline.FitOptions, conds []condition) map[string]float64 {
+	t.Helper()
+	opts.Workers = workers()
+	m, rep, err := pipeline.FitReported(cfg, train, opts)
+	if err != nil {
+		t.Fatal(err)
+	}
+	t.Logf("%s: fitted on %d images in %v (unsupervised %v, features %v, head %v, %d epochs, %d features)",
+		name, train.N, rep.Total.Round(time.Second), rep.Unsupervised.Round(time.Second), rep.Features.Round(time.Second),
+		rep.HeadTime.Round(time.Second), rep.Head.Epochs, rep.FeatureLen)
+	out := map[string]float64{}
+	var line strings.Builder
+	for _, c := range conds {
+		acc, err := pipeline.Accuracy(m, test, c.perturb, workers(), nil)
+		if err != nil {
+			t.Fatal(err)
+		}
+		out[c.name] = acc
+		fmt.Fprintf(&line, " %s %.2f%%", c.name, 100*acc)
+	}
+	t.Logf("%s:%s", name, line.String())
+	return out
+}
+
+func loadPair(t *testing.T, fashion bool) (train, test *datasets.Set) {
+	t.Helper()
+	load := datasets.LoadMNIST
+	if fashion {
+		load = datasets.LoadFashionMNIST
+	}
+	train, err := load(datasets.Train, "")
+	if err != nil {
+		t.Fatal(err)
+	}
+	test, err = load(datasets.Test, "")
+	if err != nil {
+		t.Fatal(err)
+	}
+	return train, test
+}
+
+func checkTargets(t *testing.T, name string, got map[string]float64, conds []condition, fashion bool, cleanTarget float64) {
+	t.Helper()
+	if got["clean"] < cleanTarget {
+		t.Errorf("%s: clean test accuracy %.2f%%; target ≥ %.1f%%", name, 100*got["clean"], 100*cleanTarget)
+	}
+	for _, c := range conds[1:] {
+		want := c.mnist
+		if fashion {
+			want = c.fashion
+		}
+		if want > 0 && got[c.name] < want {
+			t.Errorf("%s: %s accuracy %.2f%%; target ≥ %.0f%%", name, c.name, 100*got[c.name], 100*want)
+		}
+	}
+}
+
+func TestAccuracyMNIST(t *testing.T) {
+	longRuns(t, "mnist")
+	train, test := loadPair(t, false)
+	got := fitAndScore(t, "mnist hand-set", accConfig(t), train, test, pipeline.FitOptions{}, conditions)
+	// Target of issue 5: ≥ 99.4% on the 10,000 test digits.
+	checkTargets(t, "mnist hand-set", got, conditions, false, 0.994)
+}
+
+func TestAccuracyFashion(t *testing.T) {
+	longRuns(t, "fashion")
+	train, test := loadPair(t, true)
+	got := fitAndScore(t, "fashion hand-set", accConfig(t), train, test, pipeline.FitOptions{}, conditions)
+	// Target of issue 5: ≥ 92.0% (best scikit-learn classifier in Xiao et
+	// al. 2017: 89.7%; HOG + SVM in the dataset's README: 92.6%).
+	checkTargets(t, "fashion hand-set", got, conditions, true, 0.920)
+}
+
+// TestLabelEfficiency fits the unsupervised stages on all 60,000 training
+// images without labels, and the head on seeded subsets of 10, 100 and 1,000
+// labelled images per class.
+func TestLabelEfficiency(t *testing.T) {
+	longRuns(t, "labels")
+	train, test := loadPair(t, false)
+	cfg := accConfig(t)
+	// Targets of issue 5 (the same CNN from scratch: 80%, 94%, 98%).
+	targets := map[int]float64{10: 0.88, 100: 0.97, 1000: 0.990}
+	for _, per := range []int{10, 100, 1000} {
+		sub := train.Subset(datasets.PerClass(train.Labels, per, 1))
+		got := fitAndScore(t, fmt.Sprintf("mnist %d labels/class", per), cfg, sub, test,
+			pipeline.FitOptions{Unlabeled: train}, conditions[:1])
+		if got["clean"] < targets[per] {
+			t.Errorf("%d labels per class: %.2f%%; target ≥ %.0f%%", per, 100*got["clean"], 100*targets[per])
+		}
+	}
+}

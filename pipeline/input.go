@@ -1,0 +1,102 @@
+package pipeline
+
+import (
+	"fmt"
+	"math"
+)
+
+// Input normalisation modes (InputConfig.Normalize, InputConfig.Center).
+const (
+	NormalizeMinMax = "minmax" // v' = (v − min)/(max − min), when max − min ≥ minRange
+	NormalizeNone   = "none"
+	CenterMass      = "mass" // integer shift putting the centre of mass at the centre
+	CenterNone      = "none"
+)
+
+// minRange is the smallest max − min that NormalizeMinMax stretches: below
+// 1/255 (one grey level of an 8-bit image) an image is treated as flat and
+// left alone, so a blank image is not blown up into noise.
+const minRange = 1.0 / 255
+
+func (c InputConfig) validate() error {
+	switch c.Normalize {
+	case NormalizeMinMax, NormalizeNone:
+	default:
+		return fmt.Errorf("pipeline: input.normalize %q; want %q (default) or %q", c.Normalize, NormalizeMinMax, NormalizeNone)
+	}
+	switch c.Center {
+	case CenterMass, CenterNone:
+	default:
+		return fmt.Errorf("pipeline: input.center %q; want %q (default) or %q", c.Center, CenterMass, CenterNone)
+	}
+	return nil
+}
+
+// normalizeInput applies the input stage's normalisation and centring to
+// img (h×w, values in [0,1]) and returns the result: img itself when both
+// are off, otherwise buf (grown to h·w) holding the result.
+//
+// Min-max stretching undoes a global contrast change about any point; it
+// leaves an image that already spans [0,1] (most clean or noisy images)
+// unchanged.
+//
+// Centring computes the centre of mass (ȳ, x̄) = Σ v·(y, x) / Σ v and moves
+// the image by the integer shift round((h−1)/2 − ȳ), round((w−1)/2 − x̄)
+// with zero fill — the normalisation used to build MNIST itself (LeCun,
+// Bottou, Bengio & Haffner 1998: digits "centered in a 28x28 image by
+// computing the center of mass of the pixels"). An image with no mass is
+// left where it is.
+func normalizeInput(buf, img []float32, h, w int, c InputConfig) []float32 {
+	if c.Normalize != NormalizeMinMax && c.Center != CenterMass {
+		return img
+	}
+	n := h * w
+	if cap(buf) < 2*n {
+		buf = make([]float32, 2*n)
+	}
+	out, tmp := buf[:n], buf[n:2*n]
+	copy(tmp, img[:n])
+	if c.Normalize == NormalizeMinMax {
+		lo, hi := tmp[0], tmp[0]
+		for _, v := range tmp {
+			lo, hi = min(lo, v), max(hi, v)
+		}
+		if hi-lo >= minRange {
+			s := 1 / (hi - lo)
+			for i, v := range tmp {
+				tmp[i] = (v - lo) * s
+			}
+		}
+	}
+	if c.Center != CenterMass {
+		copy(out, tmp)
+		return out
+	}
+	var m, my, mx float64
+	for y := 0; y < h; y++ {
+		var row float64
+		for x, v := range tmp[y*w : (y+1)*w] {
+			row += float64(v)
+			mx += float64(v) * float64(x)
+		}
+		m += row
+		my += row * float64(y)
+	}
+	dy, dx := 0, 0
+	if m > 0 {
+		dy = int(math.Round(float64(h-1)/2 - my/m))
+		dx = int(math.Round(float64(w-1)/2 - mx/m))
+	}
+	clear(out)
+	for y := 0; y < h; y++ {
+		sy := y - dy
+		if sy < 0 || sy >= h {
+			continue
+		}
+		x0, x1 := max(0, dx), min(w, w+dx)
+		if x0 < x1 {
+			copy(out[y*w+x0:y*w+x1], tmp[sy*w+x0-dx:sy*w+x1-dx])
+		}
+	}
+	return out
+}

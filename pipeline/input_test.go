@@ -1,0 +1,115 @@
+package pipeline
+
+import (
+	"encoding/json"
+	"math"
+	"os"
+	"testing"
+
+	"github.com/striate/striate/datasets"
+)
+
+// TestCenterMatchesSciPy checks the centring shift against the centre of
+// mass computed by scipy.ndimage.center_of_mass (SciPy 1.10.1; see
+// testdata/pipeline/gen_center.py), and that the centred image is the input
+// moved by exactly that shift with zero fill.
+func TestCenterMatchesSciPy(t *testing.T) {
+	b, err := os.ReadFile("../testdata/pipeline/center.json")
+	if err != nil {
+		t.Fatal(err)
+	}
+	var ref struct {
+		Cases []struct {
+			H, W   int
+			Pix    []float32
+			DY, DX int
+		}
+	}
+	if err := json.Unmarshal(b, &ref); err != nil {
+		t.Fatal(err)
+	}
+	cfg := InputConfig{Normalize: NormalizeNone, Center: CenterMass}
+	for ci, c := range ref.Cases {
+		out := normalizeInput(nil, c.Pix, c.H, c.W, cfg)
+		for y := 0; y < c.H; y++ {
+			for x := 0; x < c.W; x++ {
+				sy, sx := y-c.DY, x-c.DX
+				var want float32
+				if sy >= 0 && sy < c.H && sx >= 0 && sx < c.W {
+					want = c.Pix[sy*c.W+sx]
+				}
+				if out[y*c.W+x] != want {
+					t.Fatalf("case %d (%d×%d): pixel (%d,%d) = %v; want %v (SciPy shift %d,%d)", ci, c.H, c.W, y, x, out[y*c.W+x], want, c.DY, c.DX)
+				}
+			}
+		}
+	}
+}
+
+// TestInputUndoesShiftAndContrast: a contrast change ×0.25 about the mean
+// is undone exactly by the input stage, and a 2 or 4 px shift of an MNIST
+// digit is undone unless the shift pushed part of the digit out of the frame
+// (MNIST digits are size-normalised to 20×20 but placed by their centre of
+// mass, LeCun et al. 1998, so many reach within 4 px of an edge) or the
+// centre of mass lands on a rounding tie.
+func TestInputUndoesShiftAndContrast(t *testing.T) {
+	_, test := mnist(t)
+	cfg := InputConfig{Normalize: NormalizeMinMax, Center: CenterMass}
+	// tol: min-max stretching of a ×0.25 image divides by a range 4× smaller,
+	// so float32 rounding of the perturbation (~6e-8) grows to ~1e-6.
+	const tol = 1e-5
+	same := map[datasets.PerturbKind]int{}
+	shift4 := 0
+	const n = 200
+	for i := 0; i < n; i++ {
+		img := test.Float(nil, i)
+		ref := append([]float32(nil), normalizeInput(nil, img, 28, 28, cfg)...)
+		for _, p := range []datasets.Perturbation{
+			{Kind: datasets.Shift, Level: 2, Dir: i % 8},
+			{Kind: datasets.Shift, Level: 4, Dir: (i + 3) % 8},
+			{Kind: datasets.Contrast, Level: 0.25},
+		} {
+			pert := make([]float32, 28*28)
+			p.Apply(pert, img, 28, 28, 1)
+			got := normalizeInput(nil, pert, 28, 28, cfg)
+			ok := true
+			for j := range got {
+				if math.Abs(float64(got[j]-ref[j])) > tol {
+					ok = false
+					break
+				}
+			}
+			if ok && p.Kind == datasets.Shift && p.Level == 4 {
+				shift4++
+			} else if ok {
+				same[p.Kind]++
+			}
+		}
+	}
+	// Floors from a measurement on the first 300 test digits (contrast 300,
+	// shift-2 288, shift-4 219 of 300), rounded down to leave room for the
+	// sample: contrast must be exact for every digit.
+	if same[datasets.Contrast] != n {
+		t.Errorf("%d of %d digits at contrast ×0.25 normalise back; want all", same[datasets.Contrast], n)
+	}
+	if same[datasets.Shift] < n*90/100 {
+		t.Errorf("%d of %d digits shifted 2 px normalise back; want ≥ 90%%", same[datasets.Shift], n)
+	}
+	if shift4 < n*65/100 {
+		t.Errorf("%d of %d digits shifted 4 px normalise back; want ≥ 65%%", shift4, n)
+	}
+	flat := make([]float32, 64)
+	for i := range flat {
+		flat[i] = 0.3
+	}
+	if got := normalizeInput(nil, flat, 8, 8, cfg); got[0] != 0.3 || got[63] != 0.3 {
+		t.Errorf("a flat image changed: %v", got[:4])
+	}
+	if got := normalizeInput(nil, make([]float32, 64), 8, 8, cfg); got[0] != 0 {
+		t.Errorf("a black image changed")
+	}
+	off := InputConfig{Normalize: NormalizeNone, Center: CenterNone}
+	if got := normalizeInput(nil, flat, 8, 8, off); &got[0] != &flat[0] {
+		t.Error("with both stages off the image should pass through untouched")
+	}
+}

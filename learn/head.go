@@ -20,8 +20,8 @@ type Head struct {
 	kind      string // "softmax" or "mlp"
 	d, h, k   int    // inputs, hidden units (0 for softmax), classes
 	mean, std []float32
-	w1, b1    []float32 // d×m (m = h, or k for softmax), m
-	w2, b2    []float32 // h×k, k (mlp only)
+	w1, b1    []float32 // m×d (m = h, or k for softmax), m; weights out×in
+	w2, b2    []float32 // k×h, k (mlp only)
 	fw, fb    []float32 // folded first layer
 }
 
@@ -32,24 +32,17 @@ func newHead(kind string, d, h, k int, mean, std, w1, b1, w2, b2 []float32) *Hea
 		m = h
 	}
 	hd := &Head{kind: kind, d: d, h: h, k: k, mean: mean, std: std, w1: w1, b1: b1, w2: w2, b2: b2}
-	hd.fw = make([]float32, d*m)
+	hd.fw = make([]float32, m*d)
 	hd.fb = make([]float32, m)
-	acc := make([]float64, m)
 	for j := 0; j < m; j++ {
-		acc[j] = float64(b1[j])
-	}
-	for i := 0; i < d; i++ {
-		inv := 1 / float64(std[i])
-		row := w1[i*m : (i+1)*m]
-		frow := hd.fw[i*m : (i+1)*m]
-		for j, w := range row {
-			fw := float64(w) * inv
-			frow[j] = float32(fw)
-			acc[j] -= float64(mean[i]) * fw
+		acc := float64(b1[j])
+		row, frow := w1[j*d:(j+1)*d], hd.fw[j*d:(j+1)*d]
+		for i, w := range row {
+			fw := float64(w) / float64(std[i])
+			frow[i] = float32(fw)
+			acc -= float64(mean[i]) * fw
 		}
-	}
-	for j := range acc {
-		hd.fb[j] = float32(acc[j])
+		hd.fb[j] = float32(acc)
 	}
 	return hd
 }
@@ -118,21 +111,21 @@ func (hd *Head) PredictBatch(dst, X, scratch []float32) []float32 {
 	return dst
 }
 
-// headAffine sets out (n×m) = X (n×d) · W (d×m) + 1·bᵀ.
+// headAffine sets out (n×m) = X (n×d) · Wᵀ + 1·bᵀ with W m×d.
 func headAffine(out, X []float32, n, d, m int, W, b []float32) {
 	for i := 0; i < n; i++ {
 		copy(out[i*m:(i+1)*m], b)
 	}
 	if n == 1 {
-		blas32.Gemv(blas.Trans, 1,
-			blas32.General{Rows: d, Cols: m, Stride: m, Data: W},
+		blas32.Gemv(blas.NoTrans, 1,
+			blas32.General{Rows: m, Cols: d, Stride: d, Data: W},
 			blas32.Vector{N: d, Inc: 1, Data: X},
 			1, blas32.Vector{N: m, Inc: 1, Data: out})
 		return
 	}
-	blas32.Gemm(blas.NoTrans, blas.NoTrans, 1,
+	blas32.Gemm(blas.NoTrans, blas.Trans, 1,
 		blas32.General{Rows: n, Cols: d, Stride: d, Data: X},
-		blas32.General{Rows: d, Cols: m, Stride: m, Data: W},
+		blas32.General{Rows: m, Cols: d, Stride: d, Data: W},
 		1, blas32.General{Rows: n, Cols: m, Stride: m, Data: out})
 }
 

@@ -15,11 +15,12 @@ type NamedTensor struct {
 
 // Tensors returns copies of the head's parameters:
 //
-//	softmax: head.mean [d], head.std [d], head.w [d k], head.b [k]
-//	mlp:     head.mean [d], head.std [d], head.w1 [d h], head.b1 [h], head.w2 [h k], head.b2 [k]
+//	softmax: head.mean [d], head.std [d], head.w [k d], head.b [k]
+//	mlp:     head.mean [d], head.std [d], head.w1 [h d], head.b1 [h], head.w2 [k h], head.b2 [k]
 //
-// The weights act on standardised features (x − mean)/std. NewHeadFromTensors
-// inverts it.
+// Weight matrices are out×in, row-major, and act on standardised features
+// z = (x − mean)/std: logits = W·z + b (softmax), or
+// W2·max(0, W1·z + b1) + b2 (mlp). NewHeadFromTensors inverts Tensors.
 func (hd *Head) Tensors() []NamedTensor {
 	cp := func(s []float32) []float32 { return append([]float32(nil), s...) }
 	ts := []NamedTensor{
@@ -28,13 +29,13 @@ func (hd *Head) Tensors() []NamedTensor {
 	}
 	if hd.kind == KindSoftmax {
 		return append(ts,
-			NamedTensor{"head.w", []int{hd.d, hd.k}, cp(hd.w1)},
+			NamedTensor{"head.w", []int{hd.k, hd.d}, cp(hd.w1)},
 			NamedTensor{"head.b", []int{hd.k}, cp(hd.b1)})
 	}
 	return append(ts,
-		NamedTensor{"head.w1", []int{hd.d, hd.h}, cp(hd.w1)},
+		NamedTensor{"head.w1", []int{hd.h, hd.d}, cp(hd.w1)},
 		NamedTensor{"head.b1", []int{hd.h}, cp(hd.b1)},
-		NamedTensor{"head.w2", []int{hd.h, hd.k}, cp(hd.w2)},
+		NamedTensor{"head.w2", []int{hd.k, hd.h}, cp(hd.w2)},
 		NamedTensor{"head.b2", []int{hd.k}, cp(hd.b2)})
 }
 
@@ -100,15 +101,15 @@ func NewHeadFromTensors(ts []NamedTensor) (*Head, error) {
 	if len(get[2].Shape) != 2 {
 		return nil, fmt.Errorf("learn: head tensor %q: shape %v, want a matrix", get[2].Name, get[2].Shape)
 	}
-	m := get[2].Shape[1]
-	checks := []error{want(get[1], d), want(get[2], d, m), want(get[3], m)}
+	m := get[2].Shape[0]
+	checks := []error{want(get[1], d), want(get[2], m, d), want(get[3], m)}
 	k, h := m, 0
 	if kind == KindMLP {
 		if len(get[4].Shape) != 2 {
 			return nil, fmt.Errorf("learn: head tensor %q: shape %v, want a matrix", get[4].Name, get[4].Shape)
 		}
-		h, k = m, get[4].Shape[1]
-		checks = append(checks, want(get[4], h, k), want(get[5], k))
+		h, k = m, get[4].Shape[0]
+		checks = append(checks, want(get[4], k, h), want(get[5], k))
 	}
 	for _, err := range checks {
 		if err != nil {

@@ -1,20 +1,30 @@
-// Package nn is the one place in striate that imports gorgonia. It builds, once,
-// the expression graph of a softmax regression or a one-hidden-layer ReLU
-// network with a fixed minibatch size, and evaluates the loss and its
-// gradients with respect to the parameters by gorgonia's symbolic reverse-mode
-// differentiation on a tape machine. Parameter updates, data handling and
-// inference live in package learn in plain Go; nothing of gorgonia's types
-// leaves this package.
+// Package nn is the one place in striate that imports gorgonia. It evaluates
+// the minibatch loss of a softmax regression or a one-hidden-layer ReLU network
+// and its gradients with respect to the parameters, by two engines with one
+// interface (Engine):
 //
-// Graph (B = batch, D = inputs, H = hidden units, K = classes; Y one-hot B×K):
+//   - Graph: gorgonia's expression graph, built once for a fixed minibatch
+//     size, differentiated symbolically (reverse mode) and run on a tape
+//     machine. It is the reference: its gradients are checked against central
+//     finite differences.
+//   - Plain: the same loss with a hand-written backward pass on gonum's
+//     float32 BLAS, about twice as fast at the full-MNIST head's shapes
+//     because it skips the input gradient and gorgonia's per-op allocations.
+//     Its gradients are checked against Graph's.
 //
-//	softmax: Z = X·W + 1·bᵀ                      W: D×K, b: K
-//	mlp:     A = max(0, X·W1 + 1·b1ᵀ), Z = A·W2 + 1·b2ᵀ   W1: D×H, b1: H, W2: H×K, b2: K
+// Parameter updates, data handling and inference live in package learn;
+// nothing of gorgonia's types leaves this package.
+//
+// Model (B = batch, D = inputs, H = hidden units, K = classes; Y one-hot B×K;
+// weight matrices are stored out×in, row-major):
+//
+//	softmax: Z = X·Wᵀ + 1·bᵀ                        W: K×D, b: K
+//	mlp:     A = max(0, X·W1ᵀ + 1·b1ᵀ), Z = A·W2ᵀ + 1·b2ᵀ   W1: H×D, b1: H, W2: K×H, b2: K
 //	loss   = −(1/B) Σ_i Σ_k Y_ik log softmax(Z_i)_k + (λ/2) Σ_W ||W||²_F
 //
 // The L2 term covers weight matrices only, never biases (common practice; it is
 // also what scikit-learn's LogisticRegression does with its intercept).
-// A Net is not safe for concurrent use.
+// Engines are not safe for concurrent use.
 package nn
 
 import (
@@ -33,7 +43,20 @@ type Spec struct {
 	Float64         bool    // float64 graph (gradient checks); default float32
 }
 
-// Net is a compiled graph plus its bound tensors.
+// Engine evaluates the loss and gradients of one minibatch. The caller fills
+// X32/Y32 (or X64/Y64) and updates the parameters in place between calls.
+type Engine interface {
+	Spec() Spec
+	Params32() [][]float32
+	X32() []float32
+	Y32() []float32
+	// Eval returns the loss and copies the gradients, in parameter order, into
+	// grads ([][]float32 for float32 engines, [][]float64 for float64).
+	Eval(grads any) (float64, error)
+	Close() error
+}
+
+// Net is a compiled gorgonia graph plus its bound tensors.
 type Net struct {
 	spec   Spec
 	g      *gorgonia.ExprGraph
@@ -47,18 +70,25 @@ type Net struct {
 }
 
 // ParamShapes lists the parameter shapes in the order Params uses:
-// softmax [D×K, K]; mlp [D×H, H, H×K, K].
+// softmax [K×D, K]; mlp [H×D, H, K×H, K].
 func (s Spec) ParamShapes() [][]int {
 	if s.Hidden == 0 {
-		return [][]int{{s.In, s.Out}, {s.Out}}
+		return [][]int{{s.Out, s.In}, {s.Out}}
 	}
-	return [][]int{{s.In, s.Hidden}, {s.Hidden}, {s.Hidden, s.Out}, {s.Out}}
+	return [][]int{{s.Hidden, s.In}, {s.Hidden}, {s.Out, s.Hidden}, {s.Out}}
 }
 
-// New validates s and builds the graph.
+func (s Spec) validate() error {
+	if s.In < 1 || s.Out < 2 || s.Hidden < 0 || s.Batch < 1 || !(s.L2 >= 0) {
+		return fmt.Errorf("nn: bad spec %+v (need In ≥ 1, Out ≥ 2, Hidden ≥ 0, Batch ≥ 1, L2 ≥ 0)", s)
+	}
+	return nil
+}
+
+// New validates s and builds the gorgonia graph.
 func New(s Spec) (n *Net, err error) {
-	if s.In < 1 || s.Out < 2 || s.Hidden < 0 || s.Batch < 1 || s.L2 < 0 {
-		return nil, fmt.Errorf("nn: bad spec %+v (need In ≥ 1, Out ≥ 2, Hidden ≥ 0, Batch ≥ 1, L2 ≥ 0)", s)
+	if err := s.validate(); err != nil {
+		return nil, err
 	}
 	defer func() {
 		// gorgonia reports some shape problems by panicking; turn them into errors.
@@ -98,7 +128,11 @@ func New(s Spec) (n *Net, err error) {
 		return gorgonia.NewConstant(float32(v))
 	}
 	affine := func(a, w, b *gorgonia.Node) (*gorgonia.Node, error) {
-		m, err := gorgonia.Mul(a, w)
+		wt, err := gorgonia.Transpose(w)
+		if err != nil {
+			return nil, err
+		}
+		m, err := gorgonia.Mul(a, wt)
 		if err != nil {
 			return nil, err
 		}

@@ -97,7 +97,7 @@ func kinkFree(n *Net) bool {
 		for h := 0; h < s.Hidden; h++ {
 			a := ps[1][h]
 			for d := 0; d < s.In; d++ {
-				a += x[i*s.In+d] * ps[0][d*s.Hidden+h]
+				a += x[i*s.In+d] * ps[0][h*s.In+d]
 			}
 			if math.Abs(a) < 10*fdStep {
 				return false
@@ -137,7 +137,7 @@ func TestLossValueMatchesFormula(t *testing.T) {
 		for k := range z {
 			z[k] = ps[1][k]
 			for d := 0; d < sp.In; d++ {
-				z[k] += n.X64()[i*sp.In+d] * ps[0][d*sp.Out+k]
+				z[k] += n.X64()[i*sp.In+d] * ps[0][k*sp.In+d]
 			}
 			mx = math.Max(mx, z[k])
 		}
@@ -164,5 +164,75 @@ func TestBadSpec(t *testing.T) {
 	}
 	if _, err := New(Spec{In: 2, Out: 1, Batch: 1}); err == nil {
 		t.Error("Out 1 accepted")
+	}
+}
+
+// plainTol bounds |g_plain − g_graph| / (max |g_graph| over the tensor) between
+// the plain engine and gorgonia's graph, both float32 on the same batch. The
+// two sum the same products in different orders, so they differ by float32
+// rounding of sums of up to a few hundred terms: ~1e-6 relative; 1e-4 is a
+// safe bound that any wrong formula (an O(1) error) still fails.
+const plainTol = 1e-4
+
+func TestPlainMatchesGraph(t *testing.T) {
+	for _, sp := range []Spec{
+		{In: 37, Out: 5, Batch: 19, L2: 0.01},
+		{In: 30, Hidden: 23, Out: 4, Batch: 17, L2: 0.02},
+		{In: 130, Hidden: 70, Out: 10, Batch: 65},
+	} {
+		gr, err := New(sp)
+		if err != nil {
+			t.Fatal(err)
+		}
+		pl, err := NewPlain(sp)
+		if err != nil {
+			t.Fatal(err)
+		}
+		rng := rand.New(rand.NewPCG(9, uint64(sp.In)))
+		for i := range gr.X32() {
+			v := float32(rng.NormFloat64())
+			gr.X32()[i], pl.X32()[i] = v, v
+		}
+		for i := 0; i < sp.Batch; i++ {
+			c := rng.IntN(sp.Out)
+			gr.Y32()[i*sp.Out+c], pl.Y32()[i*sp.Out+c] = 1, 1
+		}
+		for pi, p := range gr.Params32() {
+			for j := range p {
+				v := float32(0.3 * rng.NormFloat64())
+				p[j], pl.Params32()[pi][j] = v, v
+			}
+		}
+		mk := func() [][]float32 {
+			var g [][]float32
+			for _, p := range pl.Params32() {
+				g = append(g, make([]float32, len(p)))
+			}
+			return g
+		}
+		gg, gp := mk(), mk()
+		lg, err := gr.Eval(gg)
+		if err != nil {
+			t.Fatal(err)
+		}
+		lp, err := pl.Eval(gp)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if math.Abs(lg-lp) > plainTol*math.Abs(lg) {
+			t.Errorf("%+v: loss graph %.7g plain %.7g", sp, lg, lp)
+		}
+		for pi := range gg {
+			scale := 0.0
+			for _, v := range gg[pi] {
+				scale = math.Max(scale, math.Abs(float64(v)))
+			}
+			for j := range gg[pi] {
+				if d := math.Abs(float64(gg[pi][j] - gp[pi][j])); d > plainTol*scale {
+					t.Fatalf("%+v: grad %d[%d] graph %g plain %g", sp, pi, j, gg[pi][j], gp[pi][j])
+				}
+			}
+		}
+		gr.Close()
 	}
 }

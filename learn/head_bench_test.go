@@ -1,0 +1,88 @@
+package learn
+
+import (
+	"fmt"
+	"math/rand/v2"
+	"testing"
+)
+
+// BenchmarkHeadEpoch times one training epoch (no validation) on random
+// features of the size the full-MNIST pipeline produces: 60,000 rows × 2,000
+// features, 10 classes. Run under the shared lock:
+//
+//	flock /tmp/striate-heavy.lock go test -run XXX -bench HeadEpoch -benchtime 2x ./learn
+func BenchmarkHeadEpoch(b *testing.B) {
+	n, d, k := benchRows, 2000, 10
+	rng := rand.New(rand.NewPCG(1, 1))
+	X := make([]float32, n*d)
+	for i := range X {
+		X[i] = float32(rng.NormFloat64())
+	}
+	y := make([]int, n)
+	for i := range y {
+		y[i] = rng.IntN(k)
+	}
+	for _, cfg := range []HeadConfig{
+		{Kind: KindSoftmax, Batch: 128},
+		{Kind: KindSoftmax, Batch: 128, Engine: EngineGorgonia},
+		{Kind: KindSoftmax, Batch: 512},
+		{Kind: KindMLP, Hidden: 256, Batch: 128},
+		{Kind: KindMLP, Hidden: 256, Batch: 128, Engine: EngineGorgonia},
+		{Kind: KindMLP, Hidden: 256, Batch: 512},
+		{Kind: KindMLP, Hidden: 1024, Batch: 256},
+	} {
+		cfg.Epochs, cfg.ValFrac = 1, -1
+		eng := cfg.Engine
+		if eng == "" {
+			eng = EngineGo
+		}
+		b.Run(fmt.Sprintf("%s-%s-h%d-b%d/%dx%d", eng, cfg.Kind, cfg.Hidden, cfg.Batch, n, d), func(b *testing.B) {
+			b.ReportAllocs()
+			for i := 0; i < b.N; i++ {
+				if _, _, err := cfg.Fit(X, y, k, nil); err != nil {
+					b.Fatal(err)
+				}
+			}
+			b.ReportMetric(float64(n)*float64(b.N)/b.Elapsed().Seconds(), "rows/s")
+		})
+	}
+}
+
+var sinkProbs []float32
+
+var benchRows = 60000
+
+// BenchmarkHeadPredict times single-row inference (the per-image cost).
+func BenchmarkHeadPredict(b *testing.B) {
+	for _, c := range []struct{ d, h int }{{2000, 0}, {2000, 256}} {
+		b.Run(fmt.Sprintf("d%d-h%d", c.d, c.h), func(b *testing.B) {
+			rng := rand.New(rand.NewPCG(2, 2))
+			mk := func(n int) []float32 {
+				s := make([]float32, n)
+				for i := range s {
+					s[i] = float32(rng.NormFloat64())
+				}
+				return s
+			}
+			one := func(n int) []float32 {
+				s := make([]float32, n)
+				for i := range s {
+					s[i] = 1
+				}
+				return s
+			}
+			var hd *Head
+			if c.h == 0 {
+				hd = newHead(KindSoftmax, c.d, 0, 10, mk(c.d), one(c.d), mk(c.d*10), mk(10), nil, nil)
+			} else {
+				hd = newHead(KindMLP, c.d, c.h, 10, mk(c.d), one(c.d), mk(c.d*c.h), mk(c.h), mk(c.h*10), mk(10))
+			}
+			x := mk(c.d)
+			dst, scratch := make([]float32, 10), make([]float32, hd.ScratchLen(1))
+			b.ReportAllocs()
+			for i := 0; i < b.N; i++ {
+				sinkProbs = hd.Predict(dst, x, scratch)
+			}
+		})
+	}
+}

@@ -4,7 +4,6 @@ import (
 	"bufio"
 	"compress/gzip"
 	"encoding/binary"
-	"errors"
 	"fmt"
 	"io"
 	"math"
@@ -454,6 +453,3 @@ func WriteIDXSet(imagesPath, labelsPath string, s *Set) error {
 	}
 	return WriteIDXFile(labelsPath, &IDX{Type: IDXUint8, Dims: []int{s.N}, Data: lb})
 }
-
-// errNoData marks a missing dataset (as opposed to a damaged one).
-var errNoData = errors.New("data not found")

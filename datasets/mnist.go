@@ -36,6 +36,9 @@ var MNISTClasses = []string{"0", "1", "2", "3", "4", "5", "6", "7", "8", "9"}
 // Xiao, Rasul & Vollgraf (2017), Table 1.
 var FashionClasses = []string{"T-shirt/top", "Trouser", "Pullover", "Dress", "Coat", "Sandal", "Shirt", "Sneaker", "Bag", "Ankle boot"}
 
+// errNoData marks a missing dataset (as opposed to a damaged one).
+var errNoData = errors.New("data not found")
+
 // idxNames returns the published file names of a split, without ".gz".
 func idxNames(split Split) (images, labels string) {
 	if split == Test {

@@ -1,10 +1,10 @@
 package v1layer
 
-// padImage copies the h×w image img into the (h+2R)×(w+2R) buffer dst,
-// filling the border of width R with zeros or with the reflection
-// (d c b a | a b c d). It needs R ≤ min(h, w) for BorderReflect.
-func padImage(dst, img []float32, h, w, R int, b Border) {
-	pw := w + 2*R
+// padImage copies the h×w image img into the (h+2R)-row buffer dst of row
+// stride pw ≥ w+2R, filling the border of width R with zeros or with the
+// reflection (d c b a | a b c d) and columns beyond w+2R with zeros. It
+// needs R ≤ min(h, w) for BorderReflect.
+func padImage(dst, img []float32, h, w, R, pw int, b Border) {
 	for py := 0; py < h+2*R; py++ {
 		row := dst[py*pw : py*pw+pw]
 		y := py - R
@@ -22,6 +22,7 @@ func padImage(dst, img []float32, h, w, R int, b Border) {
 				row[R-1-i] = src[reflectIndex(-1-i, w)]
 				row[R+w+i] = src[reflectIndex(w+i, w)]
 			}
+			clear(row[2*R+w:])
 		} else {
 			clear(row[:R])
 			clear(row[R+w:])

@@ -1,36 +1,200 @@
 package v1layer
 
-// engine computes the correlation of one image with every kernel.
+// engine computes the correlation of one image with every kernel, running
+// the separable plan (see separable.go) over pre-padded planes.
+//
+// Layout: the input is copied into a padded plane of (h+2R) rows and pw
+// columns (pw ≥ 2R + nx + 8, nx = w rounded up to 8), image pixel (y,x) at
+// row R+y, column R+x. First passes write planes of the same layout; the
+// inner loops compute nx ≥ w outputs per row (whole SIMD blocks), so every
+// buffer has slack for the extra columns, whose values are never used.
 type engine struct {
 	kernels []Kernel
 	R       int
+	p       *plan
+	slots   int // first-pass planes live at once (largest size group)
 }
 
 type engineScratch struct {
-	h, w int
-	pad  []float32
+	h, w, nx, pw int
+	pad          []float32
+	planes       [][]float32
+	srcs         [][]float32
+	taps         [][]float32
 }
 
-func newEngine(ks []Kernel, R int) *engine { return &engine{kernels: ks, R: R} }
+func newEngine(ks []Kernel, R int) *engine {
+	e := &engine{kernels: ks, R: R, p: makePlan(ks)}
+	for _, fo := range e.p.firstOf {
+		e.slots = max(e.slots, len(fo))
+	}
+	return e
+}
+
+func roundUp(n, m int) int { return (n + m - 1) / m * m }
+
+// respLen is the length each response buffer needs for an h×w image: h·w
+// plus the overrun of the last row.
+func respLen(h, w int) int { return h*w + roundUp(w, 8) - w + 8 }
 
 func (e *engine) scratchFor(s *engineScratch, h, w int) *engineScratch {
 	if s == nil {
 		s = &engineScratch{}
 	}
-	n := (h + 2*e.R) * (w + 2*e.R)
-	if cap(s.pad) < n {
-		s.pad = make([]float32, n)
+	nx := roundUp(w, 8)
+	pw := roundUp(2*e.R+nx+8, 8)
+	n := (h + 2*e.R) * pw
+	s.pad = make([]float32, n)
+	if len(s.planes) != e.slots {
+		s.planes = make([][]float32, e.slots)
 	}
-	s.pad = s.pad[:n]
-	s.h, s.w = h, w
+	for i := range s.planes {
+		s.planes[i] = make([]float32, n) // zero: the border regions are never written
+	}
+	maxTerms := 0
+	for _, k := range e.p.ks {
+		maxTerms = max(maxTerms, len(k.terms))
+	}
+	s.srcs = make([][]float32, maxTerms)
+	s.taps = make([][]float32, maxTerms)
+	s.h, s.w, s.nx, s.pw = h, w, nx, pw
 	return s
 }
 
-// responses writes the h×w correlation of img with kernel i to resp[i].
+// responses writes the h×w correlation of img with kernel i to resp[i]
+// (each of length ≥ respLen(h, w)).
 func (e *engine) responses(resp [][]float32, img []float32, h, w int, b Border, s *engineScratch) {
-	padImage(s.pad, img, h, w, e.R, b)
-	pw := w + 2*e.R
-	for i, k := range e.kernels {
-		correlateDirect(resp[i], s.pad, pw, h, w, e.R, k.W, k.Size)
+	R, nx, pw := e.R, s.nx, s.pw
+	padImage(s.pad, img, h, w, R, pw, b)
+	p := e.p
+	for g, grp := range p.groups {
+		fo := p.firstOf[g]
+		for slot, fi := range fo {
+			q := &p.first[fi]
+			pl := s.planes[slot]
+			taps := s.taps[:1]
+			taps[0] = q.taps
+			srcs := s.srcs[:1]
+			srcs[0] = s.pad
+			if !q.vertical {
+				y0, y1 := R, R+h
+				if b == BorderReflect {
+					y0, y1 = R-q.r, R+h+q.r
+				}
+				for py := y0; py < y1; py++ {
+					hsum(pl[py*pw+R:], nx, srcs, taps, py*pw+R-q.r)
+				}
+			} else {
+				c0, nc := R, nx
+				if b == BorderReflect {
+					c0, nc = R-q.r, roundUp(w+2*q.r, 8)
+				}
+				for y := 0; y < h; y++ {
+					py := R + y
+					vsum(pl[py*pw+c0:], nc, srcs, taps, (py-q.r)*pw+c0, pw)
+				}
+			}
+		}
+		for _, ki := range p.order[grp[0]:grp[1]] {
+			kp := &p.ks[ki]
+			srcs, taps := s.srcs[:len(kp.terms)], s.taps[:len(kp.terms)]
+			for t, tm := range kp.terms {
+				srcs[t] = s.planes[slotIn(fo, tm.src)]
+				taps[t] = tm.taps
+			}
+			out := resp[ki]
+			r := kp.r
+			if kp.vertical2 {
+				for y := 0; y < h; y++ {
+					vsum(out[y*w:], nx, srcs, taps, (R+y-r)*pw+R, pw)
+				}
+			} else {
+				for y := 0; y < h; y++ {
+					hsum(out[y*w:], nx, srcs, taps, (R+y)*pw+R-r)
+				}
+			}
+		}
+	}
+	for ki := range p.ks {
+		if p.ks[ki].direct {
+			k := e.kernels[ki]
+			correlateDirect(resp[ki], s.pad, pw, h, w, R, k.W, k.Size)
+		}
 	}
 }
+
+func slotIn(fo []int, fi int) int {
+	for i, x := range fo {
+		if x == fi {
+			return i
+		}
+	}
+	panic("v1layer: internal error: first pass not in its group")
+}
+
+// hsumGo is the portable horizontal second pass:
+//
+//	dst[x] = Σ_t Σ_u taps[t][u]·srcs[t][off+x+u],  x ∈ [0,n)
+func hsumGo(dst []float32, n int, srcs, taps [][]float32, off int) {
+	d := dst[:n]
+	clear(d)
+	for t, tp := range taps {
+		src := srcs[t][off : off+n+len(tp)-1]
+		u := 0
+		for ; u+4 <= len(tp); u += 4 {
+			c0, c1, c2, c3 := tp[u], tp[u+1], tp[u+2], tp[u+3]
+			s0, s1, s2, s3 := src[u:][:len(d)], src[u+1:][:len(d)], src[u+2:][:len(d)], src[u+3:][:len(d)]
+			for x := range d {
+				d[x] += c0*s0[x] + c1*s1[x] + c2*s2[x] + c3*s3[x]
+			}
+		}
+		for ; u < len(tp); u++ {
+			c, s0 := tp[u], src[u:][:len(d)]
+			for x := range d {
+				d[x] += c * s0[x]
+			}
+		}
+	}
+}
+
+// vsumGo is the portable vertical pass:
+//
+//	dst[x] = Σ_t Σ_k taps[t][k]·srcs[t][off+k·stride+x],  x ∈ [0,n)
+func vsumGo(dst []float32, n int, srcs, taps [][]float32, off, stride int) {
+	d := dst[:n]
+	clear(d)
+	for t, tp := range taps {
+		src := srcs[t]
+		k := 0
+		for ; k+4 <= len(tp); k += 4 {
+			c0, c1, c2, c3 := tp[k], tp[k+1], tp[k+2], tp[k+3]
+			o := off + k*stride
+			s0, s1 := src[o:][:len(d)], src[o+stride:][:len(d)]
+			s2, s3 := src[o+2*stride:][:len(d)], src[o+3*stride:][:len(d)]
+			for x := range d {
+				d[x] += c0*s0[x] + c1*s1[x] + c2*s2[x] + c3*s3[x]
+			}
+		}
+		for ; k < len(tp); k++ {
+			c, o := tp[k], off+k*stride
+			s0 := src[o:][:len(d)]
+			for x := range d {
+				d[x] += c * s0[x]
+			}
+		}
+	}
+}
+
+// The inner loops in use; a SIMD build replaces them at init when the CPU
+// supports it (see conv_simd_amd64.go).
+var (
+	hsum = hsumGo
+	vsum = vsumGo
+)
+
+var build = "plain (portable Go loops)"
+
+// Build names the inner loops this binary runs: "plain" for the portable
+// Go loops, or the SIMD variant selected at start-up (build with
+// GOEXPERIMENT=simd on amd64 to get it).
+func Build() string { return build }

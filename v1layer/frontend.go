@@ -2,7 +2,6 @@ package v1layer
 
 import (
 	"fmt"
-	"math"
 	"sync"
 	"sync/atomic"
 )
@@ -269,7 +268,7 @@ func (f *FrontEnd) getScratch(h, w int) *scratch {
 			s.resp = make([][]float32, len(f.kernels))
 		}
 		for i := range s.resp {
-			s.resp[i] = grow(s.resp[i], n)
+			s.resp[i] = grow(s.resp[i], respLen(h, w))
 		}
 		if len(s.maps) != len(f.stage) {
 			s.maps = make([][]float32, len(f.stage))
@@ -315,17 +314,15 @@ func (f *FrontEnd) apply(dst *Maps, img []float32, h, w int, s *scratch) {
 		case opEndStop:
 			continue // after the others, below
 		case opEnergy:
-			e, o := s.resp[sc.k], s.resp[sc.k2]
-			for j := range m {
-				m[j] = float32(math.Sqrt(float64(e[j]*e[j] + o[j]*o[j])))
-			}
+			e, o := s.resp[sc.k][:n], s.resp[sc.k2][:n]
+			energyTo(m[:n], e, o)
 			if sc.length != nil {
 				copy(s.tmp[:n], m)
 				lengthSum(m, s.tmp[:n], h, w, sc.theta, sc.length)
 			}
 			continue
 		}
-		r := s.resp[sc.k]
+		r := s.resp[sc.k][:n]
 		if sc.lcn {
 			copy(m, r)
 			lcnApply(m, h, w, f.lcnG, float32(cfg.DoG.LCN.Epsilon), cfg.Border, s.tmp)

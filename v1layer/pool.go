@@ -44,7 +44,8 @@ func poolOut(n, s int) int { return (n + s - 1) / s }
 
 // maxPool writes the max over the size×size window centred at (s·i, s·j),
 // clipped to the h×w map src, to dst (poolOut(h)×poolOut(w)). tmp holds
-// h·poolOut(w) values.
+// w values. Max is separable: first over the window's rows (a full-width
+// element-wise max), then along the row.
 func maxPool(dst, src []float32, h, w, size, s int, tmp []float32) {
 	r := size / 2
 	ow, oh := poolOut(w, s), poolOut(h, s)
@@ -52,44 +53,43 @@ func maxPool(dst, src []float32, h, w, size, s int, tmp []float32) {
 		copy(dst[:h*w], src[:h*w])
 		return
 	}
-	// Horizontal max, then vertical max (max is separable).
-	for y := 0; y < h; y++ {
-		row := src[y*w : y*w+w]
-		out := tmp[y*ow : y*ow+ow]
+	t := tmp[:w]
+	for i := 0; i < oh; i++ {
+		c := i * s
+		lo, hi := max(c-r, 0), min(c+r, h-1)
+		copy(t, src[lo*w:lo*w+w])
+		for y := lo + 1; y <= hi; y++ {
+			maxInto(t, src[y*w:y*w+w])
+		}
+		out := dst[i*ow : i*ow+ow]
+		if size == 3 && s == 2 {
+			pool3s2Row(out, t)
+			continue
+		}
 		for j := range out {
 			c := j * s
 			lo, hi := max(c-r, 0), min(c+r, w-1)
-			m := row[lo]
+			m := t[lo]
 			for x := lo + 1; x <= hi; x++ {
-				if row[x] > m {
-					m = row[x]
-				}
+				m = max(m, t[x])
 			}
 			out[j] = m
 		}
 	}
-	for i := 0; i < oh; i++ {
-		c := i * s
-		lo, hi := max(c-r, 0), min(c+r, h-1)
-		out := dst[i*ow : i*ow+ow]
-		copy(out, tmp[lo*ow:lo*ow+ow])
-		for y := lo + 1; y <= hi; y++ {
-			in := tmp[y*ow : y*ow+ow]
-			for j, v := range in {
-				if v > out[j] {
-					out[j] = v
-				}
-			}
-		}
-	}
 }
 
-// maxInto sets dst[i] = max(dst[i], src[i]).
-func maxInto(dst, src []float32) {
-	src = src[:len(dst)]
-	for i, v := range src {
-		if v > dst[i] {
-			dst[i] = v
-		}
+// pool3s2Row is the 3-wide, stride-2 row max: out[j] = max(t[2j−1..2j+1]) clipped.
+func pool3s2Row(out, t []float32) {
+	w := len(t)
+	out[0] = t[0]
+	if w > 1 {
+		out[0] = max(t[0], t[1])
+	}
+	j := 1
+	for ; 2*j+1 < w; j++ {
+		out[j] = max(t[2*j-1], t[2*j], t[2*j+1])
+	}
+	if j < len(out) {
+		out[j] = max(t[2*j-1], t[2*j])
 	}
 }

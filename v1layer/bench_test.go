@@ -1,0 +1,64 @@
+package v1layer
+
+import (
+	"fmt"
+	"math/rand/v2"
+	"testing"
+	"time"
+)
+
+// Benchmarks run the default front end, which equals the reference work of
+// ../shared/bench/filterbank.json (TestDefaultKernelsMatchBench). Content
+// does not change the work, so random images stand in for MNIST and the
+// photo crops here; `striate bench` times the real reference sets.
+//
+//	flock /tmp/striate-heavy.lock go test -run XXX -bench FrontEnd ./v1layer
+//	GOEXPERIMENT=simd flock /tmp/striate-heavy.lock go test -run XXX -bench FrontEnd ./v1layer
+
+var sinkMaps Maps
+
+func benchImages(n, h, w int) [][]float32 {
+	rng := rand.New(rand.NewPCG(3, 4))
+	imgs := make([][]float32, n)
+	for i := range imgs {
+		imgs[i], _ = randImage(rng, h, w)
+	}
+	return imgs
+}
+
+func BenchmarkFrontEnd(b *testing.B) {
+	f, err := New(Config{})
+	if err != nil {
+		b.Fatal(err)
+	}
+	for _, sz := range []int{28, 256} {
+		imgs := benchImages(16, sz, sz)
+		b.Run(fmt.Sprintf("%dx%d", sz, sz), func(b *testing.B) {
+			b.ReportAllocs()
+			var dst Maps
+			f.Apply(&dst, imgs[0], sz, sz)
+			b.ResetTimer()
+			start := time.Now()
+			for i := 0; i < b.N; i++ {
+				f.Apply(&dst, imgs[i%len(imgs)], sz, sz)
+			}
+			b.ReportMetric(float64(b.N)/time.Since(start).Seconds(), "img/s")
+			sinkMaps = dst
+		})
+		for _, workers := range []int{2} {
+			batch := benchImages(64, sz, sz)
+			b.Run(fmt.Sprintf("%dx%d/workers=%d", sz, sz, workers), func(b *testing.B) {
+				b.ReportAllocs()
+				dst := make([]Maps, len(batch))
+				f.ApplyBatch(dst, batch, sz, sz, workers)
+				b.ResetTimer()
+				start := time.Now()
+				for i := 0; i < b.N; i++ {
+					f.ApplyBatch(dst, batch, sz, sz, workers)
+				}
+				b.ReportMetric(float64(b.N*len(batch))/time.Since(start).Seconds(), "img/s")
+				sinkMaps = dst[0]
+			})
+		}
+	}
+}

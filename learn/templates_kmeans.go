@@ -1,0 +1,207 @@
+package learn
+
+import (
+	"fmt"
+	"math"
+	"math/rand/v2"
+
+	"gonum.org/v1/gonum/blas"
+	"gonum.org/v1/gonum/blas/blas32"
+	"gonum.org/v1/gonum/mat"
+)
+
+// fitWhitening returns the mean μ of the n rows of X (dim columns) and the
+// ZCA whitening matrix W = U·diag(1/sqrt(λ_i + ε))·Uᵀ of their covariance
+// Σ = (X − μ)ᵀ(X − μ)/n = U·diag(λ)·Uᵀ, with ε = eps·mean(λ) (Bell &
+// Sejnowski 1997 call this the zero-phase whitening filter; the ε
+// regularisation follows Coates & Ng 2011). eps < 0 gives W = I.
+func fitWhitening(X []float32, n, dim int, eps float64) (mean, W []float32, err error) {
+	mu := make([]float64, dim)
+	for i := 0; i < n; i++ {
+		for j, v := range X[i*dim : (i+1)*dim] {
+			mu[j] += float64(v)
+		}
+	}
+	mean = make([]float32, dim)
+	for j := range mu {
+		mu[j] /= float64(n)
+		mean[j] = float32(mu[j])
+	}
+	W = make([]float32, dim*dim)
+	if eps < 0 {
+		for i := 0; i < dim; i++ {
+			W[i*dim+i] = 1
+		}
+		return mean, W, nil
+	}
+	xc := mat.NewDense(n, dim, nil)
+	for i := 0; i < n; i++ {
+		row := xc.RawRowView(i)
+		for j, v := range X[i*dim : (i+1)*dim] {
+			row[j] = float64(v) - mu[j]
+		}
+	}
+	var cov mat.SymDense
+	cov.SymOuterK(1/float64(n), xc.T())
+	var es mat.EigenSym
+	if !es.Factorize(&cov, true) {
+		return nil, nil, fmt.Errorf("learn: template fit: the eigendecomposition of the %d×%d patch covariance did not converge", dim, dim)
+	}
+	vals := es.Values(nil)
+	var u mat.Dense
+	es.VectorsTo(&u)
+	var meanEig float64
+	for i, v := range vals {
+		if v < 0 {
+			vals[i] = 0 // rounding of a positive semi-definite matrix
+		}
+		meanEig += vals[i]
+	}
+	meanEig /= float64(dim)
+	e := eps * meanEig
+	if e <= 0 {
+		e = 1e-12
+	}
+	// W = U·diag(s)·Uᵀ.
+	us := mat.NewDense(dim, dim, nil)
+	for i := 0; i < dim; i++ {
+		for j := 0; j < dim; j++ {
+			us.Set(i, j, u.At(i, j)/math.Sqrt(vals[j]+e))
+		}
+	}
+	var w mat.Dense
+	w.Mul(us, u.T())
+	for i := 0; i < dim; i++ {
+		for j := 0; j < dim; j++ {
+			// Symmetrise exactly so that t·W and W·t agree bit for bit.
+			W[i*dim+j] = float32((w.At(i, j) + w.At(j, i)) / 2)
+		}
+	}
+	return mean, W, nil
+}
+
+// applyWhitening sets dst (n×dim) = (X − 1·μᵀ)·W.
+func applyWhitening(dst, X []float32, n, dim int, mean, W []float32) {
+	const chunk = 1024
+	buf := make([]float32, min(n, chunk)*dim)
+	for r0 := 0; r0 < n; r0 += chunk {
+		r1 := min(n, r0+chunk)
+		b := buf[:(r1-r0)*dim]
+		for i := r0; i < r1; i++ {
+			src, d := X[i*dim:(i+1)*dim], b[(i-r0)*dim:(i-r0+1)*dim]
+			for j, v := range src {
+				d[j] = v - mean[j]
+			}
+		}
+		blas32.Gemm(blas.NoTrans, blas.NoTrans, 1,
+			blas32.General{Rows: r1 - r0, Cols: dim, Stride: dim, Data: b},
+			blas32.General{Rows: dim, Cols: dim, Stride: dim, Data: W},
+			0, blas32.General{Rows: r1 - r0, Cols: dim, Stride: dim, Data: dst[r0*dim : r1*dim]})
+	}
+}
+
+type kmeansResult struct {
+	centroids []float32 // k×dim, unit norm
+	assign    []int     // final assignment of each row (to the returned centroids' predecessors)
+	empty     int
+	objective []float64
+}
+
+// unitRows scales each row of X (dim columns) to unit L2 norm in place;
+// zero rows stay zero.
+func unitRows(X []float32, dim int) {
+	for i := 0; i+dim <= len(X); i += dim {
+		row := X[i : i+dim]
+		var s float64
+		for _, v := range row {
+			s += float64(v) * float64(v)
+		}
+		if s == 0 {
+			continue
+		}
+		inv := 1 / math.Sqrt(s)
+		for j, v := range row {
+			row[j] = float32(float64(v) * inv)
+		}
+	}
+}
+
+// sphericalKMeans clusters the directions of the n rows of X: rows and the
+// initial centroids init (k×dim) are scaled to unit norm, then each of iters
+// iterations assigns every row to the centroid of largest cosine (ties to the
+// lower index) and replaces each centroid by the normalised mean of its rows
+// (Dhillon & Modha 2001, "Concept decompositions for large sparse text data
+// using clustering", §3). On unit-norm data with unit-norm centroids the
+// assignment equals Euclidean k-means' (||x − c||² = 2 − 2·x·c), which is how
+// it is checked against scikit-learn. A centroid left without rows is
+// re-seeded with a random row drawn from rng. X is not modified.
+func sphericalKMeans(X []float32, n, dim, k, iters int, init []float32, rng *rand.Rand, progress Progress) kmeansResult {
+	Xn := append([]float32(nil), X...)
+	unitRows(Xn, dim)
+	C := append([]float32(nil), init...)
+	unitRows(C, dim)
+	res := kmeansResult{assign: make([]int, n)}
+	const chunk = 1024
+	S := make([]float32, min(n, chunk)*k)
+	acc := make([]float64, k*dim)
+	count := make([]int, k)
+	for it := 0; it < iters; it++ {
+		var obj float64
+		for r0 := 0; r0 < n; r0 += chunk {
+			r1 := min(n, r0+chunk)
+			s := S[:(r1-r0)*k]
+			blas32.Gemm(blas.NoTrans, blas.Trans, 1,
+				blas32.General{Rows: r1 - r0, Cols: dim, Stride: dim, Data: Xn[r0*dim : r1*dim]},
+				blas32.General{Rows: k, Cols: dim, Stride: dim, Data: C},
+				0, blas32.General{Rows: r1 - r0, Cols: k, Stride: k, Data: s})
+			for i := r0; i < r1; i++ {
+				row := s[(i-r0)*k : (i-r0+1)*k]
+				best := 0
+				for j, v := range row {
+					if v > row[best] {
+						best = j
+					}
+				}
+				res.assign[i] = best
+				obj += float64(row[best])
+			}
+		}
+		res.objective = append(res.objective, obj/float64(n))
+		clear(acc)
+		clear(count)
+		for i, a := range res.assign {
+			count[a]++
+			dst := acc[a*dim : (a+1)*dim]
+			for j, v := range Xn[i*dim : (i+1)*dim] {
+				dst[j] += float64(v)
+			}
+		}
+		for j := 0; j < k; j++ {
+			cj := C[j*dim : (j+1)*dim]
+			if count[j] == 0 {
+				res.empty++
+				copy(cj, Xn[rng.IntN(n)*dim:])
+				continue
+			}
+			a := acc[j*dim : (j+1)*dim]
+			var s float64
+			for _, v := range a {
+				s += v * v
+			}
+			if s == 0 {
+				res.empty++
+				copy(cj, Xn[rng.IntN(n)*dim:])
+				continue
+			}
+			inv := 1 / math.Sqrt(s)
+			for i, v := range a {
+				cj[i] = float32(v * inv)
+			}
+		}
+		if progress != nil {
+			progress.Step(it+1, iters, fmt.Sprintf("k-means mean cosine %.4f", obj/float64(n)))
+		}
+	}
+	res.centroids = C
+	return res
+}

@@ -29,8 +29,12 @@ type Config struct {
 	// Front is the front end; its zero value is v1layer's default. A learned
 	// bank goes in Front.Bank (with Front.Gabor.Disable set).
 	Front v1layer.Config `json:"front"`
+	// Templates lists the template layers, fitted without labels; nil means
+	// none (the pooled front-end maps are then the features). Each layer
+	// after the first is fitted on the previous layer's response maps.
+	Templates []learn.TemplateConfig `json:"templates,omitempty"`
 	// Pool is the pooling applied to the front end's maps when no template
-	// layer follows.
+	// layer follows (or, with Pool.Keep, in addition to the templates).
 	Pool PoolConfig `json:"pool"`
 	// Head is the supervised head; its zero value is learn's default.
 	Head learn.HeadConfig `json:"head"`
@@ -73,6 +77,9 @@ type PoolConfig struct {
 	Stride int `json:"stride,omitempty"`
 	// Sqrt compresses the pooled values by a square root.
 	Sqrt bool `json:"sqrt,omitempty"`
+	// Keep appends the pooled front-end maps to the template features when
+	// there are template layers (ignored without them).
+	Keep bool `json:"keep,omitempty"`
 }
 
 // Defaults and ranges of Config fields.
@@ -81,6 +88,9 @@ const (
 	minSide, maxSide = 8, 1024
 	defaultUnlabeled = 10000
 	maxPoolSize      = 16
+	// maxTemplateLayers bounds the stack; deeper stacks shrink 28×28 inputs
+	// to nothing long before.
+	maxTemplateLayers = 4
 )
 
 // withDefaults fills every zero field with its documented default.
@@ -160,6 +170,14 @@ func (c Config) plan() (*shapes, error) {
 		return nil, fmt.Errorf("pipeline: front end does not fit input %d×%d: %w", c.Input.Height, c.Input.Width, err)
 	}
 	s := &shapes{front: fe, c: ch, oh: oh, ow: ow, cfg: c, frontConfig: fe.Config()}
+	if len(c.Templates) > maxTemplateLayers {
+		return nil, fmt.Errorf("pipeline: %d template layers; want at most %d", len(c.Templates), maxTemplateLayers)
+	}
+	for i, tc := range c.Templates {
+		if tc.PatchSize > oh || tc.PatchSize > ow {
+			return nil, fmt.Errorf("pipeline: templates[%d].patch_size %d is larger than the front end's %d×%d maps; use a smaller patch or a larger input", i, tc.PatchSize, oh, ow)
+		}
+	}
 	s.pc = ch
 	s.ph, s.pw = poolLen(oh, c.Pool.Size, c.Pool.Stride), poolLen(ow, c.Pool.Size, c.Pool.Stride)
 	if s.ph < 1 || s.pw < 1 {

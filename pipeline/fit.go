@@ -8,6 +8,7 @@ import (
 
 	"github.com/striate/striate/datasets"
 	"github.com/striate/striate/learn"
+	"github.com/striate/striate/v1layer"
 )
 
 // FitOptions are the run-time options of Fit; none of them changes the
@@ -71,7 +72,25 @@ func FitReported(cfg Config, train *datasets.Set, opts FitOptions) (*Model, FitR
 	rep.NTrain = train.N
 
 	t0 := time.Now()
-	var tmpl *templateStage // the unsupervised stages are fitted here
+	var tmpl *templateStage
+	if len(cfg.Templates) > 0 {
+		cfg.Templates = append([]learn.TemplateConfig(nil), cfg.Templates...)
+		for i := range cfg.Templates {
+			if cfg.Templates[i].Seed == 0 {
+				cfg.Templates[i].Seed = stageSeed(cfg.Seed, seedTemplates+uint64(i)<<8)
+			}
+		}
+		p.cfg = cfg
+		src := train
+		if opts.Unlabeled != nil {
+			src = opts.Unlabeled
+		}
+		idx := unlabeledIndices(src.N, cfg.Unlabeled, stageSeed(cfg.Seed, seedUnlabeled))
+		maps := frontMaps(p, src, idx, opts.Workers, opts.Progress)
+		if tmpl, err = fitTemplates(p, cfg.Templates, maps, opts.Progress); err != nil {
+			return nil, rep, err
+		}
+	}
 	rep.Unsupervised = time.Since(t0)
 
 	t0 = time.Now()
@@ -91,6 +110,26 @@ func FitReported(cfg Config, train *datasets.Set, opts FitOptions) (*Model, FitR
 	m, err := newModel(cfg, train.Classes, p, tmpl, head)
 	rep.Total = time.Since(start)
 	return m, rep, err
+}
+
+// frontMaps returns the front-end maps of images idx of s (labels unused).
+func frontMaps(p *shapes, s *datasets.Set, idx []int, workers int, prog learn.Progress) []v1layer.Maps {
+	maps := make([]v1layer.Maps, len(idx))
+	ih, iw := p.cfg.Input.Height, p.cfg.Input.Width
+	run(len(idx), workers, prog, "front end (unlabeled)", func(i int, w *work) {
+		img := s.Float(w.feat, idx[i])
+		w.feat = img
+		if s.H != ih || s.W != iw {
+			w.gray = datasets.ToGray(w.gray, grayImage16(img, s.H, s.W), ih, iw)
+			img = w.gray
+		}
+		in := normalizeInput(w.norm, img, ih, iw, p.cfg.Input)
+		if &in[0] != &img[0] {
+			w.norm = in[:cap(in)]
+		}
+		p.front.Apply(&maps[i], in, ih, iw)
+	})
+	return maps
 }
 
 func checkSet(s *datasets.Set, what string) error {
@@ -140,8 +179,7 @@ func unlabeledIndices(total, n int, seed uint64) []int {
 }
 
 // extractSet writes the features of images idx of s (all when idx is nil)
-// into X, row by row, over workers goroutines, reporting progress from the
-// calling goroutine.
+// into X, row by row.
 func extractSet(p *shapes, t *templateStage, s *datasets.Set, idx []int, X []float32, workers int, prog learn.Progress, msg string) {
 	n := s.N
 	if idx != nil {
@@ -149,22 +187,30 @@ func extractSet(p *shapes, t *templateStage, s *datasets.Set, idx []int, X []flo
 	}
 	d := p.featureLen(t)
 	ih, iw := p.cfg.Input.Height, p.cfg.Input.Width
+	run(n, workers, prog, msg, func(i int, w *work) {
+		j := i
+		if idx != nil {
+			j = idx[i]
+		}
+		w.feat = s.Float(w.feat, j) // w.feat doubles as the pixel buffer
+		img := w.feat
+		if s.H != ih || s.W != iw {
+			w.gray = datasets.ToGray(w.gray, grayImage16(img, s.H, s.W), ih, iw)
+			img = w.gray
+		}
+		p.features(X[i*d:i*d:(i+1)*d], img, t, w)
+	})
+}
+
+// run calls fn(i, scratch) for i in [0, n) over workers goroutines and
+// reports progress from the calling goroutine every 250 ms.
+func run(n, workers int, prog learn.Progress, msg string, fn func(i int, w *work)) {
 	var done atomic.Int64
 	fin := make(chan struct{})
 	go func() {
 		defer close(fin)
 		parallelFor(n, workers, func() *work { return new(work) }, func(*work) {}, func(i int, w *work) {
-			j := i
-			if idx != nil {
-				j = idx[i]
-			}
-			w.feat = s.Float(w.feat, j) // w.feat doubles as the pixel buffer
-			img := w.feat
-			if s.H != ih || s.W != iw {
-				w.gray = datasets.ToGray(w.gray, grayImage16(img, s.H, s.W), ih, iw)
-				img = w.gray
-			}
-			p.features(X[i*d:i*d:(i+1)*d], img, t, w)
+			fn(i, w)
 			done.Add(1)
 		})
 	}()

@@ -29,6 +29,7 @@ type work struct {
 	gray  []float32
 	norm  []float32
 	maps  v1layer.Maps
+	stack []v1layer.Maps // template layers' response maps
 	feat  []float32
 	hsc   []float32
 	probs []float32

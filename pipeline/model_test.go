@@ -289,3 +289,47 @@ func sum(p []float32) float32 {
 	}
 	return s
 }
+
+// TestTemplateLayerRoundTrip fits a small two-layer template stack without
+// labels, then checks that the model file round-trips to identical
+// predictions and bytes.
+func TestTemplateLayerRoundTrip(t *testing.T) {
+	train, test := mnist(t)
+	cfg := quickConfig()
+	cfg.Templates = []learn.TemplateConfig{
+		{K: 8, PatchSize: 3, Patches: 2000, Iters: 5, MapPool: 2},
+		{K: 8, PatchSize: 3, Patches: 2000, Iters: 5, Grids: []int{1, 2}},
+	}
+	cfg.Pool.Keep = true
+	cfg.Unlabeled = 300
+	m, err := Fit(cfg, firstN(train, 500), FitOptions{Workers: 2, Unlabeled: firstN(test, 400)})
+	if err != nil {
+		t.Fatal(err)
+	}
+	var buf bytes.Buffer
+	if err := m.Save(&buf); err != nil {
+		t.Fatal(err)
+	}
+	m2, err := Load(bytes.NewReader(buf.Bytes()))
+	if err != nil {
+		t.Fatal(err)
+	}
+	var buf2 bytes.Buffer
+	if err := m2.Save(&buf2); err != nil {
+		t.Fatal(err)
+	}
+	if !bytes.Equal(buf.Bytes(), buf2.Bytes()) {
+		t.Fatal("save → load → save changed a model with templates")
+	}
+	if m.FeatureLen() != m2.FeatureLen() || m.FeatureLen() <= 12*7*7 {
+		t.Fatalf("feature length %d / %d; want equal and above the %d kept front-end features", m.FeatureLen(), m2.FeatureLen(), 12*7*7)
+	}
+	for i := 0; i < 20; i++ {
+		f1, f2 := m.Extract(setImage(test, i)), m2.Extract(setImage(test, i))
+		for j := range f1 {
+			if f1[j] != f2[j] {
+				t.Fatalf("image %d feature %d: %v before save, %v after", i, j, f1[j], f2[j])
+			}
+		}
+	}
+}

@@ -31,7 +31,7 @@ func (s *shapes) features(dst, gray []float32, t *templateStage, w *work) []floa
 	}
 	dst = dst[:n]
 	if t != nil {
-		t.encode(dst, maps)
+		t.encode(dst, maps, w)
 		return dst
 	}
 	poolGrid(dst, maps, s.cfg.Pool, s.ph, s.pw)

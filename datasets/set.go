@@ -5,6 +5,8 @@ import "fmt"
 // Split selects the training or the test part of a published dataset.
 type Split int
 
+// The two splits of MNIST and Fashion-MNIST: 60,000 training images
+// (train-*-ubyte files) and 10,000 test images (t10k-*-ubyte files).
 const (
 	Train Split = iota
 	Test

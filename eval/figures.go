@@ -254,6 +254,13 @@ func RobustnessFigure(curves []*Robustness) ([]byte, error) {
 		return nil, fmt.Errorf("eval: robustness figure with no curves")
 	}
 	kinds := curves[0].Kinds()
+	// One accuracy range for every panel, so drops compare across kinds.
+	lo := 100.0
+	for _, c := range curves {
+		for _, q := range c.Points {
+			lo = min(lo, 100*q.CI.Lo)
+		}
+	}
 	cols := min(3, len(kinds))
 	rows := (len(kinds) + cols - 1) / cols
 	grid := make([][]*plot.Plot, rows)
@@ -266,15 +273,17 @@ func RobustnessFigure(curves []*Robustness) ([]byte, error) {
 		if unit != "" {
 			xl += " (" + unit + ")"
 		}
-		p := newPlot(kind, xl, "accuracy (%)")
-		lo := 100.0
+		ptitle := kind
+		if t, ok := kindTitles[kind]; ok {
+			ptitle = t
+		}
+		p := newPlot(ptitle, xl, "accuracy (%)")
 		for mi, c := range curves {
 			s := c.Series(kind)
 			pts := pointsWithCI{}
 			for _, q := range s {
 				pts.XYs = append(pts.XYs, plotter.XY{X: q.Level, Y: 100 * q.Accuracy})
 				pts.YErrors = append(pts.YErrors, struct{ Low, High float64 }{100 * (q.Accuracy - q.CI.Lo), 100 * (q.CI.Hi - q.Accuracy)})
-				lo = min(lo, 100*q.CI.Lo)
 			}
 			if len(s) == 0 {
 				continue
@@ -294,6 +303,12 @@ func RobustnessFigure(curves []*Robustness) ([]byte, error) {
 		grid[ki/cols] = append(grid[ki/cols], p)
 	}
 	return renderPNG(grid, vg.Length(cols)*2.6*vg.Inch, vg.Length(rows)*2.4*vg.Inch)
+}
+
+// kindTitles are panel titles for the datasets perturbation names.
+var kindTitles = map[string]string{
+	"noise": "Gaussian noise", "blur": "Gaussian blur", "contrast": "contrast scaling",
+	"shift": "shift", "rot": "rotation", "scale": "scaling",
 }
 
 // LabelFigure draws test accuracy against labelled images per class (log

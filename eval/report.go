@@ -407,7 +407,7 @@ func buildDoc(r *Report) ([]block, error) {
 					ori = fmt.Sprintf("%.1f", ch.Orientation*180/math.Pi)
 					wl = fmt.Sprintf("%.2f", ch.Wavelength)
 				}
-				labels = append(labels, fmt.Sprintf("%d %s", i, kind))
+				labels = append(labels, channelLabel(i, iv.Channels))
 				t.rows = append(t.rows, []string{fmt.Sprint(row.Channel), kind, ori, wl, fmt.Sprintf("%.1f", row.PrefOrientation*180/math.Pi),
 					fmt.Sprintf("%g", row.PrefWavelength), f4(row.PhaseCorr), f4(row.ShiftCorr), fmt.Sprintf("%.4g", row.Modulation)})
 			}
@@ -460,6 +460,29 @@ func buildDoc(r *Report) ([]block, error) {
 		add(listBlock{r.Notes})
 	}
 	return doc, nil
+}
+
+// channelLabel names channel i for an axis: its index, kind and tuning,
+// e.g. "5 energy 45° λ4" or "0 dog+ σ1".
+func channelLabel(i int, chans []v1layer.Channel) string {
+	if i >= len(chans) {
+		return fmt.Sprint(i)
+	}
+	ch := chans[i]
+	switch ch.Kind {
+	case v1layer.KindDoG:
+		pol := ""
+		switch ch.Polarity {
+		case 1:
+			pol = "+"
+		case -1:
+			pol = "−"
+		}
+		return fmt.Sprintf("%d dog%s σ%g", i, pol, math.Round(ch.Sigma*10)/10)
+	case 0:
+		return fmt.Sprint(i)
+	}
+	return fmt.Sprintf("%d %s %.0f° λ%g", i, ch.Kind, ch.Orientation*180/math.Pi, math.Round(ch.Wavelength*10)/10)
 }
 
 func dataOrder(ms []ModelResult) []string {

@@ -16,13 +16,255 @@ package main
 import (
 	"bufio"
 	"encoding/binary"
+	"encoding/json"
+	"flag"
 	"fmt"
 	"io"
 	"math"
 	"os"
+	"path/filepath"
+	"slices"
 	"strconv"
 	"strings"
 )
+
+func init() {
+	register(&command{
+		name:    "extract",
+		summary: "write a model's feature vectors for a data set to NPY files",
+		usage:   "",
+		example: `  striate extract --model fashion.stm --data fashion --out feats
+      # feats/features.npy  float32 N×D   (np.load("feats/features.npy"))
+      # feats/labels.npy    int32   N
+      # feats/extract.json  what was extracted, from which model and data
+
+  # split across 8 machines (job-array index 0..7), then merge:
+  striate extract --model m.stm --data mnist:train --out feats --shard 5/8
+  striate extract --merge --out feats       # byte-identical to the unsharded files`,
+		setup: func(fs *flag.FlagSet, g *globals) func([]string) error {
+			var o extractOptions
+			fs.StringVar(&o.model, "model", "", "model `file` written by striate train")
+			fs.StringVar(&o.data, "data", "", dataFlagHelp)
+			fs.StringVar(&o.shard, "shard", "", "extract only shard `i/n` (i = 0..n-1)")
+			fs.BoolVar(&o.merge, "merge", false, "merge the shards found in --out into features.npy and labels.npy")
+			fs.IntVar(&o.batch, "batch", 512, "images per extraction batch")
+			g.addWorkers(fs)
+			g.addQuiet(fs)
+			g.addOut(fs, "features")
+			return func(args []string) error {
+				if len(args) > 0 {
+					return usagef("unexpected argument %q (extract takes flags only)", args[0])
+				}
+				return runExtract(g, o)
+			}
+		},
+	})
+}
+
+type extractOptions struct {
+	model, data, shard string
+	merge              bool
+	batch              int
+}
+
+func runExtract(g *globals, o extractOptions) error {
+	if o.merge {
+		if o.model != "" || o.data != "" || o.shard != "" {
+			return usagef("--merge reads everything from the shards in --out; drop --model, --data and --shard")
+		}
+		metas, feats, labels, err := mergeShards(g.out, "features")
+		if err != nil {
+			return err
+		}
+		if err := writeArrays(g.out, "features", "", feats, metas[0].Cols, labels); err != nil {
+			return err
+		}
+		meta := metas[0]
+		meta.Shard, meta.Shards, meta.Lo, meta.Hi = 0, 1, 0, meta.Total
+		if err := writeMetaFile(filepath.Join(g.out, "extract.json"), meta); err != nil {
+			return err
+		}
+		fmt.Fprintf(g.stdout, "merged %d shards: %d×%d features into %s\n", len(metas), len(labels), meta.Cols, filepath.Join(g.out, "features.npy"))
+		return nil
+	}
+	if o.batch < 1 {
+		return usagef("--batch %d; want at least 1", o.batch)
+	}
+	m, err := loadModel(o.model)
+	if err != nil {
+		return err
+	}
+	h, w := m.InputSize()
+	set, err := loadSpec(o.data, h, w, g.stderr)
+	if err != nil {
+		return err
+	}
+	i, n := 0, 1
+	if o.shard != "" {
+		if i, n, err = parseShard(o.shard); err != nil {
+			return err
+		}
+	}
+	lo, hi := shardRange(i, n, set.N)
+	d := m.FeatureLen()
+	feats := make([]float32, 0, (hi-lo)*d)
+	bar := progressFor(g, hi-lo, "extract")
+	buf := make([]float32, o.batch*h*w)
+	imgs := make([][]float32, 0, o.batch)
+	for b := lo; b < hi; b += o.batch {
+		e := min(b+o.batch, hi)
+		imgs = imgs[:0]
+		for j := b; j < e; j++ {
+			k := j - b
+			imgs = append(imgs, set.Float(buf[k*h*w:(k+1)*h*w], j))
+		}
+		rows, err := m.ExtractFloats(imgs, h, w, g.workers)
+		if err != nil {
+			bar.Done()
+			return err
+		}
+		for _, r := range rows {
+			feats = append(feats, r...)
+		}
+		bar.Step(e-lo, hi-lo, "extract")
+	}
+	bar.Done()
+	sum, err := fileSHA256(o.model)
+	if err != nil {
+		return err
+	}
+	if err := os.MkdirAll(g.out, 0o755); err != nil {
+		return err
+	}
+	meta := shardMeta{Kind: "features", Model: o.model, ModelSHA256: sum, Data: set.Name, DataSpec: o.data,
+		Total: set.N, Shard: i, Shards: n, Lo: lo, Hi: hi, Cols: d, Classes: set.Classes}
+	suffix := ""
+	if o.shard != "" {
+		suffix = shardSuffix(i, n)
+	}
+	if err := writeArrays(g.out, "features", suffix, feats, d, set.Labels[lo:hi]); err != nil {
+		return err
+	}
+	if o.shard != "" {
+		err = writeShardMeta(g.out, meta)
+	} else {
+		err = writeMetaFile(filepath.Join(g.out, "extract.json"), meta)
+	}
+	if err != nil {
+		return err
+	}
+	fmt.Fprintf(g.stdout, "%d×%d features of %s (images %d to %d) written to %s\n", hi-lo, d, set.Name, lo, hi-1, g.out)
+	return nil
+}
+
+// writeArrays writes <kind><suffix>.npy (rows×cols float32) and
+// labels<suffix>.npy.
+func writeArrays(dir, kind, suffix string, flat []float32, cols int, labels []int) error {
+	if err := writeFileAtomic(filepath.Join(dir, kind+suffix+".npy"), func(w io.Writer) error {
+		return writeNPYFloat32(w, flat, len(labels), cols)
+	}); err != nil {
+		return err
+	}
+	return writeFileAtomic(filepath.Join(dir, "labels"+suffix+".npy"), func(w io.Writer) error {
+		return writeNPYInt32(w, labels)
+	})
+}
+
+// shardMeta describes one shard's output (or, with Shards = 1, a whole
+// unsharded output). It is written as <kind>-shard-i-of-n.json beside the
+// arrays.
+type shardMeta struct {
+	Kind        string   `json:"kind"` // "features" or "predictions"
+	Model       string   `json:"model"`
+	ModelSHA256 string   `json:"model_sha256"`
+	Data        string   `json:"data"`
+	DataSpec    string   `json:"data_spec"`
+	Total       int      `json:"total"` // images in the whole data set
+	Shard       int      `json:"shard"`
+	Shards      int      `json:"shards"`
+	Lo          int      `json:"lo"` // first image of this shard
+	Hi          int      `json:"hi"` // one past its last image
+	Cols        int      `json:"cols"`
+	Classes     []string `json:"classes"`
+}
+
+func shardSuffix(i, n int) string { return fmt.Sprintf("-%05d-of-%05d", i, n) }
+
+func writeShardMeta(dir string, m shardMeta) error {
+	return writeMetaFile(filepath.Join(dir, m.Kind+"-shard"+shardSuffix(m.Shard, m.Shards)+".json"), m)
+}
+
+func writeMetaFile(path string, m shardMeta) error {
+	b, err := json.MarshalIndent(m, "", "  ")
+	if err != nil {
+		return err
+	}
+	return writeFileAtomic(path, func(w io.Writer) error { _, err := w.Write(append(b, '\n')); return err })
+}
+
+// mergeShards reads every <kind>-shard-*.json in dir, checks that they are
+// the complete, consistent set of one run (same model file hash, data and
+// shard count, every index once, contiguous ranges), and returns the
+// concatenated arrays in image order.
+func mergeShards(dir, kind string) ([]shardMeta, []float32, []int, error) {
+	paths, err := filepath.Glob(filepath.Join(dir, kind+"-shard-*-of-*.json"))
+	if err != nil {
+		return nil, nil, nil, err
+	}
+	if len(paths) == 0 {
+		return nil, nil, nil, fmt.Errorf("no %s shards (%s-shard-*-of-*.json) in %s; run with --shard i/n --out %s first", kind, kind, dir, dir)
+	}
+	var metas []shardMeta
+	for _, p := range paths {
+		b, err := os.ReadFile(p)
+		if err != nil {
+			return nil, nil, nil, err
+		}
+		var m shardMeta
+		if err := json.Unmarshal(b, &m); err != nil {
+			return nil, nil, nil, fmt.Errorf("shard file %s: %v", p, err)
+		}
+		metas = append(metas, m)
+	}
+	slices.SortFunc(metas, func(a, b shardMeta) int { return a.Shard - b.Shard })
+	first := metas[0]
+	if len(metas) != first.Shards {
+		var have []string
+		for _, m := range metas {
+			have = append(have, strconv.Itoa(m.Shard))
+		}
+		return nil, nil, nil, fmt.Errorf("%s: found %d of %d shards (have %s); run the missing ones before merging", dir, len(metas), first.Shards, strings.Join(have, ", "))
+	}
+	var flat []float32
+	var labels []int
+	for j, m := range metas {
+		if m.Shard != j || m.Shards != first.Shards || m.ModelSHA256 != first.ModelSHA256 || m.Data != first.Data ||
+			m.Total != first.Total || m.Cols != first.Cols || !slices.Equal(m.Classes, first.Classes) {
+			return nil, nil, nil, fmt.Errorf("%s: shard %d of %d does not belong with shard 0 (different model file, data or shard count); put each run's shards in its own folder", dir, m.Shard, m.Shards)
+		}
+		if lo, hi := shardRange(j, m.Shards, m.Total); m.Lo != lo || m.Hi != hi {
+			return nil, nil, nil, fmt.Errorf("%s: shard %d covers images %d-%d; want %d-%d", dir, j, m.Lo, m.Hi, lo, hi)
+		}
+		suffix := shardSuffix(m.Shard, m.Shards)
+		a, err := readNPY(filepath.Join(dir, kind+suffix+".npy"))
+		if err != nil {
+			return nil, nil, nil, err
+		}
+		l, err := readNPY(filepath.Join(dir, "labels"+suffix+".npy"))
+		if err != nil {
+			return nil, nil, nil, err
+		}
+		rows := m.Hi - m.Lo
+		if a.Descr != "<f4" || !slices.Equal(a.Shape, []int{rows, m.Cols}) || l.Descr != "<i4" || !slices.Equal(l.Shape, []int{rows}) {
+			return nil, nil, nil, fmt.Errorf("%s: shard %d arrays have shapes %v and %v; want [%d %d] and [%d]", dir, j, a.Shape, l.Shape, rows, m.Cols, rows)
+		}
+		flat = append(flat, a.F32...)
+		for _, v := range l.I32 {
+			labels = append(labels, int(v))
+		}
+	}
+	return metas, flat, labels, nil
+}
 
 const (
 	npyMagic = "\x93NUMPY"

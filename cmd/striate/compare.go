@@ -1,0 +1,135 @@
+package main
+
+import (
+	"flag"
+	"fmt"
+	"os"
+	"slices"
+
+	"github.com/striate/striate/eval"
+	"github.com/striate/striate/pipeline"
+)
+
+func init() {
+	register(&command{
+		name:    "compare",
+		summary: "compare two models on the same test images: McNemar test and bootstrap interval",
+		usage:   "A.stm B.stm",
+		example: `  striate compare --data fashion hand.stm learned.stm
+  striate compare --data fashion --out cmp --robust quick hand.stm learned.stm
+  striate compare --data mnist --resamples 10000 --seed 3 a.stm b.stm`,
+		setup: func(fs *flag.FlagSet, g *globals) func([]string) error {
+			data := fs.String("data", "", dataFlagHelp)
+			resamples := fs.Int("resamples", 2000, "paired bootstrap resamples")
+			robust := fs.String("robust", "none", "robustness sweep `mode` for both models: none, quick or full")
+			batch := fs.Int("batch", 256, "images per prediction batch")
+			g.addSeed(fs)
+			g.addWorkers(fs)
+			g.addQuiet(fs)
+			g.addOut(fs, "")
+			return func(args []string) error {
+				if len(args) != 2 {
+					return usagef("compare takes two model files, got %d arguments", len(args))
+				}
+				return runCompare(g, *data, args[0], args[1], *resamples, *robust, *batch)
+			}
+		},
+	})
+}
+
+func runCompare(g *globals, spec, pathA, pathB string, resamples int, robust string, batch int) error {
+	if resamples < 100 {
+		return usagef("--resamples %d; want at least 100", resamples)
+	}
+	levels, err := robustLevels(robust)
+	if err != nil {
+		return err
+	}
+	ma, err := loadModel(pathA)
+	if err != nil {
+		return err
+	}
+	mb, err := loadModel(pathB)
+	if err != nil {
+		return err
+	}
+	h, w := ma.InputSize()
+	if hb, wb := mb.InputSize(); hb != h || wb != w {
+		return fmt.Errorf("models take different input sizes (%d×%d and %d×%d); compare models built for the same images", h, w, hb, wb)
+	}
+	if !slices.Equal(ma.Classes(), mb.Classes()) {
+		return fmt.Errorf("models have different classes (%v and %v)", ma.Classes(), mb.Classes())
+	}
+	set, err := loadSpec(spec, h, w, g.stderr)
+	if err != nil {
+		return err
+	}
+	if err := checkClasses(ma, set); err != nil {
+		return err
+	}
+	data := eval.FromSet(set)
+	nameA, nameB := modelName(pathA), modelName(pathB)
+	if nameA == nameB {
+		nameA, nameB = pathA, pathB
+	}
+	var results []eval.ModelResult
+	var preds [][]int
+	for _, mm := range []struct {
+		name string
+		m    *pipeline.Model
+	}{{nameA, ma}, {nameB, mb}} {
+		bar := progressFor(g, len(data.Images), "predict "+mm.name)
+		probs, err := eval.Predict(mm.m, data.Images, h, w, eval.RunOptions{Workers: g.workers, Batch: batch, Progress: bar})
+		bar.Done()
+		if err != nil {
+			return err
+		}
+		met, err := eval.Score(data.Labels, probs, data.Classes, eval.MetricsConfig{})
+		if err != nil {
+			return err
+		}
+		printScores(g.stdout, mm.name, data, met)
+		results = append(results, eval.ModelResult{Name: mm.name, Data: data.Name, Metrics: met})
+		preds = append(preds, eval.Classify(probs))
+	}
+	cmp, err := eval.Compare(nameA, nameB, data.Labels, preds[0], preds[1], eval.CompareConfig{Resamples: resamples, Seed: g.seed})
+	if err != nil {
+		return err
+	}
+	fmt.Fprintf(g.stdout, "\n%s − %s: accuracy difference %+.2f points (95%% paired bootstrap %+.2f to %+.2f, %d resamples, seed %d)\n",
+		nameA, nameB, 100*cmp.Diff, 100*cmp.DiffCI.Lo, 100*cmp.DiffCI.Hi, cmp.Resamples, cmp.Seed)
+	fmt.Fprintf(g.stdout, "discordant images: %d only %s right, %d only %s right; exact McNemar p = %.4g\n",
+		cmp.OnlyA, nameA, cmp.OnlyB, nameB, cmp.PValue)
+	if g.out == "" {
+		return nil
+	}
+	if err := os.MkdirAll(g.out, 0o755); err != nil {
+		return err
+	}
+	rep := newReport(g, fmt.Sprintf("striate comparison: %s vs %s", nameA, nameB))
+	rep.Data = []eval.Provenance{provenance(set, 0)}
+	rep.Models = results
+	rep.Comparisons = []*eval.Comparison{cmp}
+	rep.Config = map[string]pipeline.Config{nameA: ma.Config(), nameB: mb.Config()}
+	if levels != nil {
+		for _, mm := range []struct {
+			name string
+			m    *pipeline.Model
+		}{{nameA, ma}, {nameB, mb}} {
+			rb, err := robustness(g, mm.name, mm.m, data, levels, batch)
+			if err != nil {
+				return err
+			}
+			rep.Robustness = append(rep.Robustness, rb)
+		}
+	}
+	for _, mm := range []struct {
+		name string
+		m    *pipeline.Model
+	}{{nameA, ma}, {nameB, mb}} {
+		if iv, err := invariance(mm.name, mm.m); err == nil {
+			rep.Invariance = append(rep.Invariance, iv)
+		}
+	}
+	return writeReport(g, rep)
+}

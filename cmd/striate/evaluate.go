@@ -1,0 +1,438 @@
+package main
+
+import (
+	"crypto/sha256"
+	"encoding/hex"
+	"flag"
+	"fmt"
+	"io"
+	"os"
+	"path/filepath"
+	"slices"
+	"strconv"
+	"strings"
+	"text/tabwriter"
+	"time"
+
+	"github.com/striate/striate/datasets"
+	"github.com/striate/striate/eval"
+	"github.com/striate/striate/pipeline"
+	"github.com/striate/striate/v1layer"
+)
+
+func init() {
+	register(&command{
+		name:    "evaluate",
+		summary: "score a model on a test set: accuracy, per-class scores, calibration, report",
+		usage:   "",
+		example: `  striate evaluate --model fashion.stm --data fashion                # print the scores
+  striate evaluate --model fashion.stm --data fashion --out rep      # + rep/report.md, report.html, results.json
+  striate evaluate --model fashion.stm --data fashion --out rep --robust quick --speed
+  striate evaluate --model mnist.stm --data ./depot-photos           # a folder of class sub-folders
+
+  # split across 4 machines (job-array index 0..3), then merge:
+  striate evaluate --model m.stm --data mnist --out shards --shard 2/4
+  striate evaluate --merge --out shards`,
+		setup: func(fs *flag.FlagSet, g *globals) func([]string) error {
+			var o evalOptions
+			fs.StringVar(&o.model, "model", "", "model `file` written by striate train")
+			fs.StringVar(&o.data, "data", "", dataFlagHelp)
+			fs.StringVar(&o.shard, "shard", "", "evaluate only shard `i/n` (i = 0..n-1) and write its predictions to --out")
+			fs.BoolVar(&o.merge, "merge", false, "merge the shards found in --out into predictions.npy, scores and a report")
+			fs.StringVar(&o.robust, "robust", "none", "robustness sweep `mode`: none, quick (3 levels per perturbation) or full (4-5 levels)")
+			fs.BoolVar(&o.speed, "speed", false, "also measure throughput, latency and peak heap")
+			fs.IntVar(&o.batch, "batch", 256, "images per prediction batch")
+			g.addSeed(fs)
+			g.addWorkers(fs)
+			g.addQuiet(fs)
+			g.addOut(fs, "")
+			return func(args []string) error {
+				if len(args) > 0 {
+					return usagef("unexpected argument %q (evaluate takes flags only)", args[0])
+				}
+				return runEvaluate(g, o)
+			}
+		},
+	})
+}
+
+type evalOptions struct {
+	model, data, shard, robust string
+	merge, speed               bool
+	batch                      int
+}
+
+const dataFlagHelp = "test data `spec`: mnist or fashion (test split; mnist:train for the training split), " +
+	"a folder of MNIST-named IDX files (PATH or PATH:train), or a folder of images in one sub-folder per class"
+
+// loadSpec loads the data named by spec at h×w (image folders are resized
+// to it; IDX data must already have that size). Folder load problems go to
+// warn.
+func loadSpec(spec string, h, w int, warn io.Writer) (*datasets.Set, error) {
+	if spec == "" {
+		return nil, usagef("--data is required: %s", strings.ReplaceAll(dataFlagHelp, "`", ""))
+	}
+	name, split := spec, datasets.Test
+	if i := strings.LastIndexByte(spec, ':'); i > 0 {
+		if _, err := os.Stat(spec); err != nil { // a path may contain ':'
+			switch spec[i+1:] {
+			case "train":
+				name, split = spec[:i], datasets.Train
+			case "test":
+				name = spec[:i]
+			default:
+				return nil, usagef("--data %q: split %q is neither train nor test", spec, spec[i+1:])
+			}
+		}
+	}
+	var s *datasets.Set
+	var err error
+	switch name {
+	case "mnist":
+		s, err = datasets.LoadMNIST(split, "")
+	case "fashion":
+		s, err = datasets.LoadFashionMNIST(split, "")
+	default:
+		st, serr := os.Stat(name)
+		if serr != nil {
+			return nil, fmt.Errorf("--data %q: %v (want mnist, fashion or a folder)", spec, serr)
+		}
+		if !st.IsDir() {
+			return nil, usagef("--data %q is a file; want mnist, fashion or a folder", spec)
+		}
+		if hasIDX(name) {
+			s, err = datasets.LoadMNIST(split, name)
+		} else {
+			var rep *datasets.FolderReport
+			s, rep, err = datasets.LoadFolder(name, datasets.FolderConfig{H: h, W: w, AllowUpscale: true})
+			if rep != nil && len(rep.Skipped) > 0 {
+				fmt.Fprintln(warn, rep.String())
+			}
+		}
+	}
+	if err != nil {
+		return nil, err
+	}
+	if s.H != h || s.W != w {
+		return nil, fmt.Errorf("--data %q holds %d×%d images; the model takes %d×%d", spec, s.H, s.W, h, w)
+	}
+	return s, nil
+}
+
+// hasIDX reports whether dir holds MNIST-named IDX files.
+func hasIDX(dir string) bool {
+	m, _ := filepath.Glob(filepath.Join(dir, "*-idx?-ubyte*"))
+	return len(m) > 0
+}
+
+// checkClasses requires the data's classes to be the model's, in order.
+func checkClasses(m *pipeline.Model, s *datasets.Set) error {
+	if mc := m.Classes(); !slices.Equal(mc, s.Classes) {
+		return fmt.Errorf("data %s has classes %v but the model was trained on %v; evaluate on data with the same classes", s.Name, s.Classes, mc)
+	}
+	return nil
+}
+
+// loadModel loads a model file, saying which flag named it.
+func loadModel(path string) (*pipeline.Model, error) {
+	if path == "" {
+		return nil, usagef("--model is required (a file written by striate train)")
+	}
+	m, err := pipeline.LoadFile(path)
+	if err != nil {
+		return nil, fmt.Errorf("model %s: %w", path, err)
+	}
+	return m, nil
+}
+
+// fileSHA256 returns the hex SHA-256 of a file, identifying the exact model
+// a shard was computed with.
+func fileSHA256(path string) (string, error) {
+	f, err := os.Open(path)
+	if err != nil {
+		return "", err
+	}
+	defer f.Close()
+	h := sha256.New()
+	if _, err := io.Copy(h, f); err != nil {
+		return "", err
+	}
+	return hex.EncodeToString(h.Sum(nil)), nil
+}
+
+// parseShard reads "i/n" with 0 ≤ i < n.
+func parseShard(s string) (i, n int, err error) {
+	a, b, ok := strings.Cut(s, "/")
+	if ok {
+		i, err = strconv.Atoi(a)
+		if err == nil {
+			n, err = strconv.Atoi(b)
+		}
+	}
+	if !ok || err != nil || n < 1 || i < 0 || i >= n {
+		return 0, 0, usagef("--shard %q; want i/n with n ≥ 1 and i from 0 to n-1 (e.g. 0/4 ... 3/4)", s)
+	}
+	return i, n, nil
+}
+
+// shardRange is the contiguous block of items shard i of n covers.
+func shardRange(i, n, total int) (lo, hi int) {
+	return i * total / n, (i + 1) * total / n
+}
+
+// progressFor returns the command's progress bar as an eval.Progress.
+func progressFor(g *globals, total int, what string) *progress { return g.newProgress(total, what) }
+
+func runEvaluate(g *globals, o evalOptions) error {
+	if o.merge {
+		if g.out == "" {
+			return usagef("--merge needs --out, the folder holding the shards")
+		}
+		if o.shard != "" || o.model != "" || o.data != "" {
+			return usagef("--merge reads everything from the shards in --out; drop --model, --data and --shard")
+		}
+		return mergeEvaluate(g)
+	}
+	levels, err := robustLevels(o.robust)
+	if err != nil {
+		return err
+	}
+	m, err := loadModel(o.model)
+	if err != nil {
+		return err
+	}
+	h, w := m.InputSize()
+	set, err := loadSpec(o.data, h, w, g.stderr)
+	if err != nil {
+		return err
+	}
+	if err := checkClasses(m, set); err != nil {
+		return err
+	}
+	data := eval.FromSet(set)
+	if o.shard != "" {
+		if g.out == "" {
+			return usagef("--shard needs --out, the folder the shard's predictions go to")
+		}
+		if levels != nil || o.speed {
+			return usagef("--shard evaluates predictions only; run --robust and --speed unsharded")
+		}
+		return evaluateShard(g, o, m, data)
+	}
+	bar := progressFor(g, len(data.Images), "predict")
+	probs, err := eval.Predict(m, data.Images, h, w, eval.RunOptions{Workers: g.workers, Batch: o.batch, Progress: bar})
+	bar.Done()
+	if err != nil {
+		return err
+	}
+	met, err := eval.Score(data.Labels, probs, data.Classes, eval.MetricsConfig{})
+	if err != nil {
+		return err
+	}
+	name := modelName(o.model)
+	printScores(g.stdout, name, data, met)
+	if g.out == "" {
+		return nil
+	}
+	if err := os.MkdirAll(g.out, 0o755); err != nil {
+		return err
+	}
+	if err := writePredictions(g.out, "", probs, data.Labels); err != nil {
+		return err
+	}
+	rep := newReport(g, "striate evaluation: "+name)
+	rep.Data = []eval.Provenance{provenance(set, 0)}
+	mr := eval.ModelResult{Name: name, Data: data.Name, Metrics: met}
+	if o.speed {
+		sp, err := measureSpeed(g, m, data)
+		if err != nil {
+			return err
+		}
+		mr.Speed = sp
+	}
+	rep.Models = []eval.ModelResult{mr}
+	rep.Config = map[string]pipeline.Config{name: m.Config()}
+	if levels != nil {
+		rb, err := robustness(g, name, m, data, levels, o.batch)
+		if err != nil {
+			return err
+		}
+		rep.Robustness = []*eval.Robustness{rb}
+	}
+	if iv, err := invariance(name, m); err == nil {
+		rep.Invariance = []eval.InvarianceResult{iv}
+	} else {
+		rep.Notes = append(rep.Notes, "invariance probe skipped: "+err.Error())
+	}
+	return writeReport(g, rep)
+}
+
+func robustLevels(s string) (map[datasets.PerturbKind][]float64, error) {
+	switch s {
+	case "", "none":
+		return nil, nil
+	case "quick":
+		return eval.QuickLevels, nil
+	case "full":
+		return eval.StandardLevels, nil
+	}
+	return nil, usagef("--robust %q; want none, quick or full", s)
+}
+
+func modelName(path string) string {
+	return strings.TrimSuffix(filepath.Base(path), filepath.Ext(path))
+}
+
+func newReport(g *globals, title string) *eval.Report {
+	return &eval.Report{
+		Title:   title,
+		Created: time.Now().UTC(),
+		Command: "striate " + strings.Join(os.Args[1:], " "),
+		Summary: "Garment-sorting station at a second-hand clothing depot: how well striate's recognizers tell item types apart, how sure they are, and how they hold up.",
+	}
+}
+
+func provenance(s *datasets.Set, train int) eval.Provenance {
+	return eval.Provenance{Name: s.Name, Source: s.Source, Train: train, Test: s.N, H: s.H, W: s.W, Classes: s.Classes}
+}
+
+func writeReport(g *globals, rep *eval.Report) error {
+	files, err := eval.WriteReport(g.out, rep)
+	if err != nil {
+		return err
+	}
+	fmt.Fprintf(g.stdout, "report: %s (%d files; open %s)\n", g.out, len(files), filepath.Join(g.out, eval.ReportHTML))
+	return nil
+}
+
+func printScores(w io.Writer, name string, d *eval.Data, m *eval.Metrics) {
+	fmt.Fprintf(w, "%s on %s (%d images): accuracy %.2f%% (95%% CI %.2f-%.2f%%), macro F1 %.4f, log-loss %.4f nats, ECE %.4f\n",
+		name, d.Name, m.N, 100*m.Accuracy, 100*m.CI.Lo, 100*m.CI.Hi, m.Macro.F1, m.LogLoss, m.ECE)
+	tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', tabwriter.AlignRight)
+	fmt.Fprintln(tw, "class\tprecision\trecall\tF1\tsupport\t")
+	for _, c := range m.PerClass {
+		fmt.Fprintf(tw, "%s\t%.4f\t%.4f\t%.4f\t%d\t\n", c.Class, c.Precision, c.Recall, c.F1, c.Support)
+	}
+	tw.Flush()
+}
+
+func measureSpeed(g *globals, m *pipeline.Model, d *eval.Data) (*eval.Speed, error) {
+	h, w := m.InputSize()
+	imgs := d.Images[:min(len(d.Images), 2000)]
+	extract := func(b [][]float32, h, w, workers int) error {
+		_, err := m.ExtractFloats(b, h, w, workers)
+		return err
+	}
+	sp, err := eval.MeasureSpeed(m, extract, imgs, h, w, eval.SpeedConfig{Workers: g.workers})
+	if err != nil {
+		return nil, err
+	}
+	if sp.ModelBytes, err = eval.ModelSize(m.Save); err != nil {
+		return nil, err
+	}
+	return sp, nil
+}
+
+func robustness(g *globals, name string, m eval.Predictor, d *eval.Data, levels map[datasets.PerturbKind][]float64, batch int) (*eval.Robustness, error) {
+	conds, err := eval.StandardConditions(levels)
+	if err != nil {
+		return nil, err
+	}
+	bar := progressFor(g, len(conds), "robustness "+name)
+	defer bar.Done()
+	return eval.RobustnessSweep(name, m, d, conds, eval.RobustnessConfig{Seed: g.seed, Run: eval.RunOptions{Workers: g.workers, Batch: batch, Progress: bar}})
+}
+
+// invariance probes the model's front end (rebuilt from its configuration)
+// with gratings.
+func invariance(name string, m *pipeline.Model) (eval.InvarianceResult, error) {
+	fe, err := v1layer.New(m.Config().Front)
+	if err != nil {
+		return eval.InvarianceResult{}, err
+	}
+	rows, err := eval.Invariance(fe.Apply, eval.InvarianceConfig{})
+	if err != nil {
+		return eval.InvarianceResult{}, err
+	}
+	return eval.InvarianceResult{Model: name, Channels: fe.Channels(), Rows: rows}, nil
+}
+
+// writePredictions writes probs (N×K float32) and labels (int32) as
+// predictions<suffix>.npy and labels<suffix>.npy in dir.
+func writePredictions(dir, suffix string, probs [][]float32, labels []int) error {
+	k := 0
+	if len(probs) > 0 {
+		k = len(probs[0])
+	}
+	flat := make([]float32, 0, len(probs)*k)
+	for _, p := range probs {
+		flat = append(flat, p...)
+	}
+	if err := writeFileAtomic(filepath.Join(dir, "predictions"+suffix+".npy"), func(w io.Writer) error {
+		return writeNPYFloat32(w, flat, len(probs), k)
+	}); err != nil {
+		return err
+	}
+	return writeFileAtomic(filepath.Join(dir, "labels"+suffix+".npy"), func(w io.Writer) error {
+		return writeNPYInt32(w, labels)
+	})
+}
+
+func evaluateShard(g *globals, o evalOptions, m *pipeline.Model, d *eval.Data) error {
+	i, n, err := parseShard(o.shard)
+	if err != nil {
+		return err
+	}
+	lo, hi := shardRange(i, n, len(d.Images))
+	h, w := m.InputSize()
+	bar := progressFor(g, hi-lo, fmt.Sprintf("predict shard %d/%d", i, n))
+	probs, err := eval.Predict(m, d.Images[lo:hi], h, w, eval.RunOptions{Workers: g.workers, Batch: o.batch, Progress: bar})
+	bar.Done()
+	if err != nil {
+		return err
+	}
+	sum, err := fileSHA256(o.model)
+	if err != nil {
+		return err
+	}
+	meta := shardMeta{Kind: "predictions", Model: o.model, ModelSHA256: sum, Data: d.Name, DataSpec: o.data,
+		Total: len(d.Images), Shard: i, Shards: n, Lo: lo, Hi: hi, Cols: m.NumClasses(), Classes: d.Classes}
+	if err := os.MkdirAll(g.out, 0o755); err != nil {
+		return err
+	}
+	if err := writePredictions(g.out, shardSuffix(i, n), probs, d.Labels[lo:hi]); err != nil {
+		return err
+	}
+	if err := writeShardMeta(g.out, meta); err != nil {
+		return err
+	}
+	fmt.Fprintf(g.stdout, "shard %d/%d: images %d to %d of %d predicted into %s\n", i, n, lo, hi-1, len(d.Images), g.out)
+	return nil
+}
+
+func mergeEvaluate(g *globals) error {
+	metas, probs, labels, err := mergeShards(g.out, "predictions")
+	if err != nil {
+		return err
+	}
+	k := metas[0].Cols
+	rows := make([][]float32, len(labels))
+	for r := range rows {
+		rows[r] = probs[r*k : (r+1)*k]
+	}
+	met, err := eval.Score(labels, rows, metas[0].Classes, eval.MetricsConfig{})
+	if err != nil {
+		return err
+	}
+	name := modelName(metas[0].Model)
+	d := &eval.Data{Name: metas[0].Data, Classes: metas[0].Classes}
+	printScores(g.stdout, name, d, met)
+	if err := writePredictions(g.out, "", rows, labels); err != nil {
+		return err
+	}
+	rep := newReport(g, "striate evaluation: "+name)
+	rep.Data = []eval.Provenance{{Name: d.Name, Source: metas[0].DataSpec, Test: len(labels), Classes: d.Classes,
+		Note: fmt.Sprintf("merged from %d shards", len(metas))}}
+	rep.Models = []eval.ModelResult{{Name: name, Data: d.Name, Metrics: met}}
+	return writeReport(g, rep)
+}

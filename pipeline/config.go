@@ -29,6 +29,11 @@ type Config struct {
 	// Front is the front end; its zero value is v1layer's default. A learned
 	// bank goes in Front.Bank (with Front.Gabor.Disable set).
 	Front v1layer.Config `json:"front"`
+	// LearnBank, when set and Front.Bank is empty, makes Fit learn the
+	// simple-cell bank from natural photographs (see LearnBankConfig) and
+	// put it in Front.Bank (with Front.Gabor.Disable set). When Front.Bank is
+	// already filled (a fitted model's Config), that bank is used as is.
+	LearnBank *LearnBankConfig `json:"learn_bank,omitempty"`
 	// Templates lists the template layers, fitted without labels; nil means
 	// none (the pooled front-end maps are then the features). Each layer
 	// after the first is fitted on the previous layer's response maps.
@@ -57,6 +62,10 @@ type InputConfig struct {
 	// Normalize is "minmax" (default: stretch each image's grey values to
 	// span [0,1], which undoes a global contrast change) or "none".
 	Normalize string `json:"normalize,omitempty"`
+	// Denoise is "none" (default) or "median3": a 3×3 median filter applied
+	// first, which removes most of strong pixel noise at a small cost in fine
+	// detail.
+	Denoise string `json:"denoise,omitempty"`
 	// Center is "mass" (default: shift each image by whole pixels so that
 	// its centre of mass is at the image centre, as MNIST's makers did) or
 	// "none".
@@ -103,6 +112,9 @@ func (c Config) withDefaults() Config {
 	}
 	if c.Input.Normalize == "" {
 		c.Input.Normalize = NormalizeMinMax
+	}
+	if c.Input.Denoise == "" {
+		c.Input.Denoise = DenoiseNone
 	}
 	if c.Input.Center == "" {
 		c.Input.Center = CenterMass
@@ -161,7 +173,19 @@ func (c Config) plan() (*shapes, error) {
 	if c.Unlabeled < -1 {
 		return nil, fmt.Errorf("pipeline: unlabeled %d; want -1 (all), 0 (default %d) or a positive count", c.Unlabeled, defaultUnlabeled)
 	}
-	fe, err := v1layer.New(c.Front)
+	fc := c.Front
+	if c.LearnBank != nil {
+		lb := c.LearnBank.withDefaults()
+		if err := lb.validate(); err != nil {
+			return nil, err
+		}
+		if fc.Bank == nil {
+			// Shapes are checked with a stand-in bank of the same kernel
+			// size until Fit has learned the real one.
+			fc.Gabor = v1layer.GaborConfig{Wavelength: float64(lb.PatchSize) / 2, Scales: 1, Radius: 1}
+		}
+	}
+	fe, err := v1layer.New(fc)
 	if err != nil {
 		return nil, fmt.Errorf("pipeline: front: %w", err)
 	}

@@ -27,11 +27,13 @@ type FitOptions struct {
 
 // FitReport describes a finished fit. It is not stored in model files.
 type FitReport struct {
-	Unsupervised time.Duration // fitting the unsupervised stages
+	BankTime     time.Duration // learning the bank (LearnBank)
+	Unsupervised time.Duration // fitting the template layers
 	Features     time.Duration // extracting the training features
 	HeadTime     time.Duration // fitting the head
 	Total        time.Duration
 	Head         learn.HeadReport
+	Bank         *learn.BankReport // nil unless the bank was learned
 	NTrain       int
 	FeatureLen   int
 }
@@ -70,6 +72,24 @@ func FitReported(cfg Config, train *datasets.Set, opts FitOptions) (*Model, FitR
 		cfg.Head.Seed = stageSeed(cfg.Seed, seedHead)
 	}
 	rep.NTrain = train.N
+
+	if cfg.LearnBank != nil && cfg.Front.Bank == nil {
+		t0 := time.Now()
+		lb := cfg.LearnBank.withDefaults()
+		bank, brep, err := learnBank(lb, stageSeed(cfg.Seed, seedBank), opts.Workers, opts.Progress)
+		if err != nil {
+			return nil, rep, err
+		}
+		cfg.LearnBank = &lb
+		cfg.Front.Bank = bank
+		cfg.Front.Gabor.Disable = true
+		if p, err = cfg.plan(); err != nil {
+			return nil, rep, fmt.Errorf("pipeline: the learned bank does not fit the pipeline: %w", err)
+		}
+		cfg = p.cfg
+		rep.Bank = brep
+		rep.BankTime = time.Since(t0)
+	}
 
 	t0 := time.Now()
 	var tmpl *templateStage
@@ -150,6 +170,7 @@ const (
 	seedHead      = 1
 	seedTemplates = 2
 	seedUnlabeled = 3
+	seedBank      = 4
 )
 
 // stageSeed derives the seed of one stage from the pipeline seed

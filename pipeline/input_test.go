@@ -113,3 +113,28 @@ func TestInputUndoesShiftAndContrast(t *testing.T) {
 		t.Error("with both stages off the image should pass through untouched")
 	}
 }
+
+// TestMedian3MatchesSciPy compares the 3×3 median with
+// scipy.ndimage.median_filter(size=3, mode="nearest") (SciPy 1.10.1, values
+// in testdata/pipeline/median.json from gen_center.py); exact, since a median
+// selects one of the inputs.
+func TestMedian3MatchesSciPy(t *testing.T) {
+	b, err := os.ReadFile("../testdata/pipeline/median.json")
+	if err != nil {
+		t.Fatal(err)
+	}
+	var ref struct {
+		H, W     int
+		In, Want []float32
+	}
+	if err := json.Unmarshal(b, &ref); err != nil {
+		t.Fatal(err)
+	}
+	got := make([]float32, ref.H*ref.W)
+	median3(got, ref.In, ref.H, ref.W)
+	for i := range got {
+		if got[i] != ref.Want[i] {
+			t.Fatalf("pixel %d: %v; SciPy gives %v", i, got[i], ref.Want[i])
+		}
+	}
+}

@@ -11,6 +11,7 @@ import (
 
 	"github.com/striate/striate/datasets"
 	"github.com/striate/striate/learn"
+	"github.com/striate/striate/v1layer"
 )
 
 // smallSets returns the first n training and m test images of MNIST, loaded
@@ -329,6 +330,54 @@ func TestTemplateLayerRoundTrip(t *testing.T) {
 		for j := range f1 {
 			if f1[j] != f2[j] {
 				t.Fatalf("image %d feature %d: %v before save, %v after", i, j, f1[j], f2[j])
+			}
+		}
+	}
+}
+
+// TestLearnedBankRoundTrip learns a small bank from the shipped photos, fits
+// on a few digits and checks that the bank is in the model (learned kernels,
+// saved as tensors) and survives a save/load round trip.
+func TestLearnedBankRoundTrip(t *testing.T) {
+	train, test := mnist(t)
+	cfg := quickConfig()
+	cfg.LearnBank = &LearnBankConfig{Patches: 3000, Dict: learn.DictConfig{Atoms: 8, Epochs: 1}}
+	m, err := Fit(cfg, firstN(train, 400), FitOptions{Workers: 2})
+	if err != nil {
+		t.Fatal(err)
+	}
+	b := m.Config().Front.Bank
+	if b == nil || len(b.Kernels) != 8 || !m.Config().Front.Gabor.Disable {
+		t.Fatalf("model config holds bank %v; want 8 learned kernels with the Gabor stage off", b)
+	}
+	for i, k := range b.Kernels {
+		if k.Meta.Kind != v1layer.KindLearned {
+			t.Fatalf("bank kernel %d has kind %v; want learned", i, k.Meta.Kind)
+		}
+	}
+	// Each atom gives one energy channel per pair or two rectified ones.
+	fromBank := 0
+	for _, ch := range m.Channels() {
+		if ch.Kind != v1layer.KindDoG && ch.FitR2 > 0 {
+			fromBank++
+		}
+	}
+	if fromBank < 4 || fromBank > 16 {
+		t.Fatalf("%d front-end channels carry a Gabor fit; want between 4 and 16 from 8 atoms", fromBank)
+	}
+	var buf bytes.Buffer
+	if err := m.Save(&buf); err != nil {
+		t.Fatal(err)
+	}
+	m2, err := Load(bytes.NewReader(buf.Bytes()))
+	if err != nil {
+		t.Fatal(err)
+	}
+	for i := 0; i < 10; i++ {
+		f1, f2 := m.Extract(setImage(test, i)), m2.Extract(setImage(test, i))
+		for j := range f1 {
+			if f1[j] != f2[j] {
+				t.Fatalf("image %d feature %d differs after load", i, j)
 			}
 		}
 	}

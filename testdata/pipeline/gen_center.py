@@ -29,3 +29,11 @@ out = {"source": "scipy.ndimage.center_of_mass, scipy %s, numpy %s" % (scipy.__v
        "cases": cases}
 with open(os.path.join(os.path.dirname(os.path.abspath(__file__)), "center.json"), "w") as f:
     json.dump(out, f)
+
+# 3×3 median filter reference (scipy.ndimage.median_filter, size 3, mode
+# "nearest" = border pixels replicated) on a 13×17 random image.
+img = rng.random((13, 17)).astype(np.float32)
+med = ndimage.median_filter(img, size=3, mode="nearest")
+with open(os.path.join(os.path.dirname(os.path.abspath(__file__)), "median.json"), "w") as f:
+    json.dump({"source": "scipy.ndimage.median_filter(size=3, mode='nearest'), scipy %s" % scipy.__version__,
+               "h": 13, "w": 17, "in": [float(v) for v in img.ravel()], "want": [float(v) for v in med.ravel()]}, f)

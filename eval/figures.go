@@ -567,3 +567,32 @@ func minOf(vs ...plotter.Values) float64 {
 	}
 	return m
 }
+
+// BankMosaicFigure draws the AtomMosaic of each bank side by side, each
+// titled with its name, kernel count and largest kernel size.
+func BankMosaicFigure(panels []BankPanel) ([]byte, error) {
+	if len(panels) == 0 {
+		return nil, fmt.Errorf("eval: mosaic figure with no banks")
+	}
+	row := make([]*plot.Plot, len(panels))
+	for i, b := range panels {
+		if b.Bank == nil {
+			return nil, fmt.Errorf("eval: mosaic panel %q has no bank", b.Name)
+		}
+		img, err := AtomMosaic(b.Bank, 0, 4)
+		if err != nil {
+			return nil, fmt.Errorf("eval: mosaic of %s: %w", b.Name, err)
+		}
+		p := newPlot(fmt.Sprintf("%s: %d kernels, up to %d×%d px", b.Name, len(b.Bank.Kernels), b.Bank.MaxSize(), b.Bank.MaxSize()), "", "")
+		sz := img.Bounds().Size()
+		p.Add(plotter.NewImage(img, 0, 0, float64(sz.X), float64(sz.Y)))
+		p.HideAxes()
+		// Keep the mosaic square-pixelled: pad the shorter data range.
+		side := float64(max(sz.X, sz.Y))
+		p.X.Min, p.X.Max = -(side-float64(sz.X))/2, float64(sz.X)+(side-float64(sz.X))/2
+		p.Y.Min, p.Y.Max = -(side-float64(sz.Y))/2, float64(sz.Y)+(side-float64(sz.Y))/2
+		row[i] = p
+	}
+	n := vg.Length(len(panels))
+	return renderPNG([][]*plot.Plot{row}, n*3.6*vg.Inch, 3.9*vg.Inch)
+}

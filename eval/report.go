@@ -11,6 +11,7 @@ import (
 	"strings"
 	"time"
 
+	"github.com/striate/striate/learn"
 	"github.com/striate/striate/v1layer"
 )
 
@@ -31,7 +32,8 @@ type Report struct {
 	Robustness  []*Robustness      `json:"robustness,omitempty"`
 	Labels      []*LabelCurve      `json:"label_efficiency,omitempty"`
 	Invariance  []InvarianceResult `json:"invariance,omitempty"`
-	Figures     []Figure           `json:"figures,omitempty"` // extra figures, e.g. filter mosaics
+	Banks       []BankPanel        `json:"banks,omitempty"`   // filter banks shown side by side as mosaics
+	Figures     []Figure           `json:"figures,omitempty"` // extra figures supplied by the caller
 	Notes       []string           `json:"notes,omitempty"`
 }
 
@@ -63,6 +65,15 @@ type InvarianceResult struct {
 	Model    string              `json:"model"`
 	Channels []v1layer.Channel   `json:"channels,omitempty"`
 	Rows     []ChannelInvariance `json:"rows"`
+}
+
+// BankPanel is one filter bank for the mosaic figure (hand-set and learned
+// banks go side by side). Report, when set for a learned bank, adds the
+// orientation and bandwidth histograms of its Gabor fits.
+type BankPanel struct {
+	Name   string            `json:"name"`
+	Bank   *v1layer.Bank     `json:"-"`
+	Report *learn.BankReport `json:"report,omitempty"`
 }
 
 // Figure is a PNG figure supplied by the caller. Name becomes the file stem
@@ -437,8 +448,35 @@ func buildDoc(r *Report) ([]block, error) {
 		add(tableBlock{header: []string{"model", "images", "workers", "extract_img_per_s", "predict_img_per_s", "latency_p50_ms", "latency_p99_ms", "peak_heap_mib", "model_bytes"}, rows: speedRows})
 	}
 
+	if len(r.Banks) > 0 {
+		add(headBlock{2, "Filter banks"})
+		png, err := BankMosaicFigure(r.Banks)
+		if err != nil {
+			return nil, err
+		}
+		var names []string
+		for _, b := range r.Banks {
+			names = append(names, b.Name)
+		}
+		fig("filter-mosaics", "Filter banks: "+strings.Join(names, ", "),
+			"Every kernel of each bank, scaled on its own so that 0 is mid-grey and its largest weight is black or white.", png)
+		for _, b := range r.Banks {
+			if b.Report == nil {
+				continue
+			}
+			rp := b.Report
+			add(paraBlock{fmt.Sprintf("**%s**: %d atoms, %d Gabor-like (%.0f%%, fit R² ≥ %g), median R² %.3f, median bandwidth %.2f octaves and %.0f°, %d quadrature pairs, %d unpaired.",
+				b.Name, len(rp.Fits), rp.GaborLike, 100*rp.FracGaborLike, learn.GaborLikeR2, rp.MedianR2, rp.MedianFreqBandwidth, rp.MedianOrientationBandwidth, rp.Pairs, rp.Unpaired)})
+			png, err := BankHistogramsPNG(rp)
+			if err != nil {
+				return nil, err
+			}
+			fig("bank-histograms-"+b.Name, "Gabor fits of "+b.Name, "Fitted orientation, spatial-frequency bandwidth and orientation bandwidth of the Gabor-like atoms.", png)
+		}
+	}
+
 	if len(r.Figures) > 0 {
-		add(headBlock{2, "Filters and other figures"})
+		add(headBlock{2, "Other figures"})
 		for _, f := range r.Figures {
 			if len(f.PNG) == 0 {
 				return nil, fmt.Errorf("eval: report figure %q has no PNG data", f.Name)

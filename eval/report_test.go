@@ -91,7 +91,24 @@ func sampleReport(t *testing.T) *Report {
 	for i := range chans {
 		chans[i].Wavelength = 8
 	}
+	hand, err := v1layer.GaborBank(v1layer.GaborConfig{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	learned := &v1layer.Bank{}
+	for i, lam := range []float64{4, 5, 6, 8, 10, 12} {
+		e, o := quadPair(lam, 15)
+		for j, k := range [][]float64{e, o} {
+			w := make([]float32, len(k))
+			for p, v := range k {
+				w[p] = float32(v)
+			}
+			learned.Kernels = append(learned.Kernels, v1layer.Kernel{Size: 15, W: w,
+				Meta: v1layer.Channel{Kind: v1layer.KindLearned, Wavelength: lam, Pair: 2*i + 1 - j}})
+		}
+	}
 	return &Report{
+		Banks:   []BankPanel{{Name: "hand-set", Bank: hand}, {Name: "learned", Bank: learned}},
 		Title:   "Sample report | garment-sorting station",
 		Created: time.Date(2026, 12, 1, 12, 0, 0, 0, time.UTC),
 		Summary: "A **synthetic** report built by the eval tests from `predictions.json` and test fakes.",
@@ -180,9 +197,9 @@ func TestWriteReport(t *testing.T) {
 			}
 		}
 	}
-	// per-class + reliability (1 data set), confusion ×2, robustness, labels, invariance
-	if len(pngs) != 7 {
-		t.Errorf("%d figures: %v; want 7", len(pngs), pngs)
+	// per-class + reliability (1 data set), confusion ×2, robustness, labels, invariance, mosaics
+	if len(pngs) != 8 {
+		t.Errorf("%d figures: %v; want 8", len(pngs), pngs)
 	}
 
 	md, err := os.ReadFile(filepath.Join(dir, ReportMarkdown))

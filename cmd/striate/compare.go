@@ -127,8 +127,9 @@ func runCompare(g *globals, spec, pathA, pathB string, resamples int, robust str
 		name string
 		m    *pipeline.Model
 	}{{nameA, ma}, {nameB, mb}} {
-		if iv, err := invariance(mm.name, mm.m); err == nil {
+		if iv, bank, err := invariance(mm.name, mm.m); err == nil {
 			rep.Invariance = append(rep.Invariance, iv)
+			rep.Banks = append(rep.Banks, eval.BankPanel{Name: mm.name, Bank: bank})
 		}
 	}
 	return writeReport(g, rep)

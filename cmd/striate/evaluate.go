@@ -259,8 +259,9 @@ func runEvaluate(g *globals, o evalOptions) error {
 		}
 		rep.Robustness = []*eval.Robustness{rb}
 	}
-	if iv, err := invariance(name, m); err == nil {
+	if iv, bank, err := invariance(name, m); err == nil {
 		rep.Invariance = []eval.InvarianceResult{iv}
+		rep.Banks = []eval.BankPanel{{Name: name, Bank: bank}}
 	} else {
 		rep.Notes = append(rep.Notes, "invariance probe skipped: "+err.Error())
 	}
@@ -344,17 +345,17 @@ func robustness(g *globals, name string, m eval.Predictor, d *eval.Data, levels 
 }
 
 // invariance probes the model's front end (rebuilt from its configuration)
-// with gratings.
-func invariance(name string, m *pipeline.Model) (eval.InvarianceResult, error) {
+// with gratings, and returns its kernels for the mosaic.
+func invariance(name string, m *pipeline.Model) (eval.InvarianceResult, *v1layer.Bank, error) {
 	fe, err := v1layer.New(m.Config().Front)
 	if err != nil {
-		return eval.InvarianceResult{}, err
+		return eval.InvarianceResult{}, nil, err
 	}
 	rows, err := eval.Invariance(fe.Apply, eval.InvarianceConfig{})
 	if err != nil {
-		return eval.InvarianceResult{}, err
+		return eval.InvarianceResult{}, nil, err
 	}
-	return eval.InvarianceResult{Model: name, Channels: fe.Channels(), Rows: rows}, nil
+	return eval.InvarianceResult{Model: name, Channels: fe.Channels(), Rows: rows}, &v1layer.Bank{Kernels: fe.Kernels()}, nil
 }
 
 // writePredictions writes probs (N×K float32) and labels (int32) as

@@ -192,7 +192,8 @@ func TestCLIEvaluateReport(t *testing.T) {
 	if !strings.Contains(r.stdout, "accuracy") || !strings.Contains(r.stdout, "horizontal") {
 		t.Errorf("evaluate printed:\n%s", r.stdout)
 	}
-	for _, f := range []string{"report.md", "report.html", "results.json", "predictions.npy", "labels.npy"} {
+	for _, f := range []string{"report.md", "report.html", "results.json", "predictions.npy", "labels.npy",
+		"figures/filter-mosaics.png", "figures/robustness-test.png", "figures/invariance-hand.png", "figures/confusion-hand-test.png"} {
 		if _, err := os.Stat(filepath.Join(out, f)); err != nil {
 			t.Errorf("missing %s: %v", f, err)
 		}

@@ -46,10 +46,6 @@ var photoInfo = []struct{ name, source, license string }{
 		"CC0 1.0 (Creative Commons CC0 License)"},
 	{"hubble_deep_field", "Hubble eXtreme Deep Field, NASA, HubbleSite news release 2012-37; " + skimageNote + " hubble_deep_field.jpg" + rgb2grayNote,
 		"public domain (NASA: \"may be freely used in the public domain\")"},
-	{"motorcycle_left", "left view of the Middlebury 2014 stereo scene \"Motorcycle\" (Scharstein et al., GCPR 2014), down-sampled 4× by scikit-image; " + skimageNote + " motorcycle_left.png" + rgb2grayNote,
-		"not stated in scikit-image's docstring; shipped by scikit-image under its BSD-3-Clause package licence (Debian copyright, Files: *); not confirmed CC0 or public domain — cite Scharstein et al. 2014 when used"},
-	{"motorcycle_right", "right view of the Middlebury 2014 stereo scene \"Motorcycle\" (Scharstein et al., GCPR 2014), down-sampled 4× by scikit-image; " + skimageNote + " motorcycle_right.png" + rgb2grayNote,
-		"not stated in scikit-image's docstring; shipped by scikit-image under its BSD-3-Clause package licence (Debian copyright, Files: *); not confirmed CC0 or public domain — cite Scharstein et al. 2014 when used"},
 	{"rocket", "launch of DSCOVR on Falcon 9, SpaceX Photos (Flickr); " + skimageNote + " rocket.jpg" + rgb2grayNote,
 		"public domain (released into the public domain by SpaceX)"},
 }

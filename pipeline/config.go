@@ -22,6 +22,7 @@ import (
 //	front      v1layer front end (hand-set Gabor bank, or the bank in Front.Bank)
 //	templates  learned templates over complex-cell patches, pooled (learn)   [optional]
 //	pool       pooling of the front end's maps onto a grid, when there are no templates
+//	guard      drop near-constant features, clip to the training range
 //	head       softmax or MLP on standardised features (learn)
 type Config struct {
 	// Input sets the size every image is converted to before the front end.
@@ -41,6 +42,9 @@ type Config struct {
 	// Pool is the pooling applied to the front end's maps when no template
 	// layer follows (or, with Pool.Keep, in addition to the templates).
 	Pool PoolConfig `json:"pool"`
+	// Guard drops near-constant features and clips the rest to their
+	// training range before the head (see GuardConfig).
+	Guard GuardConfig `json:"guard"`
 	// Head is the supervised head; its zero value is learn's default.
 	Head learn.HeadConfig `json:"head"`
 	// Unlabeled is the number of unlabeled images (taken without their
@@ -128,6 +132,7 @@ func (c Config) withDefaults() Config {
 	if c.Pool.Stride == 0 {
 		c.Pool.Stride = c.Pool.Size
 	}
+	c.Guard = c.Guard.withDefaults()
 	if c.Unlabeled == 0 {
 		c.Unlabeled = defaultUnlabeled
 	}
@@ -157,6 +162,9 @@ func (c Config) plan() (*shapes, error) {
 		return nil, fmt.Errorf("pipeline: input size %d×%d; want each side in [%d, %d] (0 means %d)", c.Input.Height, c.Input.Width, minSide, maxSide, defaultSide)
 	}
 	if err := c.Input.validate(); err != nil {
+		return nil, err
+	}
+	if err := c.Guard.validate(); err != nil {
 		return nil, err
 	}
 	switch c.Pool.Op {

@@ -35,7 +35,7 @@ type FitReport struct {
 	Head         learn.HeadReport
 	Bank         *learn.BankReport // nil unless the bank was learned
 	NTrain       int
-	FeatureLen   int
+	FeatureLen   int // features the head sees (after the guard)
 }
 
 // Fit fits a pipeline: first the unsupervised stages on unlabeled images
@@ -118,6 +118,13 @@ func FitReported(cfg Config, train *datasets.Set, opts FitOptions) (*Model, FitR
 	rep.FeatureLen = d
 	X := make([]float32, train.N*d)
 	extractSet(p, tmpl, train, nil, X, opts.Workers, opts.Progress, "features")
+	g := fitGuard(cfg.Guard, X, train.N, d)
+	k := g.out()
+	for i := 0; i < train.N; i++ { // compact in place: see guard.apply
+		g.apply(X[i*k:(i+1)*k], X[i*d:(i+1)*d])
+	}
+	X = X[:train.N*k]
+	rep.FeatureLen = k
 	rep.Features = time.Since(t0)
 
 	t0 = time.Now()
@@ -127,7 +134,7 @@ func FitReported(cfg Config, train *datasets.Set, opts FitOptions) (*Model, FitR
 		return nil, rep, fmt.Errorf("pipeline: fitting the head: %w", err)
 	}
 	rep.HeadTime = time.Since(t0)
-	m, err := newModel(cfg, train.Classes, p, tmpl, head)
+	m, err := newModel(cfg, train.Classes, p, tmpl, g, head)
 	rep.Total = time.Since(start)
 	return m, rep, err
 }

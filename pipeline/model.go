@@ -20,6 +20,7 @@ type Model struct {
 	classes []string
 	plan    *shapes
 	tmpl    *templateStage // nil without a template layer
+	guard   *guard
 	head    *learn.Head
 	scratch sync.Pool // *work
 }
@@ -28,6 +29,7 @@ type Model struct {
 type work struct {
 	gray  []float32
 	norm  []float32
+	full  []float32 // features before the guard
 	maps  v1layer.Maps
 	stack []v1layer.Maps // template layers' response maps
 	feat  []float32
@@ -35,14 +37,17 @@ type work struct {
 	probs []float32
 }
 
-func newModel(cfg Config, classes []string, p *shapes, tmpl *templateStage, head *learn.Head) (*Model, error) {
-	if head.In() != p.featureLen(tmpl) {
-		return nil, fmt.Errorf("pipeline: head expects %d features; the stages before it give %d", head.In(), p.featureLen(tmpl))
+func newModel(cfg Config, classes []string, p *shapes, tmpl *templateStage, g *guard, head *learn.Head) (*Model, error) {
+	if g.in != p.featureLen(tmpl) {
+		return nil, fmt.Errorf("pipeline: the feature guard expects %d features; the stages before it give %d", g.in, p.featureLen(tmpl))
+	}
+	if head.In() != g.out() {
+		return nil, fmt.Errorf("pipeline: head expects %d features; the stages before it give %d", head.In(), g.out())
 	}
 	if head.NumClasses() != len(classes) {
 		return nil, fmt.Errorf("pipeline: head has %d classes; the model names %d", head.NumClasses(), len(classes))
 	}
-	m := &Model{cfg: cfg, classes: append([]string(nil), classes...), plan: p, tmpl: tmpl, head: head}
+	m := &Model{cfg: cfg, classes: append([]string(nil), classes...), plan: p, tmpl: tmpl, guard: g, head: head}
 	m.scratch.New = func() any { return new(work) }
 	return m, nil
 }
@@ -59,7 +64,7 @@ func (m *Model) NumClasses() int { return len(m.classes) }
 func (m *Model) Classes() []string { return append([]string(nil), m.classes...) }
 
 // FeatureLen returns the length of the vectors Extract returns.
-func (m *Model) FeatureLen() int { return m.plan.featureLen(m.tmpl) }
+func (m *Model) FeatureLen() int { return m.guard.out() }
 
 // InputSize returns the height and width every image is resized to.
 func (m *Model) InputSize() (h, w int) { return m.cfg.Input.Height, m.cfg.Input.Width }
@@ -160,9 +165,16 @@ func (m *Model) headScratch(w *work) []float32 {
 }
 
 // extractGray runs the stages on one grey image at the input size and
-// writes the features into dst (reused when its capacity suffices).
+// writes the guarded features into dst (reused when its capacity suffices).
 func (m *Model) extractGray(dst, gray []float32, w *work) []float32 {
-	return m.plan.features(dst, gray, m.tmpl, w)
+	w.full = m.plan.features(w.full, gray, m.tmpl, w)
+	n := m.guard.out()
+	if cap(dst) < n {
+		dst = make([]float32, n)
+	}
+	dst = dst[:n]
+	m.guard.apply(dst, w.full)
+	return dst
 }
 
 // parallel calls fn(i, scratch) for i in [0, n) over workers goroutines,

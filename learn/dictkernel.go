@@ -5,10 +5,20 @@ import (
 	"gonum.org/v1/gonum/blas/blas32"
 )
 
-// gemmNT computes c = a·bᵀ for a (m×p), b (n×p), c (m×n), all row-major and
-// contiguous. It is the one dense float32 product in the coders: the
-// correlations of a batch of signals with every atom.
-func gemmNT(c, a, b []float32, m, n, p int) {
+// The dense kernels are variables so that the SIMD build
+// (dictkernel_simd_amd64.go, GOEXPERIMENT=simd) can replace them;
+// TestKernelsMatchReference checks whichever is in place.
+var (
+	gemmNT = gemmNTGonum
+	axpy   = axpyGonum
+	// kernelBuild names the kernels in use, for benchmark logs.
+	kernelBuild = "portable (gonum blas32)"
+)
+
+// gemmNTGonum computes c = a·bᵀ for a (m×p), b (n×p), c (m×n), all
+// row-major and contiguous. It is the one dense float32 product in the
+// coders: the correlations of a batch of signals with every atom.
+func gemmNTGonum(c, a, b []float32, m, n, p int) {
 	if m == 0 || n == 0 {
 		return
 	}
@@ -18,19 +28,8 @@ func gemmNT(c, a, b []float32, m, n, p int) {
 		0, blas32.General{Rows: m, Cols: n, Stride: n, Data: c})
 }
 
-// gemmNN computes c = a·b for a (m×p), b (p×n), c (m×n), row-major.
-func gemmNN(c, a, b []float32, m, n, p int) {
-	if m == 0 || n == 0 {
-		return
-	}
-	blas32.Gemm(blas.NoTrans, blas.NoTrans, 1,
-		blas32.General{Rows: m, Cols: p, Stride: p, Data: a},
-		blas32.General{Rows: p, Cols: n, Stride: n, Data: b},
-		0, blas32.General{Rows: m, Cols: n, Stride: n, Data: c})
-}
-
-// axpy computes y += alpha·x for equal-length slices.
-func axpy(alpha float32, x, y []float32) {
+// axpyGonum computes y += alpha·x for equal-length slices.
+func axpyGonum(alpha float32, x, y []float32) {
 	blas32.Axpy(alpha, blas32.Vector{N: len(x), Inc: 1, Data: x}, blas32.Vector{N: len(y), Inc: 1, Data: y})
 }
 

@@ -1,0 +1,167 @@
+//go:build goexperiment.simd && amd64
+
+package learn
+
+import (
+	"simd/archsimd"
+	"sync"
+	"unsafe"
+)
+
+// The SIMD build (GOEXPERIMENT=simd, amd64) runs the dense products with
+// 8-lane float32 fused multiply-adds (AVX2 + FMA) when the CPU has them;
+// otherwise the gonum kernels stay in place.
+func init() {
+	if archsimd.X86.AVX2() && archsimd.X86.FMA() {
+		gemmNT, axpy = gemmNTSIMD, axpySIMD
+		kernelBuild = "simd (GOEXPERIMENT=simd, AVX2+FMA, 8 float32 lanes)"
+	}
+}
+
+func ld8(p unsafe.Pointer) archsimd.Float32x8 { return archsimd.LoadFloat32x8((*[8]float32)(p)) }
+
+func st8(p unsafe.Pointer, v archsimd.Float32x8) { v.Store((*[8]float32)(p)) }
+
+var packPool = sync.Pool{New: func() any { return new([]float32) }}
+
+// gemmNTSIMD is gemmNTGonum. b is packed into panels of 16 rows stored
+// column-interleaved (panel[q*16+c] = b[(j0+c)*p+q], zero past n), so the
+// micro-kernel reads two vectors of b per step and broadcasts one value of
+// each of 4 rows of a: an outer-product update of a 4×16 tile of c held in
+// 8 registers.
+func gemmNTSIMD(c, a, b []float32, m, n, p int) {
+	if m == 0 || n == 0 {
+		return
+	}
+	if len(a) < m*p || len(b) < n*p || len(c) < m*n {
+		panic("learn: internal error: gemmNTSIMD slice too short")
+	}
+	if p == 0 {
+		clear(c[:m*n])
+		return
+	}
+	np := (n + 15) / 16
+	bufp := packPool.Get().(*[]float32)
+	if cap(*bufp) < np*16*p {
+		*bufp = make([]float32, np*16*p)
+	}
+	pk := (*bufp)[:np*16*p]
+	for jp := 0; jp < np; jp++ {
+		panel := pk[jp*16*p : (jp+1)*16*p]
+		for cc := 0; cc < 16; cc++ {
+			j := jp*16 + cc
+			if j >= n {
+				for q := 0; q < p; q++ {
+					panel[q*16+cc] = 0
+				}
+				continue
+			}
+			row := b[j*p : (j+1)*p]
+			for q, v := range row {
+				panel[q*16+cc] = v
+			}
+		}
+	}
+	var tile [4 * 16]float32
+	for jp := 0; jp < np; jp++ {
+		panel := unsafe.Pointer(unsafe.SliceData(pk[jp*16*p:]))
+		j0 := jp * 16
+		full := j0+16 <= n
+		i := 0
+		for ; i+4 <= m; i += 4 {
+			a0 := unsafe.Pointer(unsafe.SliceData(a[i*p:]))
+			a1 := unsafe.Add(a0, 4*p)
+			a2 := unsafe.Add(a1, 4*p)
+			a3 := unsafe.Add(a2, 4*p)
+			var c00, c01, c10, c11, c20, c21, c30, c31 archsimd.Float32x8
+			bp := panel
+			for q := 0; q < p; q++ {
+				b0 := ld8(bp)
+				b1 := ld8(unsafe.Add(bp, 32))
+				bp = unsafe.Add(bp, 64)
+				off := uintptr(q) * 4
+				x0 := archsimd.BroadcastFloat32x8(*(*float32)(unsafe.Add(a0, off)))
+				c00 = x0.MulAdd(b0, c00)
+				c01 = x0.MulAdd(b1, c01)
+				x1 := archsimd.BroadcastFloat32x8(*(*float32)(unsafe.Add(a1, off)))
+				c10 = x1.MulAdd(b0, c10)
+				c11 = x1.MulAdd(b1, c11)
+				x2 := archsimd.BroadcastFloat32x8(*(*float32)(unsafe.Add(a2, off)))
+				c20 = x2.MulAdd(b0, c20)
+				c21 = x2.MulAdd(b1, c21)
+				x3 := archsimd.BroadcastFloat32x8(*(*float32)(unsafe.Add(a3, off)))
+				c30 = x3.MulAdd(b0, c30)
+				c31 = x3.MulAdd(b1, c31)
+			}
+			if full {
+				cp := unsafe.Pointer(unsafe.SliceData(c[i*n+j0:]))
+				st8(cp, c00)
+				st8(unsafe.Add(cp, 32), c01)
+				cp = unsafe.Add(cp, 4*n)
+				st8(cp, c10)
+				st8(unsafe.Add(cp, 32), c11)
+				cp = unsafe.Add(cp, 4*n)
+				st8(cp, c20)
+				st8(unsafe.Add(cp, 32), c21)
+				cp = unsafe.Add(cp, 4*n)
+				st8(cp, c30)
+				st8(unsafe.Add(cp, 32), c31)
+				continue
+			}
+			tp := unsafe.Pointer(&tile[0])
+			st8(tp, c00)
+			st8(unsafe.Add(tp, 32), c01)
+			st8(unsafe.Add(tp, 64), c10)
+			st8(unsafe.Add(tp, 96), c11)
+			st8(unsafe.Add(tp, 128), c20)
+			st8(unsafe.Add(tp, 160), c21)
+			st8(unsafe.Add(tp, 192), c30)
+			st8(unsafe.Add(tp, 224), c31)
+			for r := 0; r < 4; r++ {
+				copy(c[(i+r)*n+j0:(i+r)*n+n], tile[r*16:r*16+n-j0])
+			}
+		}
+		for ; i < m; i++ { // remaining rows, one at a time
+			ar := unsafe.Pointer(unsafe.SliceData(a[i*p:]))
+			var c0, c1 archsimd.Float32x8
+			bp := panel
+			for q := 0; q < p; q++ {
+				x := archsimd.BroadcastFloat32x8(*(*float32)(unsafe.Add(ar, uintptr(q)*4)))
+				c0 = x.MulAdd(ld8(bp), c0)
+				c1 = x.MulAdd(ld8(unsafe.Add(bp, 32)), c1)
+				bp = unsafe.Add(bp, 64)
+			}
+			tp := unsafe.Pointer(&tile[0])
+			st8(tp, c0)
+			st8(unsafe.Add(tp, 32), c1)
+			copy(c[i*n+j0:i*n+min(n, j0+16)], tile[:min(16, n-j0)])
+		}
+	}
+	packPool.Put(bufp)
+}
+
+// axpySIMD is axpyGonum.
+func axpySIMD(alpha float32, x, y []float32) {
+	n := len(x)
+	if len(y) < n {
+		panic("learn: internal error: axpySIMD length")
+	}
+	av := archsimd.BroadcastFloat32x8(alpha)
+	xp := unsafe.Pointer(unsafe.SliceData(x))
+	yp := unsafe.Pointer(unsafe.SliceData(y))
+	i := 0
+	for ; i+16 <= n; i += 16 {
+		o := uintptr(i) * 4
+		y0 := av.MulAdd(ld8(unsafe.Add(xp, o)), ld8(unsafe.Add(yp, o)))
+		y1 := av.MulAdd(ld8(unsafe.Add(xp, o+32)), ld8(unsafe.Add(yp, o+32)))
+		st8(unsafe.Add(yp, o), y0)
+		st8(unsafe.Add(yp, o+32), y1)
+	}
+	for ; i+8 <= n; i += 8 {
+		o := uintptr(i) * 4
+		st8(unsafe.Add(yp, o), av.MulAdd(ld8(unsafe.Add(xp, o)), ld8(unsafe.Add(yp, o))))
+	}
+	for ; i < n; i++ {
+		y[i] += alpha * x[i]
+	}
+}

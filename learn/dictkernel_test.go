@@ -1,0 +1,82 @@
+package learn
+
+import (
+	"math"
+	"math/rand/v2"
+	"testing"
+)
+
+// TestKernelsMatchReference checks the dense kernels in use (gonum's, or
+// the SIMD ones under GOEXPERIMENT=simd) against a float64 triple loop on
+// shapes that exercise every edge case of the 4×16 tiling.
+func TestKernelsMatchReference(t *testing.T) {
+	t.Logf("kernels: %s", kernelBuild)
+	r := rand.New(rand.NewPCG(1, 2))
+	for _, sh := range [][3]int{{1, 1, 1}, {4, 16, 8}, {5, 17, 3}, {7, 33, 64}, {256, 256, 256}, {3, 9, 1}, {13, 15, 20}} {
+		m, n, p := sh[0], sh[1], sh[2]
+		a := make([]float32, m*p)
+		b := make([]float32, n*p)
+		for i := range a {
+			a[i] = float32(r.NormFloat64())
+		}
+		for i := range b {
+			b[i] = float32(r.NormFloat64())
+		}
+		c := make([]float32, m*n)
+		for i := range c {
+			c[i] = 99 // must be overwritten
+		}
+		gemmNT(c, a, b, m, n, p)
+		var worst float64
+		for i := 0; i < m; i++ {
+			for j := 0; j < n; j++ {
+				var s float64
+				for q := 0; q < p; q++ {
+					s += float64(a[i*p+q]) * float64(b[j*p+q])
+				}
+				// float32 accumulation error grows like sqrt(p)·ε·|terms|
+				worst = math.Max(worst, math.Abs(float64(c[i*n+j])-s)/math.Sqrt(float64(p)))
+			}
+		}
+		const gemmTol = 1e-5 // per sqrt(p), for N(0,1) entries: ~10 float32 ulps
+		if worst > gemmTol {
+			t.Errorf("gemmNT %v: error %.3g (per √p) > %g", sh, worst, gemmTol)
+		}
+	}
+	for _, n := range []int{0, 1, 7, 8, 15, 16, 17, 33, 256} {
+		x := make([]float32, n)
+		y := make([]float32, n)
+		want := make([]float64, n)
+		for i := range x {
+			x[i], y[i] = float32(r.NormFloat64()), float32(r.NormFloat64())
+			want[i] = float64(y[i]) + float64(float32(0.7))*float64(x[i])
+		}
+		axpy(0.7, x, y)
+		for i := range y {
+			if math.Abs(float64(y[i])-want[i]) > 1e-6 {
+				t.Errorf("axpy n=%d: y[%d] = %v, want %v", n, i, y[i], want[i])
+			}
+		}
+	}
+}
+
+// BenchmarkGemmNT times the correlation product of 256 signals of 256
+// pixels with 256 atoms (the shape of one minibatch of the bench protocol).
+func BenchmarkGemmNT(b *testing.B) {
+	const m, n, p = 256, 256, 256
+	a := make([]float32, m*p)
+	w := make([]float32, n*p)
+	c := make([]float32, m*n)
+	for i := range a {
+		a[i] = float32(i%13) - 6
+	}
+	for i := range w {
+		w[i] = float32(i%7) - 3
+	}
+	b.ReportAllocs()
+	b.ResetTimer()
+	for i := 0; i < b.N; i++ {
+		gemmNT(c, a, w, m, n, p)
+	}
+	b.ReportMetric(2*m*n*p*float64(b.N)/b.Elapsed().Seconds()/1e9, "GFLOP/s")
+}

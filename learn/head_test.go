@@ -5,6 +5,7 @@ import (
 	"errors"
 	"math"
 	"math/rand/v2"
+	"runtime"
 	"sync"
 	"testing"
 )
@@ -352,5 +353,27 @@ func TestHeadEnginesAgree(t *testing.T) {
 			t.Errorf("%s: engines' probabilities differ by up to %.2g > %g", kind, worst, engineTol)
 		}
 		t.Logf("%s: engines differ by %.2g in probability", kind, worst)
+	}
+}
+
+// TestHeadIndependentOfThreads: gonum's Sgemm splits large products over
+// GOMAXPROCS goroutines, one output block per goroutine with a fixed
+// summation order, so the trained weights must not depend on the thread
+// count (a model file is the same on a 2-core and a 1-core machine).
+func TestHeadIndependentOfThreads(t *testing.T) {
+	X, y := blobs(640, 300, 4, 0.3, 12)
+	cfg := HeadConfig{Kind: KindMLP, Hidden: 130, Epochs: 2, Batch: 128, Seed: 2}
+	a, _, err := cfg.Fit(X, y, 4, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	old := runtime.GOMAXPROCS(1)
+	b, _, err := cfg.Fit(X, y, 4, nil)
+	runtime.GOMAXPROCS(old)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !sameTensors(a.Tensors(), b.Tensors()) {
+		t.Errorf("weights differ between GOMAXPROCS=%d and 1", old)
 	}
 }

@@ -13,12 +13,19 @@ func init() {
 	register(&command{
 		name:    "demo",
 		summary: "run the main job on embedded defaults (garment-sorting example)",
-		example: `  striate demo                 # the data the main job runs on
-  striate demo --mnist DIR     # MNIST from a folder instead of the Go module cache`,
+		example: `  striate demo                         # full job, report in striate-report/ (about 15 min on 2 cores)
+  striate demo --quick --out /tmp/r    # small subsets, about 2 min
+  striate demo --data-only             # just load and summarise the data
+  striate demo --mnist DIR             # MNIST from a folder instead of the Go module cache`,
 		setup: func(fs *flag.FlagSet, g *globals) func([]string) error {
 			var o demoOptions
 			fs.StringVar(&o.mnistDir, "mnist", "", "MNIST `folder` (default: $STRIATE_MNIST_DIR, else the GoMNIST Go module)")
 			fs.StringVar(&o.fashionDir, "fashion", "", "Fashion-MNIST `folder` (default: $STRIATE_FASHION_DIR, else "+datasets.FashionDefaultDir+")")
+			fs.BoolVar(&o.quick, "quick", false, "small subsets so the whole job takes about two minutes")
+			fs.BoolVar(&o.dataOnly, "data-only", false, "only load the data and print its summary")
+			g.addSeed(fs)
+			g.addWorkers(fs)
+			g.addOut(fs, "striate-report")
 			g.addQuiet(fs)
 			return func(args []string) error {
 				if len(args) > 0 {
@@ -32,6 +39,7 @@ func init() {
 
 type demoOptions struct {
 	mnistDir, fashionDir string
+	quick, dataOnly      bool
 }
 
 func runDemo(g *globals, o demoOptions) error {
@@ -50,7 +58,10 @@ func runDemo(g *globals, o demoOptions) error {
 		return err
 	}
 	printPhotoSummary(w, photos)
-	return nil
+	if o.dataOnly {
+		return nil
+	}
+	return runMainJob(g, sets, o.quick)
 }
 
 // demoData holds the four splits the main job uses.

@@ -1,0 +1,258 @@
+package main
+
+import (
+	"fmt"
+	"os"
+	"strings"
+	"time"
+
+	"github.com/striate/striate/datasets"
+	"github.com/striate/striate/eval"
+	"github.com/striate/striate/pipeline"
+	"github.com/striate/striate/v1layer"
+)
+
+// jobSizes sets how much data the main job uses; quick runs shrink it so the
+// whole job stays within about two minutes on two cores.
+type jobSizes struct {
+	trainPerClass int   // labelled training images per class; 0 = the whole split
+	test          int   // test images (first N of the published test split); 0 = all
+	labelBudgets  []int // labels per class for the label-efficiency curve
+	levels        map[datasets.PerturbKind][]float64
+	speedImages   int
+}
+
+func sizesFor(quick bool) jobSizes {
+	if quick {
+		return jobSizes{trainPerClass: 300, test: 2000, labelBudgets: []int{10, 100},
+			levels: eval.QuickLevels, speedImages: 500}
+	}
+	return jobSizes{trainPerClass: 0, test: 0, labelBudgets: []int{10, 100, 1000},
+		levels: eval.StandardLevels, speedImages: 2000}
+}
+
+// modelSpec is one of the pipelines the main job trains.
+type modelSpec struct {
+	name, desc string
+	cfg        pipeline.Config
+}
+
+// mainJobSpecs returns the hand-set and the learned pipeline. The learned one
+// differs only in its simple-cell bank, which Fit learns from the embedded
+// photos by sparse coding, so the comparison isolates the bank.
+func mainJobSpecs(seed uint64) []modelSpec {
+	hand := pipeline.DefaultConfig()
+	hand.Seed = seed
+	learned := pipeline.DefaultConfig()
+	learned.Seed = seed
+	learned.LearnBank = &pipeline.LearnBankConfig{}
+	return []modelSpec{
+		{"hand-set", "DoG + hand-set Gabor bank (default front end)", hand},
+		{"learned", "DoG + bank learned by sparse coding of whitened photo patches", learned},
+	}
+}
+
+// runMainJob learns a bank, trains the hand-set and learned pipelines on
+// Fashion-MNIST (the garment-sorting station) and MNIST, compares them, runs
+// the robustness and label-efficiency sweeps and writes the report.
+func runMainJob(g *globals, d *demoData, quick bool) error {
+	start := time.Now()
+	sz := sizesFor(quick)
+	w := g.stdout
+	rep := &eval.Report{
+		Title: "striate: hand-set and learned V1-like front ends",
+		Summary: "A garment-sorting station at a second-hand clothing depot sorts items by type on a small CPU board. " +
+			"This report trains two recognizers that differ only in their simple-cell bank (hand-set Gabor filters, or " +
+			"filters learned by sparse coding of whitened natural-photo patches) on Fashion-MNIST (the garments) and " +
+			"MNIST, and evaluates them on the published test splits.",
+		Command: "striate " + strings.Join(os.Args[1:], " "),
+	}
+	if quick {
+		rep.Notes = append(rep.Notes, fmt.Sprintf("Quick run: %d labelled training images per class and the first %d test images; "+
+			"figures are indicative only. Run without --quick for the full result.", sz.trainPerClass, sz.test))
+	}
+	specs := mainJobSpecs(g.seed)
+	configs := map[string]pipeline.Config{}
+	for _, s := range specs {
+		configs[s.name] = s.cfg
+	}
+	rep.Config = configs
+
+	type dataPair struct {
+		train, test *datasets.Set
+	}
+	sets := []dataPair{{d.fashionTrain, d.fashionTest}, {d.mnistTrain, d.mnistTest}}
+	var mnistModels = map[string]*pipeline.Model{}
+	var banksDrawn bool
+	for _, dp := range sets {
+		train := dp.train
+		if sz.trainPerClass > 0 {
+			train = train.Subset(datasets.PerClass(train.Labels, sz.trainPerClass, g.seed))
+		}
+		test := dp.test
+		if sz.test > 0 && sz.test < test.N {
+			idx := make([]int, sz.test)
+			for i := range idx {
+				idx[i] = i
+			}
+			test = test.Subset(idx)
+		}
+		td := eval.FromSet(test)
+		rep.Data = append(rep.Data, eval.Provenance{Name: dp.test.Name, Source: dp.test.Source, Train: train.N, Test: test.N,
+			H: test.H, W: test.W, Classes: test.Classes})
+		preds := map[string][]int{}
+		for _, s := range specs {
+			fmt.Fprintf(w, "training %s on %s (%d images)\n", s.name, train.Name, train.N)
+			bar := g.newProgress(train.N, s.name)
+			t0 := time.Now()
+			m, frep, err := pipeline.FitReported(s.cfg, train, pipeline.FitOptions{Workers: g.workers, Progress: bar})
+			bar.Done()
+			if err != nil {
+				return fmt.Errorf("training %s on %s: %w", s.name, train.Name, err)
+			}
+			secs := time.Since(t0).Seconds()
+			if !banksDrawn && frep.Bank != nil {
+				if err := addBankFigures(rep, m, frep); err != nil {
+					return err
+				}
+				banksDrawn = true
+			}
+			bar = g.newProgress(len(td.Images), "test "+s.name)
+			probs, err := eval.Predict(m, td.Images, td.H, td.W, eval.RunOptions{Workers: g.workers, Progress: bar})
+			bar.Done()
+			if err != nil {
+				return err
+			}
+			met, err := eval.Score(td.Labels, probs, td.Classes, eval.MetricsConfig{})
+			if err != nil {
+				return err
+			}
+			preds[s.name] = eval.Classify(probs)
+			mr := eval.ModelResult{Name: s.name, Data: dp.test.Name, Description: s.desc, TrainSeconds: secs, Metrics: met}
+			n := min(sz.speedImages, len(td.Images))
+			sp, err := eval.MeasureSpeed(m, func(imgs [][]float32, h, w, workers int) error {
+				_, err := m.ExtractFloats(imgs, h, w, workers)
+				return err
+			}, td.Images[:n], td.H, td.W, eval.SpeedConfig{Workers: g.workers})
+			if err != nil {
+				return err
+			}
+			if sp.ModelBytes, err = eval.ModelSize(m.Save); err != nil {
+				return err
+			}
+			mr.Speed = sp
+			rep.Models = append(rep.Models, mr)
+			fmt.Fprintf(w, "  %s on %s: accuracy %.2f%% [%.2f, %.2f] (trained in %.0f s)\n", s.name, test.Name,
+				100*met.Accuracy, 100*met.CI.Lo, 100*met.CI.Hi, secs)
+
+			bar = g.newProgress(0, "robustness "+s.name)
+			conds, err := eval.StandardConditions(sz.levels)
+			if err != nil {
+				return err
+			}
+			rob, err := eval.RobustnessSweep(s.name, m, td, conds, eval.RobustnessConfig{Seed: g.seed,
+				Run: eval.RunOptions{Workers: g.workers, Progress: bar}})
+			bar.Done()
+			if err != nil {
+				return err
+			}
+			rob.Data = dp.test.Name
+			rep.Robustness = append(rep.Robustness, rob)
+			if dp.train == d.mnistTrain {
+				mnistModels[s.name] = m
+			}
+		}
+		cmp, err := eval.Compare(specs[0].name, specs[1].name, td.Labels, preds[specs[0].name], preds[specs[1].name],
+			eval.CompareConfig{Seed: g.seed})
+		if err != nil {
+			return err
+		}
+		rep.Comparisons = append(rep.Comparisons, cmp)
+		fmt.Fprintf(w, "  %s vs %s on %s: difference %+.2f points [%+.2f, %+.2f], exact McNemar p = %.3g\n",
+			cmp.NameA, cmp.NameB, test.Name, 100*cmp.Diff, 100*cmp.DiffCI.Lo, 100*cmp.DiffCI.Hi, cmp.PValue)
+	}
+
+	// Label efficiency on MNIST: the unsupervised stages see the whole
+	// training split without labels; the head sees only the budget.
+	mt := d.mnistTest
+	if sz.test > 0 && sz.test < mt.N {
+		idx := make([]int, sz.test)
+		for i := range idx {
+			idx[i] = i
+		}
+		mt = mt.Subset(idx)
+	}
+	mtd := eval.FromSet(mt)
+	hand := specs[0]
+	fmt.Fprintf(w, "label efficiency of %s on MNIST: %v labels per class\n", hand.name, sz.labelBudgets)
+	bar := g.newProgress(len(sz.labelBudgets), "label efficiency")
+	curve, err := eval.LabelEfficiency(hand.name, func(idx []int) (eval.Predictor, error) {
+		return pipeline.Fit(hand.cfg, d.mnistTrain.Subset(idx), pipeline.FitOptions{Workers: g.workers, Unlabeled: d.mnistTrain})
+	}, d.mnistTrain.Labels, mtd, eval.LabelConfig{PerClass: sz.labelBudgets, Seed: g.seed,
+		Run: eval.RunOptions{Workers: g.workers, Progress: bar}})
+	bar.Done()
+	if err != nil {
+		return err
+	}
+	curve.Data = mt.Name
+	rep.Labels = append(rep.Labels, curve)
+	for _, p := range curve.Points {
+		fmt.Fprintf(w, "  %4d labels per class: %.2f%%\n", p.PerClass, 100*p.Accuracy)
+	}
+
+	// The front end's invariance: grating probe of each pipeline's front end.
+	for _, s := range specs {
+		m := mnistModels[s.name]
+		if m == nil {
+			continue
+		}
+		fe, err := v1layer.New(m.Config().Front)
+		if err != nil {
+			return err
+		}
+		rows, err := eval.Invariance(fe.Apply, eval.InvarianceConfig{})
+		if err != nil {
+			return err
+		}
+		rep.Invariance = append(rep.Invariance, eval.InvarianceResult{Model: s.name, Channels: fe.Channels(), Rows: rows})
+	}
+
+	rep.Notes = append(rep.Notes, fmt.Sprintf("The whole job took %s with %d workers.", time.Since(start).Round(time.Second), g.workers))
+	files, err := eval.WriteReport(g.out, rep)
+	if err != nil {
+		return err
+	}
+	fmt.Fprintf(w, "report written to %s (%d files) in %s\n", g.out, len(files), time.Since(start).Round(time.Second))
+	return nil
+}
+
+// addBankFigures draws the hand-set and the learned bank side by side and the
+// learned atoms' Gabor-fit histograms.
+func addBankFigures(rep *eval.Report, learned *pipeline.Model, frep pipeline.FitReport) error {
+	hb, err := v1layer.GaborBank(v1layer.GaborConfig{})
+	if err != nil {
+		return err
+	}
+	hand, err := eval.AtomMosaicPNG(hb, 8, 4)
+	if err != nil {
+		return err
+	}
+	lb := learned.Config().Front.Bank
+	lm, err := eval.AtomMosaicPNG(lb, 8, 4)
+	if err != nil {
+		return err
+	}
+	hist, err := eval.BankHistogramsPNG(frep.Bank)
+	if err != nil {
+		return err
+	}
+	rep.Figures = append(rep.Figures,
+		eval.Figure{Name: "bank-hand-set", Title: "Hand-set Gabor bank", PNG: hand,
+			Caption: fmt.Sprintf("%d kernels: 4 orientations × even/odd × 2 scales; grey is zero.", len(hb.Kernels))},
+		eval.Figure{Name: "bank-learned", Title: "Learned bank (sparse coding of whitened photo patches)", PNG: lm,
+			Caption: fmt.Sprintf("%d atoms; %d of them Gabor-like (fit R² ≥ 0.8), %d quadrature pairs.",
+				len(lb.Kernels), frep.Bank.GaborLike, frep.Bank.Pairs)},
+		eval.Figure{Name: "bank-learned-fits", Title: "Gabor fits of the learned atoms", PNG: hist,
+			Caption: "Orientation, spatial-frequency bandwidth (octaves) and orientation bandwidth (degrees) of the fitted atoms."})
+	return nil
+}

@@ -42,9 +42,10 @@ func stripeSet() *datasets.Set {
 // on an image of another size and colour model.
 func Example() {
 	cfg := pipeline.Config{
-		Pool: pipeline.PoolConfig{Size: 7},
-		Head: learn.HeadConfig{Kind: learn.KindSoftmax, Epochs: 20, ValFrac: -1},
-		Seed: 1,
+		Templates: []learn.TemplateConfig{}, // no template layer
+		Pool:      pipeline.PoolConfig{Size: 7},
+		Head:      learn.HeadConfig{Kind: learn.KindSoftmax, Epochs: 20, ValFrac: -1},
+		Seed:      1,
 	}
 	m, err := pipeline.Fit(cfg, stripeSet(), pipeline.FitOptions{Workers: 2})
 	if err != nil {

@@ -50,6 +50,12 @@ type Config struct {
 	// Head is the supervised head; its zero value means DefaultHead (a field
 	// set by hand makes every other zero field take learn's own default).
 	Head learn.HeadConfig `json:"head"`
+	// HeadMinSteps is the least number of minibatch steps the head is
+	// trained for: when the training set is so small that Head.Epochs passes
+	// give fewer steps, Fit raises the epoch count to reach it (the fitted
+	// model's Config records the count used). 0 means 3000; negative means
+	// no minimum.
+	HeadMinSteps int `json:"head_min_steps,omitempty"`
 	// Unlabeled is the number of unlabeled images (taken without their
 	// labels) the unsupervised stages are fitted on: 0 means 10000, -1 means
 	// all of them. Ignored when no stage is unsupervised.
@@ -103,7 +109,10 @@ const (
 	defaultSide      = 28
 	minSide, maxSide = 8, 1024
 	defaultUnlabeled = 10000
-	maxPoolSize      = 16
+	// defaultHeadMinSteps: 3000 Adam steps of 128 rows is about 6 passes
+	// over MNIST; below that a head on a few hundred rows is undertrained.
+	defaultHeadMinSteps = 3000
+	maxPoolSize         = 16
 	// maxTemplateLayers bounds the stack; deeper stacks shrink 28×28 inputs
 	// to nothing long before.
 	maxTemplateLayers = 4
@@ -159,6 +168,9 @@ func (c Config) withDefaults() Config {
 		c.Pool.Stride = c.Pool.Size
 	}
 	c.Guard = c.Guard.withDefaults()
+	if c.HeadMinSteps == 0 {
+		c.HeadMinSteps = defaultHeadMinSteps
+	}
 	if c.Unlabeled == 0 {
 		c.Unlabeled = defaultUnlabeled
 	}

@@ -4,6 +4,8 @@ import (
 	"reflect"
 	"strings"
 	"testing"
+
+	"github.com/striate/striate/learn"
 )
 
 func TestConfigJSONRoundTrip(t *testing.T) {
@@ -65,5 +67,25 @@ func TestConfigValidate(t *testing.T) {
 	}
 	if _, err := ParseConfig(strings.NewReader(`{"templates":[], "head":{"kind":"softmax"}}`)); err != nil {
 		t.Errorf("a valid config was rejected: %v", err)
+	}
+}
+
+func TestWithMinSteps(t *testing.T) {
+	h := learn.HeadConfig{Epochs: 15}
+	// 60000 rows: 54000 train rows / 128 = 421 steps per epoch, 15 epochs
+	// give 6315 ≥ 3000: unchanged.
+	if got := withMinSteps(h, 60000, 3000); got.Epochs != 15 {
+		t.Errorf("60000 rows: %d epochs; want 15", got.Epochs)
+	}
+	// 100 rows: 90 train rows, one batch of 90 per epoch → 3000 epochs.
+	if got := withMinSteps(h, 100, 3000); got.Epochs != 3000 {
+		t.Errorf("100 rows: %d epochs; want 3000", got.Epochs)
+	}
+	// 1000 rows: 900 train rows / 128 = 7 steps per epoch → ceil(3000/7) = 429.
+	if got := withMinSteps(h, 1000, 3000); got.Epochs != 429 {
+		t.Errorf("1000 rows: %d epochs; want 429", got.Epochs)
+	}
+	if got := withMinSteps(h, 100, -1); got.Epochs != 15 {
+		t.Errorf("no minimum: %d epochs; want 15", got.Epochs)
 	}
 }

@@ -2,6 +2,7 @@ package pipeline
 
 import (
 	"fmt"
+	"math"
 	"math/rand/v2"
 	"sync/atomic"
 	"time"
@@ -127,6 +128,7 @@ func FitReported(cfg Config, train *datasets.Set, opts FitOptions) (*Model, FitR
 	rep.FeatureLen = k
 	rep.Features = time.Since(t0)
 
+	cfg.Head = withMinSteps(cfg.Head, train.N, cfg.HeadMinSteps)
 	t0 = time.Now()
 	head, hrep, err := cfg.Head.Fit(X, train.Labels, len(train.Classes), opts.Progress)
 	rep.Head = hrep
@@ -257,4 +259,41 @@ func run(n, workers int, prog learn.Progress, msg string, fn func(i int, w *work
 			prog.Step(int(done.Load()), n, msg)
 		}
 	}
+}
+
+// Defaults of learn.HeadConfig that withMinSteps needs to count steps (see
+// learn.HeadConfig: Batch 0 means 128, ValFrac 0 means 0.1, Epochs 0 means 30).
+const (
+	learnDefaultBatch   = 128
+	learnDefaultValFrac = 0.1
+	learnDefaultEpochs  = 30
+	maxHeadEpochs       = 1 << 16 // learn's limit on HeadConfig.Epochs
+)
+
+// withMinSteps raises h.Epochs so that training on n rows takes at least
+// minSteps minibatch steps (learn drops the last partial batch of an epoch).
+func withMinSteps(h learn.HeadConfig, n, minSteps int) learn.HeadConfig {
+	if minSteps <= 0 {
+		return h
+	}
+	batch, vf, epochs := h.Batch, h.ValFrac, h.Epochs
+	if batch == 0 {
+		batch = learnDefaultBatch
+	}
+	if vf == 0 {
+		vf = learnDefaultValFrac
+	}
+	if epochs == 0 {
+		epochs = learnDefaultEpochs
+	}
+	nVal := 0
+	if vf > 0 {
+		nVal = max(1, min(int(math.Round(vf*float64(n))), n-1))
+	}
+	nTrain := n - nVal
+	steps := max(1, nTrain/max(1, min(batch, nTrain)))
+	if need := (minSteps + steps - 1) / steps; need > epochs {
+		h.Epochs = min(need, maxHeadEpochs)
+	}
+	return h
 }

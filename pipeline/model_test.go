@@ -48,10 +48,11 @@ func firstN(s *datasets.Set, n int) *datasets.Set {
 // end, 2×2 average pooling, a softmax head for a few epochs.
 func quickConfig() Config {
 	return Config{
-		Templates: []learn.TemplateConfig{},
-		Pool:      PoolConfig{Size: 2},
-		Head:      learn.HeadConfig{Kind: learn.KindSoftmax, Epochs: 4},
-		Seed:      7,
+		Templates:    []learn.TemplateConfig{},
+		Pool:         PoolConfig{Size: 2},
+		Head:         learn.HeadConfig{Kind: learn.KindSoftmax, Epochs: 4},
+		HeadMinSteps: -1,
+		Seed:         7,
 	}
 }
 

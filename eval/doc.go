@@ -65,7 +65,12 @@
 // figures under figures/), one self-contained report.html with the same
 // figures embedded as data: URIs, and results.json. Tables are markdown
 // tables with a single header row; figures are drawn with gonum/plot, with
-// labelled axes and units.
+// labelled axes and units: confusion heat maps (row-normalised colour, raw
+// counts), per-class F1 bars, reliability diagrams, robustness panels (one
+// per perturbation, shared accuracy axis, Wilson error bars),
+// label-efficiency curves (log axis of labels per class), grating-invariance
+// bars and F1/F0, and the filter banks side by side (BankPanel, drawn with
+// AtomMosaic) with the Gabor-fit histograms of learned banks.
 //
 // # Checks against the outside world
 //

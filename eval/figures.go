@@ -269,13 +269,13 @@ func RobustnessFigure(curves []*Robustness) ([]byte, error) {
 		if s := curves[0].Series(kind); len(s) > 0 {
 			unit = s[len(s)-1].Unit
 		}
-		xl := kind + " level"
-		if unit != "" {
-			xl += " (" + unit + ")"
-		}
 		ptitle := kind
 		if t, ok := kindTitles[kind]; ok {
 			ptitle = t
+		}
+		xl := ptitle
+		if unit != "" {
+			xl += " (" + unit + ")"
 		}
 		p := newPlot(ptitle, xl, "accuracy (%)")
 		for mi, c := range curves {

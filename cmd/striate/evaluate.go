@@ -62,6 +62,9 @@ type evalOptions struct {
 	batch                      int
 }
 
+// pipeline.Model is what eval scores.
+var _ eval.Predictor = (*pipeline.Model)(nil)
+
 const dataFlagHelp = "test data `spec`: mnist or fashion (test split; mnist:train for the training split), " +
 	"a folder of MNIST-named IDX files (PATH or PATH:train), or a folder of images in one sub-folder per class"
 

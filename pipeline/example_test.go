@@ -5,6 +5,7 @@ import (
 	"image"
 	"image/color"
 	"math"
+	"os"
 
 	"github.com/striate/striate/datasets"
 	"github.com/striate/striate/learn"
@@ -68,4 +69,32 @@ func Example() {
 	// Output:
 	// features: 48 = 48
 	// class: vertical
+}
+
+// Load a fitted model and use it as a feature extractor: the vector Extract
+// returns can feed any other classifier or a nearest-neighbour index.
+func ExampleLoadFile() {
+	m, err := pipeline.LoadFile("../testdata/pipeline/small.stm")
+	if err != nil {
+		fmt.Println(err)
+		return
+	}
+	// The first MNIST test digit, stored as 28×28 bytes.
+	px, err := os.ReadFile("../testdata/pipeline/digits32.u8")
+	if err != nil {
+		fmt.Println(err)
+		return
+	}
+	img := image.NewGray(image.Rect(0, 0, 28, 28))
+	copy(img.Pix, px[:28*28])
+
+	feat := m.Extract(img)
+	class, probs := m.Predict(img)
+	fmt.Println("classes:", m.NumClasses())
+	fmt.Println("feature length:", len(feat), len(feat) == m.FeatureLen())
+	fmt.Printf("digit: %s (p = %.2f)\n", m.Classes()[class], probs[class])
+	// Output:
+	// classes: 10
+	// feature length: 710 true
+	// digit: 7 (p = 0.99)
 }

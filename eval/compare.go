@@ -30,6 +30,7 @@ func (c CompareConfig) withDefaults() CompareConfig {
 type Comparison struct {
 	NameA      string   `json:"a"`
 	NameB      string   `json:"b"`
+	Condition  string   `json:"condition,omitempty"` // test condition, e.g. "noise-0.2"; empty for clean images
 	N          int      `json:"n"`
 	AccuracyA  float64  `json:"accuracy_a"`
 	AccuracyB  float64  `json:"accuracy_b"`
@@ -145,4 +146,35 @@ func quantileSorted(x []float64, q float64) float64 {
 	}
 	f := pos - float64(i)
 	return x[i] + f*(x[i+1]-x[i])
+}
+
+// CompareRobustness compares two robustness sweeps of the same conditions
+// on the same test set (swept with the same Seed, so image i was perturbed
+// identically for both): one Comparison per perturbed condition, in sweep
+// order, with Condition set to the perturbation's label. Clean conditions
+// are skipped (compare those with Compare).
+func CompareRobustness(a, b *Robustness, labels []int, cfg CompareConfig) ([]*Comparison, error) {
+	if len(a.Points) != len(b.Points) {
+		return nil, fmt.Errorf("eval: robustness sweeps of %s and %s have %d and %d conditions; sweep both with the same conditions", a.Model, b.Model, len(a.Points), len(b.Points))
+	}
+	if a.Seed != b.Seed || a.Data != b.Data {
+		return nil, fmt.Errorf("eval: robustness sweeps of %s and %s used different data or seeds (%q/%d, %q/%d); pairs need the same perturbed images", a.Model, b.Model, a.Data, a.Seed, b.Data, b.Seed)
+	}
+	var out []*Comparison
+	for i, pa := range a.Points {
+		pb := b.Points[i]
+		if pa.Label != pb.Label {
+			return nil, fmt.Errorf("eval: condition %d is %s for %s but %s for %s", i, pa.Label, a.Model, pb.Label, b.Model)
+		}
+		if pa.Label == "clean" {
+			continue
+		}
+		c, err := Compare(a.Model, b.Model, labels, pa.Pred, pb.Pred, cfg)
+		if err != nil {
+			return nil, fmt.Errorf("eval: under %s: %w", pa.Label, err)
+		}
+		c.Condition = pa.Label
+		out = append(out, c)
+	}
+	return out, nil
 }

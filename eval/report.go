@@ -340,9 +340,13 @@ func buildDoc(r *Report) ([]block, error) {
 		add(headBlock{2, "Paired comparisons"})
 		add(paraBlock{"Same test images for both models. only_a / only_b count the images only one of them gets right; " +
 			"p is the exact two-sided McNemar test on those discordant pairs; the difference (a − b) has a paired bootstrap percentile interval."})
-		t := tableBlock{header: []string{"a", "b", "n", "accuracy_a", "accuracy_b", "diff", "diff_ci_low", "diff_ci_high", "only_a", "only_b", "mcnemar_p", "resamples"}}
+		t := tableBlock{header: []string{"a", "b", "condition", "n", "accuracy_a", "accuracy_b", "diff", "diff_ci_low", "diff_ci_high", "only_a", "only_b", "mcnemar_p", "resamples"}}
 		for _, c := range r.Comparisons {
-			t.rows = append(t.rows, []string{c.NameA, c.NameB, fmt.Sprint(c.N), f4(c.AccuracyA), f4(c.AccuracyB), f4(c.Diff),
+			cond := c.Condition
+			if cond == "" {
+				cond = "clean"
+			}
+			t.rows = append(t.rows, []string{c.NameA, c.NameB, cond, fmt.Sprint(c.N), f4(c.AccuracyA), f4(c.AccuracyB), f4(c.Diff),
 				f4(c.DiffCI.Lo), f4(c.DiffCI.Hi), fmt.Sprint(c.OnlyA), fmt.Sprint(c.OnlyB), fmt.Sprintf("%.4g", c.PValue), fmt.Sprint(c.Resamples)})
 		}
 		add(t)

@@ -76,3 +76,33 @@ func TestRobustnessErrors(t *testing.T) {
 }
 
 func normalCDF(x float64) float64 { return distuv.UnitNormal.CDF(x) }
+
+func TestCompareRobustness(t *testing.T) {
+	test := twoLevelData(600, 4, 4, 0.02)
+	conds := []Condition{{Kind: "noise", Level: 0}, {Kind: "noise", Level: 0.1, P: noiseP{0.1}}, {Kind: "noise", Level: 0.3, P: noiseP{0.3}}}
+	a, err := RobustnessSweep("a", meanPredictor{0.5}, test, conds, RobustnessConfig{Seed: 2})
+	if err != nil {
+		t.Fatal(err)
+	}
+	b, err := RobustnessSweep("b", meanPredictor{0.51}, test, conds, RobustnessConfig{Seed: 2})
+	if err != nil {
+		t.Fatal(err)
+	}
+	cs, err := CompareRobustness(a, b, test.Labels, CompareConfig{Seed: 1})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(cs) != 2 || cs[0].Condition != "noise-0.1" || cs[1].Condition != "noise-0.3" {
+		t.Fatalf("comparisons %+v; want the two noisy conditions", cs)
+	}
+	for i, c := range cs {
+		p := a.Points[i+1]
+		if c.AccuracyA != p.Accuracy || c.AccuracyB != b.Points[i+1].Accuracy {
+			t.Errorf("%s: accuracies %g %g; sweeps say %g %g", c.Condition, c.AccuracyA, c.AccuracyB, p.Accuracy, b.Points[i+1].Accuracy)
+		}
+	}
+	other, _ := RobustnessSweep("c", meanPredictor{0.5}, test, conds, RobustnessConfig{Seed: 3})
+	if _, err := CompareRobustness(a, other, test.Labels, CompareConfig{}); err == nil {
+		t.Error("sweeps with different seeds compared pair-wise")
+	}
+}

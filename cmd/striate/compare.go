@@ -122,6 +122,16 @@ func runCompare(g *globals, spec, pathA, pathB string, resamples int, robust str
 			}
 			rep.Robustness = append(rep.Robustness, rb)
 		}
+		under, err := eval.CompareRobustness(rep.Robustness[0], rep.Robustness[1], data.Labels, eval.CompareConfig{Resamples: resamples, Seed: g.seed})
+		if err != nil {
+			return err
+		}
+		fmt.Fprintln(g.stdout, "\nunder perturbation (same perturbed images for both):")
+		for _, c := range under {
+			fmt.Fprintf(g.stdout, "  %-14s %s %.2f%%  %s %.2f%%  diff %+.2f (%+.2f to %+.2f)  McNemar p = %.3g\n",
+				c.Condition, nameA, 100*c.AccuracyA, nameB, 100*c.AccuracyB, 100*c.Diff, 100*c.DiffCI.Lo, 100*c.DiffCI.Hi, c.PValue)
+		}
+		rep.Comparisons = append(rep.Comparisons, under...)
 	}
 	for _, mm := range []struct {
 		name string

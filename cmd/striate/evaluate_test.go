@@ -323,7 +323,7 @@ func TestCLIExtractShardsMerge(t *testing.T) {
 func TestCLICompare(t *testing.T) {
 	cliFixture(t)
 	out := filepath.Join(t.TempDir(), "cmp")
-	r := mustRun(t, 0, "compare", "--data", cliTest, "--out", out, "--seed", "3", cliModelA, cliModelB)
+	r := mustRun(t, 0, "compare", "--data", cliTest, "--out", out, "--seed", "3", "--robust", "quick", cliModelA, cliModelB)
 	if !strings.Contains(r.stdout, "exact McNemar p =") || !strings.Contains(r.stdout, "paired bootstrap") {
 		t.Errorf("compare printed:\n%s", r.stdout)
 	}
@@ -335,8 +335,9 @@ func TestCLICompare(t *testing.T) {
 	if err := json.Unmarshal(b, &res); err != nil {
 		t.Fatal(err)
 	}
-	if len(res.Comparisons) != 1 || len(res.Models) != 2 {
-		t.Fatalf("results.json: %d comparisons, %d models; want 1 and 2", len(res.Comparisons), len(res.Models))
+	// Clean images, then each perturbed condition of the quick sweep.
+	if len(res.Comparisons) < 10 || len(res.Models) != 2 || res.Comparisons[0].Condition != "" || res.Comparisons[1].Condition == "" {
+		t.Fatalf("results.json: %d comparisons, %d models; want clean + per-condition comparisons of 2 models", len(res.Comparisons), len(res.Models))
 	}
 	c := res.Comparisons[0]
 	if c.N != cliTestSet.N || c.PValue < 0 || c.PValue > 1 || c.PValue != eval.McNemarExact(c.OnlyA, c.OnlyB) {

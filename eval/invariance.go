@@ -11,6 +11,31 @@ import (
 // (*v1layer.FrontEnd).Apply has this signature. It must size dst itself.
 type MapsFunc func(dst *v1layer.Maps, img []float32, h, w int)
 
+// FlatMaps adapts an extractor that returns a flat channel-major vector of
+// channels equal planes (such as a feature extractor without metadata) to a
+// MapsFunc. Each plane is mapH×mapW; with mapH = mapW = 0 the planes are
+// taken as square. The returned MapsFunc panics if the vector does not
+// split that way (a programmer error in the extractor or the sizes).
+func FlatMaps(extract func(img []float32, h, w int) []float32, channels, mapH, mapW int) MapsFunc {
+	return func(dst *v1layer.Maps, img []float32, h, w int) {
+		v := extract(img, h, w)
+		if channels < 1 || len(v)%channels != 0 {
+			panic(fmt.Sprintf("eval: FlatMaps: %d values do not split into %d channels", len(v), channels))
+		}
+		plane := len(v) / channels
+		mh, mw := mapH, mapW
+		if mh == 0 && mw == 0 {
+			mh = int(math.Round(math.Sqrt(float64(plane))))
+			mw = mh
+		}
+		if mh*mw != plane {
+			panic(fmt.Sprintf("eval: FlatMaps: planes of %d values are not %d×%d", plane, mh, mw))
+		}
+		dst.Resize(channels, mh, mw)
+		copy(dst.Pix, v)
+	}
+}
+
 // InvarianceConfig sets up the grating probe of Invariance. The zero value
 // means the defaults beside each field.
 type InvarianceConfig struct {

@@ -179,3 +179,28 @@ func TestInvarianceFrontEnd(t *testing.T) {
 		t.Skip("default front end has no energy channels")
 	}
 }
+
+// TestFlatMapsMatchesMaps: the flat-vector adapter gives the probe the same
+// maps, hence the same answers.
+func TestFlatMapsMatchesMaps(t *testing.T) {
+	f := fakeCells(8)
+	flat := func(img []float32, h, w int) []float32 {
+		var m v1layer.Maps
+		f(&m, img, h, w)
+		return append([]float32(nil), m.Pix...)
+	}
+	cfg := InvarianceConfig{Size: 24, Wavelengths: []float64{8}, Orientations: 2, Phases: 8}
+	a, err := Invariance(f, cfg)
+	if err != nil {
+		t.Fatal(err)
+	}
+	b, err := Invariance(FlatMaps(flat, 4, 0, 0), cfg)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for i := range a {
+		if a[i] != b[i] {
+			t.Errorf("channel %d: %+v via Maps, %+v via FlatMaps", i, a[i], b[i])
+		}
+	}
+}

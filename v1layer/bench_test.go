@@ -62,3 +62,35 @@ func BenchmarkFrontEnd(b *testing.B) {
 		}
 	}
 }
+
+// BenchmarkStage times the stages of the default front end separately:
+// "pad" (copying into the padded plane), "responses" (all 18
+// correlations), "complex+pool" (rectification, energy and pooling).
+func BenchmarkStage(b *testing.B) {
+	f, err := New(Config{})
+	if err != nil {
+		b.Fatal(err)
+	}
+	for _, sz := range []int{28, 256} {
+		img := benchImages(1, sz, sz)[0]
+		s := f.getScratch(sz, sz)
+		var dst Maps
+		c, oh, ow, _ := f.OutShape(sz, sz)
+		dst.Resize(c, oh, ow)
+		f.apply(&dst, img, sz, sz, s)
+		run := func(name string, fn func()) {
+			b.Run(fmt.Sprintf("%s/%dx%d", name, sz, sz), func(b *testing.B) {
+				b.ReportAllocs()
+				start := time.Now()
+				for i := 0; i < b.N; i++ {
+					fn()
+				}
+				b.ReportMetric(float64(b.N)/time.Since(start).Seconds(), "img/s")
+			})
+		}
+		run("pad", func() { padImage(s.es.pad, img, sz, sz, f.maxR, s.es.pw, BorderZero) })
+		run("responses", func() { f.eng.responses(s.resp, img, sz, sz, BorderZero, s.es) })
+		run("complex+pool", func() { f.post(&dst, sz, sz, s) })
+		sinkMaps = dst
+	}
+}

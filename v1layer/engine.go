@@ -81,7 +81,11 @@ func (e *engine) responses(resp [][]float32, img []float32, h, w int, b Border, 
 				if b == BorderReflect {
 					y0, y1 = R-q.r, R+h+q.r
 				}
-				for py := y0; py < y1; py++ {
+				py := y0
+				for ; py+2 <= y1; py += 2 {
+					hsum2(pl[py*pw+R:], pl[(py+1)*pw+R:], nx, srcs, taps, py*pw+R-q.r, (py+1)*pw+R-q.r)
+				}
+				if py < y1 {
 					hsum(pl[py*pw+R:], nx, srcs, taps, py*pw+R-q.r)
 				}
 			} else {
@@ -89,7 +93,12 @@ func (e *engine) responses(resp [][]float32, img []float32, h, w int, b Border, 
 				if b == BorderReflect {
 					c0, nc = R-q.r, roundUp(w+2*q.r, 8)
 				}
-				for y := 0; y < h; y++ {
+				y := 0
+				for ; y+2 <= h; y += 2 {
+					py := R + y
+					vsum2(pl[py*pw+c0:], pl[(py+1)*pw+c0:], nc, srcs, taps, (py-q.r)*pw+c0, pw)
+				}
+				if y < h {
 					py := R + y
 					vsum(pl[py*pw+c0:], nc, srcs, taps, (py-q.r)*pw+c0, pw)
 				}
@@ -104,12 +113,21 @@ func (e *engine) responses(resp [][]float32, img []float32, h, w int, b Border, 
 			}
 			out := resp[ki]
 			r := kp.r
+			// Rows in increasing order: each row's overrun past w lands
+			// in the next row, which is written afterwards.
+			y := 0
 			if kp.vertical2 {
-				for y := 0; y < h; y++ {
+				for ; y+2 <= h; y += 2 {
+					vsum2(out[y*w:], out[(y+1)*w:], nx, srcs, taps, (R+y-r)*pw+R, pw)
+				}
+				if y < h {
 					vsum(out[y*w:], nx, srcs, taps, (R+y-r)*pw+R, pw)
 				}
 			} else {
-				for y := 0; y < h; y++ {
+				for ; y+2 <= h; y += 2 {
+					hsum2(out[y*w:], out[(y+1)*w:], nx, srcs, taps, (R+y)*pw+R-r, (R+y+1)*pw+R-r)
+				}
+				if y < h {
 					hsum(out[y*w:], nx, srcs, taps, (R+y)*pw+R-r)
 				}
 			}
@@ -185,11 +203,26 @@ func vsumGo(dst []float32, n int, srcs, taps [][]float32, off, stride int) {
 	}
 }
 
+// hsum2Go and vsum2Go run two rows: the second row's sources start at
+// off1 (hsum) or one stride further down (vsum). dst0's overrun past the
+// image width may overlap the start of dst1, so dst0 is written first.
+func hsum2Go(dst0, dst1 []float32, n int, srcs, taps [][]float32, off0, off1 int) {
+	hsumGo(dst0, n, srcs, taps, off0)
+	hsumGo(dst1, n, srcs, taps, off1)
+}
+
+func vsum2Go(dst0, dst1 []float32, n int, srcs, taps [][]float32, off, stride int) {
+	vsumGo(dst0, n, srcs, taps, off, stride)
+	vsumGo(dst1, n, srcs, taps, off+stride, stride)
+}
+
 // The inner loops in use; a SIMD build replaces them at init when the CPU
 // supports it (see conv_simd_amd64.go).
 var (
-	hsum = hsumGo
-	vsum = vsumGo
+	hsum  = hsumGo
+	vsum  = vsumGo
+	hsum2 = hsum2Go
+	vsum2 = vsum2Go
 )
 
 var build = "plain (portable Go loops)"

@@ -305,8 +305,15 @@ func (f *FrontEnd) Apply(dst *Maps, img []float32, h, w int) {
 
 func (f *FrontEnd) apply(dst *Maps, img []float32, h, w int, s *scratch) {
 	cfg := &f.cfg
-	n := h * w
 	f.eng.responses(s.resp, img, h, w, cfg.Border, s.es)
+	f.post(dst, h, w, s)
+}
+
+// post runs everything after the correlations: rectification, energy,
+// contrast and divisive normalisation, end-stopping, pooling.
+func (f *FrontEnd) post(dst *Maps, h, w int, s *scratch) {
+	cfg := &f.cfg
+	n := h * w
 	for i := range f.stage {
 		sc := &f.stage[i]
 		m := s.maps[i]

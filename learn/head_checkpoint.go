@@ -162,7 +162,7 @@ func (c *HeadCheckpoint) UnmarshalBinary(data []byte) error {
 	}
 	length := func(size int) int {
 		v := u64()
-		if err == nil && (v > headCkptMaxLen || int(v)*size > len(body)-off) {
+		if err == nil && (v > headCkptMaxLen || v*uint64(size) > uint64(len(body)-off)) {
 			err = &HeadCheckpointError{off - 8, fmt.Sprintf("length %d exceeds the %d bytes left", v, len(body)-off)}
 		}
 		if err != nil {

@@ -53,10 +53,10 @@ func NewHeadFromTensors(ts []NamedTensor) (*Head, error) {
 			if s < 1 || s > 1<<24 {
 				return nil, fmt.Errorf("learn: head tensor %q: dimension %d outside [1, %d]", t.Name, s, 1<<24)
 			}
-			n *= s
-			if n > 1<<30 {
-				return nil, fmt.Errorf("learn: head tensor %q: shape %v too large", t.Name, t.Shape)
+			if n > (1<<30)/s { // checked before multiplying: no overflow on 32-bit int
+				return nil, fmt.Errorf("learn: head tensor %q: shape %v has more than 2^30 values", t.Name, t.Shape)
 			}
+			n *= s
 		}
 		if len(t.Data) != n {
 			return nil, fmt.Errorf("learn: head tensor %q: shape %v needs %d values, has %d", t.Name, t.Shape, n, len(t.Data))

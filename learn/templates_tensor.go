@@ -42,6 +42,9 @@ func NewTemplatesFromTensors(cfg TemplateConfig, ts []NamedTensor) (*Templates, 
 			if s < 1 || s > maxPatchDim {
 				return nil, fmt.Errorf("learn: template tensor %q: dimension %d outside [1, %d]", t.Name, s, maxPatchDim)
 			}
+			if n > maxPatchDim*maxPatchDim/s { // the whitening matrix is the largest tensor
+				return nil, fmt.Errorf("learn: template tensor %q: shape %v has more than %d values", t.Name, t.Shape, maxPatchDim*maxPatchDim)
+			}
 			n *= s
 		}
 		if len(t.Data) != n {

@@ -89,14 +89,7 @@ func runMainJob(g *globals, d *demoData, quick bool) error {
 		if sz.trainPerClass > 0 {
 			train = train.Subset(datasets.PerClass(train.Labels, sz.trainPerClass, g.seed))
 		}
-		test := dp.test
-		if sz.test > 0 && sz.test < test.N {
-			idx := make([]int, sz.test)
-			for i := range idx {
-				idx[i] = i
-			}
-			test = test.Subset(idx)
-		}
+		test := firstN(dp.test, sz.test)
 		td := eval.FromSet(test)
 		rep.Data = append(rep.Data, eval.Provenance{Name: dp.test.Name, Source: dp.test.Source, Train: train.N, Test: test.N,
 			H: test.H, W: test.W, Classes: test.Classes})
@@ -174,14 +167,7 @@ func runMainJob(g *globals, d *demoData, quick bool) error {
 
 	// Label efficiency on MNIST: the unsupervised stages see the whole
 	// training split without labels; the head sees only the budget.
-	mt := d.mnistTest
-	if sz.test > 0 && sz.test < mt.N {
-		idx := make([]int, sz.test)
-		for i := range idx {
-			idx[i] = i
-		}
-		mt = mt.Subset(idx)
-	}
+	mt := firstN(d.mnistTest, sz.test)
 	mtd := eval.FromSet(mt)
 	hand := specs[0]
 	fmt.Fprintf(w, "label efficiency of %s on MNIST: %v labels per class\n", hand.name, sz.labelBudgets)
@@ -255,4 +241,17 @@ func addBankFigures(rep *eval.Report, learned *pipeline.Model, frep pipeline.Fit
 		eval.Figure{Name: "bank-learned-fits", Title: "Gabor fits of the learned atoms", PNG: hist,
 			Caption: "Orientation, spatial-frequency bandwidth (octaves) and orientation bandwidth (degrees) of the fitted atoms."})
 	return nil
+}
+
+// firstN returns the first n images of s (all of them when n is 0 or at
+// least s.N): a fixed, unshuffled prefix of a published test split.
+func firstN(s *datasets.Set, n int) *datasets.Set {
+	if n <= 0 || n >= s.N {
+		return s
+	}
+	idx := make([]int, n)
+	for i := range idx {
+		idx[i] = i
+	}
+	return s.Subset(idx)
 }

@@ -39,14 +39,14 @@ func hsumSIMD(dst []float32, n int, srcs, taps [][]float32, off int) {
 	for ; x+32 <= n; x += 32 {
 		var a0, a1, a2, a3 archsimd.Float32x8
 		for t, tp := range taps {
-			p := unsafe.Pointer(&srcs[t][off+x])
-			for _, c := range tp {
+			base := unsafe.Pointer(&srcs[t][off+x])
+			for u, c := range tp {
+				p := unsafe.Add(base, 4*u)
 				cv := archsimd.BroadcastFloat32x8(c)
 				a0 = ld(p).MulAdd(cv, a0)
 				a1 = ld(unsafe.Add(p, 32)).MulAdd(cv, a1)
 				a2 = ld(unsafe.Add(p, 64)).MulAdd(cv, a2)
 				a3 = ld(unsafe.Add(p, 96)).MulAdd(cv, a3)
-				p = unsafe.Add(p, 4)
 			}
 		}
 		q := unsafe.Add(d, 4*x)
@@ -58,10 +58,9 @@ func hsumSIMD(dst []float32, n int, srcs, taps [][]float32, off int) {
 	for ; x < n; x += 8 {
 		var a0 archsimd.Float32x8
 		for t, tp := range taps {
-			p := unsafe.Pointer(&srcs[t][off+x])
-			for _, c := range tp {
-				a0 = ld(p).MulAdd(archsimd.BroadcastFloat32x8(c), a0)
-				p = unsafe.Add(p, 4)
+			base := unsafe.Pointer(&srcs[t][off+x])
+			for u, c := range tp {
+				a0 = ld(unsafe.Add(base, 4*u)).MulAdd(archsimd.BroadcastFloat32x8(c), a0)
 			}
 		}
 		st(unsafe.Add(d, 4*x), a0)
@@ -84,14 +83,14 @@ func vsumSIMD(dst []float32, n int, srcs, taps [][]float32, off, stride int) {
 	for ; x+32 <= n; x += 32 {
 		var a0, a1, a2, a3 archsimd.Float32x8
 		for t, tp := range taps {
-			p := unsafe.Pointer(&srcs[t][off+x])
-			for _, c := range tp {
+			base := unsafe.Pointer(&srcs[t][off+x])
+			for k, c := range tp {
+				p := unsafe.Add(base, uintptr(k)*rs)
 				cv := archsimd.BroadcastFloat32x8(c)
 				a0 = ld(p).MulAdd(cv, a0)
 				a1 = ld(unsafe.Add(p, 32)).MulAdd(cv, a1)
 				a2 = ld(unsafe.Add(p, 64)).MulAdd(cv, a2)
 				a3 = ld(unsafe.Add(p, 96)).MulAdd(cv, a3)
-				p = unsafe.Add(p, rs)
 			}
 		}
 		q := unsafe.Add(d, 4*x)
@@ -103,10 +102,9 @@ func vsumSIMD(dst []float32, n int, srcs, taps [][]float32, off, stride int) {
 	for ; x < n; x += 8 {
 		var a0 archsimd.Float32x8
 		for t, tp := range taps {
-			p := unsafe.Pointer(&srcs[t][off+x])
-			for _, c := range tp {
-				a0 = ld(p).MulAdd(archsimd.BroadcastFloat32x8(c), a0)
-				p = unsafe.Add(p, rs)
+			base := unsafe.Pointer(&srcs[t][off+x])
+			for k, c := range tp {
+				a0 = ld(unsafe.Add(base, uintptr(k)*rs)).MulAdd(archsimd.BroadcastFloat32x8(c), a0)
 			}
 		}
 		st(unsafe.Add(d, 4*x), a0)
@@ -247,9 +245,10 @@ func hsum2SIMD(dst0, dst1 []float32, n int, srcs, taps [][]float32, off0, off1 i
 	for x := n32 - 32; x >= 0; x -= 32 {
 		var a0, a1, a2, a3, b0, b1, b2, b3 archsimd.Float32x8
 		for t, tp := range taps {
-			p := unsafe.Pointer(&srcs[t][off0+x])
-			q := unsafe.Pointer(&srcs[t][off1+x])
-			for _, c := range tp {
+			pb := unsafe.Pointer(&srcs[t][off0+x])
+			qb := unsafe.Pointer(&srcs[t][off1+x])
+			for u, c := range tp {
+				p, q := unsafe.Add(pb, 4*u), unsafe.Add(qb, 4*u)
 				cv := archsimd.BroadcastFloat32x8(c)
 				a0 = ld(p).MulAdd(cv, a0)
 				b0 = ld(q).MulAdd(cv, b0)
@@ -259,8 +258,6 @@ func hsum2SIMD(dst0, dst1 []float32, n int, srcs, taps [][]float32, off0, off1 i
 				b2 = ld(unsafe.Add(q, 64)).MulAdd(cv, b2)
 				a3 = ld(unsafe.Add(p, 96)).MulAdd(cv, a3)
 				b3 = ld(unsafe.Add(q, 96)).MulAdd(cv, b3)
-				p = unsafe.Add(p, 4)
-				q = unsafe.Add(q, 4)
 			}
 		}
 		r := unsafe.Add(d0, 4*x)

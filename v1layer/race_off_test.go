@@ -1,0 +1,5 @@
+//go:build !race
+
+package v1layer
+
+const raceOn = false

@@ -4,6 +4,7 @@ import (
 	"encoding/json"
 	"flag"
 	"fmt"
+	"math"
 	"os"
 	"path/filepath"
 	"time"
@@ -20,14 +21,17 @@ func init() {
 		usage:   "",
 		example: `  striate learn --out bank/                       # 256 atoms of 16×16, writes bank.json, atoms.png, bank_hist.png
   striate learn --quick --out /tmp/bank           # a small, fast run (for tests and a first look)
-  striate learn --atoms 192 --lambda 1 --eps 0.01 --epochs 8 --out bank192/`,
+  striate learn --atoms 192 --epochs 8 --out bank192/
+  striate learn --whiten zca --eps 0.01 --lambda 1 --out bank-zca/   # ZCA-whitened patches instead`,
 		setup: func(fs *flag.FlagSet, g *globals) func([]string) error {
 			quick := fs.Bool("quick", false, "small fast run: 64 atoms of 8×8 from 5,000 patches, 2 passes")
 			atoms := fs.Int("atoms", 256, "dictionary atoms K")
 			size := fs.Int("size", 16, "patch side in pixels (atoms are size×size)")
 			patches := fs.Int("patches", 50000, "training patches sampled from the photos")
-			lambda := fs.Float64("lambda", 1, "sparsity weight λ in ½‖x − Dᵀa‖² + λ‖a‖₁")
-			eps := fs.Float64("eps", 0.01, "ZCA whitening regulariser ε (squared [0,1] pixel units)")
+			lambda := fs.Float64("lambda", 2, "sparsity weight λ in ½‖x − Dᵀa‖² + λ‖a‖₁ (patches have unit pixel variance with --whiten of)")
+			whiten := fs.String("whiten", "of", "whitening: `of` (Olshausen & Field's f·exp(−(f/f0)⁴) filter on the photos) or zca (on the patches)")
+			f0 := fs.Float64("f0", 0.25, "cut-off of the of filter, cycles/pixel")
+			eps := fs.Float64("eps", 0.01, "ZCA regulariser ε (squared [0,1] pixel units), with --whiten zca")
 			epochs := fs.Int("epochs", 6, "passes over the training patches")
 			batch := fs.Int("batch", 256, "minibatch size")
 			g.addSeed(fs)
@@ -38,6 +42,9 @@ func init() {
 				if len(args) > 0 {
 					return usagef("unexpected argument %q (learn takes flags only)", args[0])
 				}
+				if *whiten != "of" && *whiten != "zca" {
+					return usagef("--whiten %q; want of or zca", *whiten)
+				}
 				if *quick {
 					*atoms, *size, *patches, *epochs = 64, 8, 5000, 2
 				}
@@ -45,7 +52,8 @@ func init() {
 					return usagef("--atoms %d, --size %d, --patches %d, --epochs %d, --batch %d: want atoms ≥ 1, size ≥ 3, patches ≥ atoms, epochs ≥ 1, batch ≥ 1",
 						*atoms, *size, *patches, *epochs, *batch)
 				}
-				return runLearn(g, learnArgs{atoms: *atoms, size: *size, patches: *patches, lambda: *lambda, eps: *eps, epochs: *epochs, batch: *batch})
+				return runLearn(g, learnArgs{atoms: *atoms, size: *size, patches: *patches, lambda: *lambda,
+					whiten: *whiten, f0: *f0, eps: *eps, epochs: *epochs, batch: *batch})
 			}
 		},
 	})
@@ -53,7 +61,8 @@ func init() {
 
 type learnArgs struct {
 	atoms, size, patches, epochs, batch int
-	lambda, eps                         float64
+	lambda, f0, eps                     float64
+	whiten                              string
 }
 
 func runLearn(g *globals, a learnArgs) error {
@@ -61,16 +70,36 @@ func runLearn(g *globals, a learnArgs) error {
 	if err != nil {
 		return err
 	}
-	p, err := datasets.SamplePatches(photos, datasets.PatchConfig{Size: a.size, Count: a.patches, Seed: g.seed})
+	border := 0
+	if a.whiten == "of" {
+		photos = datasets.WhitenPhotos(photos, a.f0)
+		border = 8 // the periodic filter's edge artefacts
+	}
+	p, err := datasets.SamplePatches(photos, datasets.PatchConfig{Size: a.size, Count: a.patches, Seed: g.seed, Border: border})
 	if err != nil {
 		return err
 	}
 	p.RemoveMean()
-	z, err := datasets.FitZCA(p, a.eps)
-	if err != nil {
-		return err
+	if a.whiten == "of" {
+		// unit pixel variance, so that λ means the same for any photo set
+		var ss float64
+		for _, v := range p.Pix {
+			ss += float64(v) * float64(v)
+		}
+		if ss == 0 {
+			return fmt.Errorf("the whitened patches are all zero")
+		}
+		s := float32(1 / math.Sqrt(ss/float64(len(p.Pix))))
+		for i := range p.Pix {
+			p.Pix[i] *= s
+		}
+	} else {
+		z, err := datasets.FitZCA(p, a.eps)
+		if err != nil {
+			return err
+		}
+		z.Apply(p)
 	}
-	z.Apply(p)
 	cfg := learn.DictConfig{Atoms: a.atoms, Lambda: a.lambda, BatchSize: a.batch, Epochs: a.epochs, Seed: g.seed, Workers: g.workers}
 	steps := a.epochs * ((a.patches + a.batch - 1) / a.batch)
 	bar := g.newProgress(steps, "learn")
@@ -108,8 +137,12 @@ func runLearn(g *globals, a learnArgs) error {
 		}
 	}
 	w := g.stdout
-	fmt.Fprintf(w, "learned %d atoms of %d×%d from %d patches (λ %g, ZCA ε %g, %d passes) in %.1fs\n",
-		a.atoms, a.size, a.size, a.patches, a.lambda, a.eps, a.epochs, fitTime.Seconds())
+	wh := fmt.Sprintf("whitening %s f0 %g", a.whiten, a.f0)
+	if a.whiten == "zca" {
+		wh = fmt.Sprintf("ZCA ε %g", a.eps)
+	}
+	fmt.Fprintf(w, "learned %d atoms of %d×%d from %d patches (λ %g, %s, %d passes) in %.1fs\n",
+		a.atoms, a.size, a.size, a.patches, a.lambda, wh, a.epochs, fitTime.Seconds())
 	fmt.Fprintf(w, "Gabor-like (fit R² ≥ %.1f): %d of %d (%.1f%%), median R² %.3f\n",
 		learn.GaborLikeR2, rep.GaborLike, len(rep.Fits), 100*rep.FracGaborLike, rep.MedianR2)
 	fmt.Fprintf(w, "orientation quadrants 0-45-90-135-180°: %v\n", rep.Quadrants)

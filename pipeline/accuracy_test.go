@@ -155,21 +155,70 @@ func checkTargets(t *testing.T, name string, got map[string]float64, conds []con
 	}
 }
 
+// handClean records the hand-set clean accuracies of this run, so that the
+// learned front end's figures can be printed beside them.
+var handClean = map[string]float64{}
+
 func TestAccuracyMNIST(t *testing.T) {
 	longRuns(t, "mnist")
 	train, test := loadPair(t, false)
 	got := fitAndScore(t, "mnist hand-set", accConfig(t), train, test, pipeline.FitOptions{}, conditions)
+	handClean["mnist"] = got["clean"]
 	// Target of issue 5: ≥ 99.4% on the 10,000 test digits.
 	checkTargets(t, "mnist hand-set", got, conditions, false, 0.994)
 }
 
+// fashionConditions are the conditions with a CNN baseline on
+// Fashion-MNIST (the full sweep runs on MNIST; this keeps CI lean).
+var fashionConditions = func() []condition {
+	var out []condition
+	for _, c := range conditions {
+		if c.name == "clean" || c.fashion > 0 {
+			out = append(out, c)
+		}
+	}
+	return out
+}()
+
 func TestAccuracyFashion(t *testing.T) {
 	longRuns(t, "fashion")
 	train, test := loadPair(t, true)
-	got := fitAndScore(t, "fashion hand-set", accConfig(t), train, test, pipeline.FitOptions{}, conditions)
+	got := fitAndScore(t, "fashion hand-set", accConfig(t), train, test, pipeline.FitOptions{}, fashionConditions)
+	handClean["fashion"] = got["clean"]
 	// Target of issue 5: ≥ 92.0% (best scikit-learn classifier in Xiao et
 	// al. 2017: 89.7%; HOG + SVM in the dataset's README: 92.6%).
-	checkTargets(t, "fashion hand-set", got, conditions, true, 0.920)
+	checkTargets(t, "fashion hand-set", got, fashionConditions, true, 0.920)
+}
+
+// TestAccuracyLearned fits the same pipeline with the simple-cell bank
+// learned from the shipped photos (Config.LearnBank) and prints its clean
+// accuracy beside the hand-set one. Floors: the learned bank must stay
+// within learnedSlack of the hand-set figure of the same run, or, when the
+// hand-set run was skipped, above a fixed floor (MNIST 98.0%, one point
+// under issue 5's CNN figure of 99.0%; Fashion 89.7%, the best scikit-learn
+// classifier of Xiao et al. 2017).
+func TestAccuracyLearned(t *testing.T) {
+	longRuns(t, "learned")
+	// learnedSlack: a learned bank of 24 atoms is not tuned like the
+	// hand-set one; one point of accuracy is the most we accept to lose.
+	const learnedSlack = 0.01
+	floors := map[string]float64{"mnist": 0.980, "fashion": 0.897}
+	for _, name := range []string{"mnist", "fashion"} {
+		train, test := loadPair(t, name == "fashion")
+		cfg := accConfig(t)
+		if cfg.LearnBank == nil {
+			cfg.LearnBank = &pipeline.LearnBankConfig{}
+		}
+		got := fitAndScore(t, name+" learned", cfg, train, test, pipeline.FitOptions{}, conditions[:1])
+		floor := floors[name]
+		if h, ok := handClean[name]; ok {
+			t.Logf("%s: hand-set %.2f%%, learned %.2f%%", name, 100*h, 100*got["clean"])
+			floor = h - learnedSlack
+		}
+		if got["clean"] < floor {
+			t.Errorf("%s learned front end: %.2f%%; want ≥ %.2f%%", name, 100*got["clean"], 100*floor)
+		}
+	}
 }
 
 // TestLabelEfficiency fits the unsupervised stages on all 60,000 training

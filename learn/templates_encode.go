@@ -4,9 +4,6 @@ import (
 	"fmt"
 	"math"
 
-	"gonum.org/v1/gonum/blas"
-	"gonum.org/v1/gonum/blas/blas32"
-
 	"github.com/striate/striate/v1layer"
 )
 
@@ -166,14 +163,8 @@ func (t *Templates) features(s *tmplScratch, m *v1layer.Maps) (oh, ow int) {
 	s.r = grow(s.r, np*k)
 	F := t.Features()
 	s.f = grow(s.f, np*F)
-	gemmNT := func(c, a, b []float32, rows, inner, cols int) {
-		blas32.Gemm(blas.NoTrans, blas.Trans, 1,
-			blas32.General{Rows: rows, Cols: inner, Stride: inner, Data: a},
-			blas32.General{Rows: cols, Cols: inner, Stride: inner, Data: b},
-			0, blas32.General{Rows: rows, Cols: cols, Stride: cols, Data: c})
-	}
 	if t.cfg.Encoder == EncodeSoft {
-		gemmNT(s.r, s.p, t.filt, np, dim, k)
+		gemmNT(s.r, s.p, t.filt, np, k, dim)
 		a := t.alpha
 		for i := 0; i < np; i++ {
 			r, f := s.r[i*k:(i+1)*k], s.f[i*F:(i+1)*F]
@@ -186,9 +177,9 @@ func (t *Templates) features(s *tmplScratch, m *v1layer.Maps) (oh, ow int) {
 	}
 	// Triangle: u = W(x̂ − μ)/||W(x̂ − μ)||, z_j = ||u − t_j|| = sqrt(2 − 2·u·t_j).
 	s.pw = grow(s.pw, np*dim)
-	gemmNT(s.pw, s.p, t.whiten, np, dim, dim) // W symmetric: (x·Wᵀ) = x·W
+	gemmNT(s.pw, s.p, t.whiten, np, dim, dim) // W symmetric: x·Wᵀ = x·W
 	unitRows(s.pw, dim)
-	gemmNT(s.r, s.pw, t.cent, np, dim, k)
+	gemmNT(s.r, s.pw, t.cent, np, k, dim)
 	for i := 0; i < np; i++ {
 		r, f := s.r[i*k:(i+1)*k], s.f[i*F:(i+1)*F]
 		var mz float64

@@ -150,10 +150,7 @@ func sphericalKMeans(X []float32, n, dim, k, iters int, init []float32, rng *ran
 		for r0 := 0; r0 < n; r0 += chunk {
 			r1 := min(n, r0+chunk)
 			s := S[:(r1-r0)*k]
-			blas32.Gemm(blas.NoTrans, blas.Trans, 1,
-				blas32.General{Rows: r1 - r0, Cols: dim, Stride: dim, Data: Xn[r0*dim : r1*dim]},
-				blas32.General{Rows: k, Cols: dim, Stride: dim, Data: C},
-				0, blas32.General{Rows: r1 - r0, Cols: k, Stride: k, Data: s})
+			gemmNT(s, Xn[r0*dim:r1*dim], C, r1-r0, k, dim)
 			for i := r0; i < r1; i++ {
 				row := s[(i-r0)*k : (i-r0+1)*k]
 				best := 0

@@ -174,7 +174,26 @@ func TestBadSpec(t *testing.T) {
 // safe bound that any wrong formula (an O(1) error) still fails.
 const plainTol = 1e-4
 
+// naiveGemmNT is the textbook triple loop, in float64.
+func naiveGemmNT(c, a, b []float32, m, n, p int) {
+	for i := 0; i < m; i++ {
+		for j := 0; j < n; j++ {
+			var s float64
+			for l := 0; l < p; l++ {
+				s += float64(a[i*p+l]) * float64(b[j*p+l])
+			}
+			c[i*n+j] = float32(s)
+		}
+	}
+}
+
 func TestPlainMatchesGraph(t *testing.T) {
+	for _, kern := range []GemmNTFunc{nil, naiveGemmNT} {
+		testPlainMatchesGraph(t, kern)
+	}
+}
+
+func testPlainMatchesGraph(t *testing.T, kern GemmNTFunc) {
 	for _, sp := range []Spec{
 		{In: 37, Out: 5, Batch: 19, L2: 0.01},
 		{In: 30, Hidden: 23, Out: 4, Batch: 17, L2: 0.02},
@@ -184,7 +203,7 @@ func TestPlainMatchesGraph(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		pl, err := NewPlain(sp)
+		pl, err := NewPlain(sp, kern)
 		if err != nil {
 			t.Fatal(err)
 		}

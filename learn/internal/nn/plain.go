@@ -8,27 +8,51 @@ import (
 	"gonum.org/v1/gonum/blas/blas32"
 )
 
-// Plain is the hand-written float32 engine (see the package comment). Its
-// matrix products go through gonum's blas32 with the weight matrices stored
-// out×in, so the forward product X·Wᵀ runs on dot kernels and the weight
-// gradient dZᵀ·X on axpy kernels along the long input dimension.
+// GemmNTFunc computes c = a·bᵀ for row-major a (m×p), b (n×p), c (m×n),
+// overwriting c.
+type GemmNTFunc func(c, a, b []float32, m, n, p int)
+
+// GemmNTGonum is the GemmNTFunc on gonum's blas32 (the default).
+func GemmNTGonum(c, a, b []float32, m, n, p int) {
+	if m == 0 || n == 0 {
+		return
+	}
+	blas32.Gemm(blas.NoTrans, blas.Trans, 1,
+		blas32.General{Rows: m, Cols: p, Stride: p, Data: a},
+		blas32.General{Rows: n, Cols: p, Stride: p, Data: b},
+		0, blas32.General{Rows: m, Cols: n, Stride: n, Data: c})
+}
+
+// Plain is the hand-written float32 engine (see the package comment). Every
+// matrix product is one call of a GemmNTFunc (c = a·bᵀ, both operands read
+// along rows), so a faster kernel (package learn's SIMD build) plugs in
+// through NewPlain; the weight gradients dW = dZᵀ·X are formed as
+// (dZᵀ)·(Xᵀ)ᵀ from transposed copies of the batch.
 type Plain struct {
 	spec   Spec
+	gemm   GemmNTFunc
 	params [][]float32
 	x, y   []float32
 	z      []float32 // B×K logits, then dZ
 	a, da  []float32 // B×H activations and their gradient (mlp)
+	// transposes: of the layer input (in×B), of the output gradient (out×B),
+	// and of W2 (H×K)
+	tin, tout, w2t []float32
 }
 
 // NewPlain validates s (which must be float32) and allocates the engine.
-func NewPlain(s Spec) (*Plain, error) {
+// gemm nil means GemmNTGonum.
+func NewPlain(s Spec, gemm GemmNTFunc) (*Plain, error) {
 	if err := s.validate(); err != nil {
 		return nil, err
 	}
 	if s.Float64 {
 		return nil, fmt.Errorf("nn: the plain engine is float32 only")
 	}
-	p := &Plain{spec: s,
+	if gemm == nil {
+		gemm = GemmNTGonum
+	}
+	p := &Plain{spec: s, gemm: gemm,
 		x: make([]float32, s.Batch*s.In),
 		y: make([]float32, s.Batch*s.Out),
 		z: make([]float32, s.Batch*s.Out),
@@ -40,9 +64,13 @@ func NewPlain(s Spec) (*Plain, error) {
 		}
 		p.params = append(p.params, make([]float32, n))
 	}
+	wide := max(s.In, s.Hidden)
+	p.tin = make([]float32, wide*s.Batch)
+	p.tout = make([]float32, max(s.Hidden, s.Out)*s.Batch)
 	if s.Hidden > 0 {
 		p.a = make([]float32, s.Batch*s.Hidden)
 		p.da = make([]float32, s.Batch*s.Hidden)
+		p.w2t = make([]float32, s.Hidden*s.Out)
 	}
 	return p, nil
 }
@@ -53,26 +81,46 @@ func (p *Plain) X32() []float32        { return p.x }
 func (p *Plain) Y32() []float32        { return p.y }
 func (p *Plain) Close() error          { return nil }
 
-func gen(rows, cols int, data []float32) blas32.General {
-	return blas32.General{Rows: rows, Cols: cols, Stride: cols, Data: data}
+// transpose sets dst (cols×rows) = srcᵀ for row-major src (rows×cols).
+func transpose(dst, src []float32, rows, cols int) {
+	const tile = 32
+	for r0 := 0; r0 < rows; r0 += tile {
+		r1 := min(rows, r0+tile)
+		for c0 := 0; c0 < cols; c0 += tile {
+			c1 := min(cols, c0+tile)
+			for r := r0; r < r1; r++ {
+				row := src[r*cols : (r+1)*cols]
+				for c := c0; c < c1; c++ {
+					dst[c*rows+r] = row[c]
+				}
+			}
+		}
+	}
 }
 
 // forwardAffine sets out (B×m) = in (B×n) · Wᵀ + 1·bᵀ with W m×n.
-func forwardAffine(out, in, W, b []float32, B, n, m int) {
+func (p *Plain) forwardAffine(out, in, W, b []float32, B, n, m int) {
+	p.gemm(out, in, W, B, m, n)
 	for i := 0; i < B; i++ {
-		copy(out[i*m:(i+1)*m], b)
+		row := out[i*m : (i+1)*m]
+		for j, v := range b {
+			row[j] += v
+		}
 	}
-	blas32.Gemm(blas.NoTrans, blas.Trans, 1, gen(B, n, in), gen(m, n, W), 1, gen(B, m, out))
 }
 
 // backwardAffine sets dW (m×n) = dOutᵀ·in and db = column sums of dOut.
-func backwardAffine(dW, db, dOut, in []float32, B, n, m int) {
-	blas32.Gemm(blas.Trans, blas.NoTrans, 1, gen(B, m, dOut), gen(B, n, in), 0, gen(m, n, dW))
-	clear(db)
-	for i := 0; i < B; i++ {
-		for j, v := range dOut[i*m : (i+1)*m] {
-			db[j] += v
+func (p *Plain) backwardAffine(dW, db, dOut, in []float32, B, n, m int) {
+	tin, tout := p.tin[:n*B], p.tout[:m*B]
+	transpose(tin, in, B, n)
+	transpose(tout, dOut, B, m)
+	p.gemm(dW, tout, tin, m, n, B)
+	for j := range db {
+		var s float32
+		for _, v := range tout[j*B : (j+1)*B] {
+			s += v
 		}
+		db[j] = s
 	}
 }
 
@@ -91,27 +139,28 @@ func (p *Plain) Eval(grads any) (float64, error) {
 	B, D, H, K := s.Batch, s.In, s.Hidden, s.Out
 	var loss float64
 	if H == 0 {
-		forwardAffine(p.z, p.x, p.params[0], p.params[1], B, D, K)
+		p.forwardAffine(p.z, p.x, p.params[0], p.params[1], B, D, K)
 		loss = softmaxCE(p.z, p.y, B, K)
-		backwardAffine(g[0], g[1], p.z, p.x, B, D, K)
+		p.backwardAffine(g[0], g[1], p.z, p.x, B, D, K)
 	} else {
-		forwardAffine(p.a, p.x, p.params[0], p.params[1], B, D, H)
+		p.forwardAffine(p.a, p.x, p.params[0], p.params[1], B, D, H)
 		for i, v := range p.a {
 			if v < 0 {
 				p.a[i] = 0
 			}
 		}
-		forwardAffine(p.z, p.a, p.params[2], p.params[3], B, H, K)
+		p.forwardAffine(p.z, p.a, p.params[2], p.params[3], B, H, K)
 		loss = softmaxCE(p.z, p.y, B, K)
-		backwardAffine(g[2], g[3], p.z, p.a, B, H, K)
-		// dA = dZ·W2, masked by the ReLU.
-		blas32.Gemm(blas.NoTrans, blas.NoTrans, 1, gen(B, K, p.z), gen(K, H, p.params[2]), 0, gen(B, H, p.da))
+		p.backwardAffine(g[2], g[3], p.z, p.a, B, H, K)
+		// dA = dZ·W2 = dZ·(W2ᵀ)ᵀ, masked by the ReLU.
+		transpose(p.w2t, p.params[2], K, H)
+		p.gemm(p.da, p.z, p.w2t, B, H, K)
 		for i, v := range p.a {
 			if v <= 0 {
 				p.da[i] = 0
 			}
 		}
-		backwardAffine(g[0], g[1], p.da, p.x, B, D, H)
+		p.backwardAffine(g[0], g[1], p.da, p.x, B, D, H)
 	}
 	if s.L2 > 0 {
 		lam := float32(s.L2)

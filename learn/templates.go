@@ -62,8 +62,8 @@ type TemplateConfig struct {
 	// Iters is the number of spherical k-means iterations; 0 means 20.
 	Iters int `json:"iters,omitempty"`
 	// Sparse configures the dictionary of Method "sparse" (its Atoms is set
-	// to K and its Seed, when 0, to Seed).
-	Sparse DictConfig `json:"sparse,omitempty"`
+	// to K and its Seed, when 0, to Seed); nil means DictConfig{}'s defaults.
+	Sparse *DictConfig `json:"sparse,omitempty"`
 	// Encoder is the non-linearity: "soft" (default) gives the 2K features
 	// max(0, r_k − α) and max(0, −r_k − α) of the template responses
 	// r_k = t_k·W(x̂ − μ); "triangle" gives the K features
@@ -293,7 +293,10 @@ func (c TemplateConfig) Fit(maps []v1layer.Maps, progress Progress) (*Templates,
 		res := sphericalKMeans(Xw, n, dim, cfg.K, cfg.Iters, init, rng, progress)
 		t.cent, rep.Empty, rep.Objective = res.centroids, res.empty, res.objective
 	case MethodSparse:
-		dc := cfg.Sparse
+		var dc DictConfig
+		if cfg.Sparse != nil {
+			dc = *cfg.Sparse
+		}
 		dc.Atoms = cfg.K
 		if dc.Seed == 0 {
 			dc.Seed = cfg.Seed

@@ -297,7 +297,7 @@ func TestTemplatesStackAndSparse(t *testing.T) {
 	if f := l2.Encode(nil, &mid[0]); len(f) != 40 {
 		t.Errorf("stacked Encode length %d", len(f))
 	}
-	sp := fitTemplates(t, TemplateConfig{Method: MethodSparse, K: 6, PatchSize: 3, Patches: 600, Sparse: DictConfig{Epochs: 2}, Seed: 1}, maps)
+	sp := fitTemplates(t, TemplateConfig{Method: MethodSparse, K: 6, PatchSize: 3, Patches: 600, Sparse: &DictConfig{Epochs: 2}, Seed: 1}, maps)
 	for k := 0; k < sp.K(); k++ {
 		var s float64
 		for _, v := range sp.Template(nil, k) {
@@ -306,6 +306,25 @@ func TestTemplatesStackAndSparse(t *testing.T) {
 		if math.Abs(s-1) > 1e-4 {
 			t.Errorf("sparse template %d has squared norm %g, want 1", k, s)
 		}
+	}
+}
+
+func TestTemplateConfigJSON(t *testing.T) {
+	c := TemplateConfig{Method: MethodSparse, K: 32, Grids: []int{1, 2}, Scales: []float64{1, 0.7}, Sparse: &DictConfig{Lambda: 0.5}, Seed: 3}
+	b, err := json.Marshal(c)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var back TemplateConfig
+	if err := json.Unmarshal(b, &back); err != nil {
+		t.Fatal(err)
+	}
+	b2, _ := json.Marshal(back)
+	if string(b) != string(b2) || back.Sparse == nil || back.Sparse.Lambda != 0.5 {
+		t.Errorf("round trip: %s → %s", b, b2)
+	}
+	if b, _ := json.Marshal(TemplateConfig{}); string(b) != "{}" {
+		t.Errorf("zero config marshals to %s, want {}", b)
 	}
 }
 

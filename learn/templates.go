@@ -92,6 +92,10 @@ type TemplateConfig struct {
 
 func (c TemplateConfig) resolved() (TemplateConfig, error) {
 	r := c
+	if c.Sparse != nil {
+		sp := *c.Sparse // not shared with the caller
+		r.Sparse = &sp
+	}
 	switch r.Method {
 	case "":
 		r.Method = MethodKMeans
@@ -400,6 +404,10 @@ func (t *Templates) Config() TemplateConfig {
 	c := t.cfg
 	c.Grids = append([]int(nil), c.Grids...)
 	c.Scales = append([]float64(nil), c.Scales...)
+	if c.Sparse != nil {
+		sp := *c.Sparse
+		c.Sparse = &sp
+	}
 	return c
 }
 

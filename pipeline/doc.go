@@ -9,16 +9,27 @@
 //
 //	input      any image.Image → grey, BT.601 luma Y = 0.299R + 0.587G + 0.114B
 //	           (ITU-R BT.601), in [0,1] → resized to Input.Height×Input.Width
-//	           (datasets.ToGray; bilinear, x/image/draw)
+//	           (datasets.ToGray; bilinear, x/image/draw) → optional 3×3 median
+//	           → min-max stretch v' = (v − min)/(max − min) → integer shift
+//	           putting the centre of mass at the centre (LeCun et al. 1998)
 //	front      v1layer.FrontEnd: on/off DoG retina, simple cells (hand-set
-//	           Gabor bank or a learned bank in Front.Bank), complex cells,
-//	           local max pooling → C×H×W maps
+//	           Gabor bank, or a bank learned from photos by sparse coding:
+//	           LearnBank), complex cells, local max pooling → C×H×W maps
 //	templates  (optional) templates learned without labels over patches of the
 //	           complex-cell maps, encoded convolutionally, pooled over position
 //	pool       (when there are no templates) mean or max of Size×Size windows of
 //	           each map, optionally square-rooted
+//	guard      drop features whose training std is below Guard.MinStd × the
+//	           median std, clip the rest to their training [min, max]
 //	head       learn.Head: softmax regression or a one-hidden-layer ReLU MLP on
 //	           standardised features z = (x − mean)/std
+//
+// The default (Config{}, spelled out by DefaultConfig): 28×28 input with
+// min-max stretch and centring, v1layer's default front end (on/off DoG at
+// σ = 1, 2 px; Gabor energy at 4 orientations, λ = 4, 8 px; 3×3 max pooling,
+// stride 2 → 12×14×14 maps), 64 k-means templates over 5×5 patches pooled on
+// a 2×2 grid plus the maps average-pooled 2×2, the guard at MinStd 0.05, and
+// a 512-unit MLP trained 15 epochs with Adam and a cosine schedule.
 //
 // Fit fits the unsupervised stages first, on unlabeled images (FitOptions.
 // Unlabeled, or training images with their labels ignored), so that

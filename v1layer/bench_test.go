@@ -94,3 +94,31 @@ func BenchmarkStage(b *testing.B) {
 		sinkMaps = dst
 	}
 }
+
+// BenchmarkPool compares the two 3×3 stride-2 pooling paths on one map:
+// the fused scalar pass and the SIMD vertical max plus row pass; the
+// crossover sets pool3s2MaxW.
+func BenchmarkPool(b *testing.B) {
+	for _, sz := range []int{28, 64, 128, 256} {
+		src := benchImages(1, sz, sz)[0]
+		dst := make([]float32, poolOut(sz, 2)*poolOut(sz, 2))
+		tmp := make([]float32, sz)
+		for _, fused := range []bool{true, false} {
+			name := map[bool]string{true: "fused", false: "vertical-simd"}[fused]
+			b.Run(fmt.Sprintf("%s/%dx%d", name, sz, sz), func(b *testing.B) {
+				old := pool3s2MaxW
+				if fused {
+					pool3s2MaxW = 1 << 30
+				} else {
+					pool3s2MaxW = 0
+				}
+				defer func() { pool3s2MaxW = old }()
+				start := time.Now()
+				for i := 0; i < b.N; i++ {
+					maxPool(dst, src, sz, sz, 3, 2, tmp)
+				}
+				b.ReportMetric(float64(b.N)/time.Since(start).Seconds(), "maps/s")
+			})
+		}
+	}
+}

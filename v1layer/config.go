@@ -24,22 +24,6 @@ type Config struct {
 	Border  Border        `json:"border,omitempty"`
 }
 
-// ComplexConfig sets up the complex-cell stage. The zero value is quadrature
-// energy with no length summation, no end-stopping and no divisive normalisation.
-type ComplexConfig struct {
-	// Mode: "energy" (default): each quadrature pair becomes one channel
-	// sqrt(e²+o²) and each unpaired kernel two half-wave rectified channels
-	// max(0,r), max(0,−r); "rectified": each kernel one channel max(0,r)
-	// (use Gabor.Phases = 4 for all polarities); "linear": each kernel one
-	// signed channel r.
-	Mode string `json:"mode,omitempty"`
-	// Length summation and end-stopping along the preferred orientation.
-	Length  LengthConfig  `json:"length"`
-	EndStop EndStopConfig `json:"end_stop"`
-	// Norm is divisive normalisation across orientations (Heeger 1992).
-	Norm NormConfig `json:"norm"`
-}
-
 // Border says how correlation treats pixels outside the image.
 type Border string
 

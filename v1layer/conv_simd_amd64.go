@@ -16,6 +16,7 @@ func init() {
 		hsum, vsum = hsumSIMD, vsumSIMD
 		hsum2, vsum2 = hsum2SIMD, vsum2SIMD
 		energyTo, maxInto = energySIMD, maxIntoSIMD
+		max2To, max3To = max2SIMD, max3SIMD
 		build = "simd (GOEXPERIMENT=simd, AVX2+FMA, 8 float32 lanes)"
 	}
 }
@@ -270,5 +271,44 @@ func hsum2SIMD(dst0, dst1 []float32, n int, srcs, taps [][]float32, off0, off1 i
 		st(unsafe.Add(r, 32), b1)
 		st(unsafe.Add(r, 64), b2)
 		st(unsafe.Add(r, 96), b3)
+	}
+}
+
+func max2SIMD(dst, a, b []float32) {
+	n := len(dst)
+	if n < 8 {
+		max2Go(dst, a, b)
+		return
+	}
+	a, b = a[:n], b[:n]
+	for i := 0; ; i += 8 {
+		if i > n-8 {
+			i = n - 8
+		}
+		x := archsimd.LoadFloat32x8Slice(a[i:])
+		x.Max(archsimd.LoadFloat32x8Slice(b[i:])).StoreSlice(dst[i:])
+		if i == n-8 {
+			return
+		}
+	}
+}
+
+func max3SIMD(dst, a, b, c []float32) {
+	n := len(dst)
+	if n < 8 {
+		max3Go(dst, a, b, c)
+		return
+	}
+	a, b, c = a[:n], b[:n], c[:n]
+	for i := 0; ; i += 8 {
+		if i > n-8 {
+			i = n - 8
+		}
+		x := archsimd.LoadFloat32x8Slice(a[i:])
+		y := archsimd.LoadFloat32x8Slice(b[i:])
+		x.Max(y).Max(archsimd.LoadFloat32x8Slice(c[i:])).StoreSlice(dst[i:])
+		if i == n-8 {
+			return
+		}
 	}
 }

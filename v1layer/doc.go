@@ -87,6 +87,46 @@
 // is deliberately looser than "at least the kernel size": the reference
 // work itself applies the 29×29 kernels to 28×28 MNIST digits.
 //
+// # Speed: how the correlations run
+//
+// New factors every kernel by singular value decomposition,
+// K = Σ_i σ_i·u_i·v_iᵀ, keeping terms with σ_i > 1e-6·σ_1 (separable.go
+// gives the error bound), and runs each rank-1 term as two 1-D passes over
+// a pre-padded plane: 2s instead of s² multiply-adds per pixel and term.
+// DoG kernels have rank 2, Gabors at 0° and 90° rank 1, at 45° and 135°
+// rank 2 (odd) or 3 (even). Within each kernel size the planner chooses,
+// by exhaustive search over row-first/column-first per kernel, the
+// directions that let kernels share first passes (the 0° even/odd pair
+// shares its vertical envelope, 90° its horizontal one, 45°/135° their
+// singular vectors): the reference bank needs 18 first passes and 36
+// second passes, 1,052 multiply-adds per pixel against 9,090 for direct
+// correlation. A kernel whose rank makes 2·rank·s ≥ s² (a full-rank
+// learned atom) runs as a direct 2-D correlation of row AXPYs instead.
+// FFT correlation was costed and not used: gonum's real 2-D FFT of
+// 256×256 takes ~1.2 ms each way (../shared/bench/README.md), and the
+// reference bank would need one forward and nine inverse transforms
+// (even+i·odd pairs), ~12 ms, against ~6 ms for the separable passes.
+//
+// The inner loops compute whole blocks of 8 or 32 outputs per row, two
+// rows at a time (sharing each source-row load between the two rows of a
+// vertical pass and keeping 8 independent accumulators against the FMA
+// latency), into buffers with slack columns whose values are never used.
+//
+// # Builds
+//
+// The plain build runs portable Go loops. Built with Go 1.26's
+// GOEXPERIMENT=simd on amd64, the package uses simd/archsimd (AVX2 + FMA,
+// 8 float32 lanes) for the 1-D passes, energy and pooling, when the CPU has
+// them (checked at start-up; Build reports which loops run):
+//
+//	GOEXPERIMENT=simd go build ./cmd/striate
+//	GOEXPERIMENT=simd go test -bench FrontEnd ./v1layer
+//
+// Both builds give the same results to float32 rounding
+// (TestSIMDMatchesPortable); `striate bench` prints which build timed the
+// figures it shows. The SIMD build is what meets the speed targets of the
+// reference work; the plain build is about four to six times slower.
+//
 // # Concurrency
 //
 // New returns an immutable *FrontEnd safe for concurrent use. Apply takes

@@ -70,6 +70,13 @@ func TestSIMDMatchesPortable(t *testing.T) {
 		maxInto(a, o)
 		maxIntoGo(b, o)
 		check("maxInto", a, b, 1)
+		c3 := rnd(n + 3)
+		max2To(a, e, o)
+		max2Go(b, e, o)
+		check("max2", a, b, 1)
+		max3To(a, e, o, c3)
+		max3Go(b, e, o, c3)
+		check("max3", a, b, 1)
 	}
 }
 

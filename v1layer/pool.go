@@ -53,13 +53,24 @@ func maxPool(dst, src []float32, h, w, size, s int, tmp []float32) {
 		copy(dst[:h*w], src[:h*w])
 		return
 	}
+	if size == 3 && s == 2 && h >= 2 && w >= 2 && w <= pool3s2MaxW {
+		pool3s2(dst, src, h, w)
+		return
+	}
 	t := tmp[:w]
 	for i := 0; i < oh; i++ {
 		c := i * s
 		lo, hi := max(c-r, 0), min(c+r, h-1)
-		copy(t, src[lo*w:lo*w+w])
-		for y := lo + 1; y <= hi; y++ {
-			maxInto(t, src[y*w:y*w+w])
+		switch hi - lo {
+		case 0:
+			copy(t, src[lo*w:lo*w+w])
+		case 1:
+			max2To(t, src[lo*w:lo*w+w], src[(lo+1)*w:(lo+1)*w+w])
+		default:
+			max3To(t, src[lo*w:lo*w+w], src[(lo+1)*w:(lo+1)*w+w], src[(lo+2)*w:(lo+2)*w+w])
+			for y := lo + 3; y <= hi; y++ {
+				maxInto(t, src[y*w:y*w+w])
+			}
 		}
 		out := dst[i*ow : i*ow+ow]
 		if size == 3 && s == 2 {
@@ -87,9 +98,74 @@ func pool3s2Row(out, t []float32) {
 	}
 	j := 1
 	for ; 2*j+1 < w; j++ {
-		out[j] = max(t[2*j-1], t[2*j], t[2*j+1])
+		// explicit comparisons: the max builtin's NaN and signed-zero
+		// handling costs several times more here.
+		m := t[2*j]
+		if a := t[2*j-1]; a > m {
+			m = a
+		}
+		if b := t[2*j+1]; b > m {
+			m = b
+		}
+		out[j] = m
 	}
 	if j < len(out) {
-		out[j] = max(t[2*j-1], t[2*j])
+		m := t[2*j]
+		if a := t[2*j-1]; a > m {
+			m = a
+		}
+		out[j] = m
+	}
+}
+
+// pool3s2MaxW is the widest map for which the fused scalar pool3s2 beats
+// the SIMD vertical max plus row pass (BenchmarkPool; see doc.go).
+var pool3s2MaxW = 64
+
+// pool3s2 is maxPool for the 3×3, stride-2 window in one scalar pass over
+// three source rows per output row (no intermediate buffer), h, w ≥ 2.
+func pool3s2(dst, src []float32, h, w int) {
+	ow, oh := poolOut(w, 2), poolOut(h, 2)
+	for i := 0; i < oh; i++ {
+		c := 2 * i
+		r0 := src[max(c-1, 0)*w:][:w]
+		r1 := src[c*w:][:w]
+		r2 := src[min(c+1, h-1)*w:][:w]
+		out := dst[i*ow:][:ow]
+		col := func(x int) float32 {
+			m := r1[x]
+			if v := r0[x]; v > m {
+				m = v
+			}
+			if v := r2[x]; v > m {
+				m = v
+			}
+			return m
+		}
+		m := col(0)
+		if v := col(1); v > m {
+			m = v
+		}
+		out[0] = m
+		j := 1
+		for ; 2*j+1 < w; j++ {
+			a := col(2*j - 1)
+			b := col(2 * j)
+			cc := col(2*j + 1)
+			if b > a {
+				a = b
+			}
+			if cc > a {
+				a = cc
+			}
+			out[j] = a
+		}
+		if j < ow {
+			a := col(2*j - 1)
+			if b := col(2 * j); b > a {
+				a = b
+			}
+			out[j] = a
+		}
 	}
 }

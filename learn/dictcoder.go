@@ -208,13 +208,15 @@ func (c *Coder) Encode(dst, x []float32, warm bool) ([]float32, EncodeStats, err
 type scratch struct {
 	corr             []float32 // chunkRows×K correlations D·x
 	a0, p, p0, r, ya []float32 // per-row vectors of length K
+	act              []int32   // CD's active set
 }
 
 func (c *Coder) newScratch() *scratch {
 	k := c.dict.k
 	buf := make([]float32, 5*k)
 	return &scratch{corr: make([]float32, chunkRows*k),
-		a0: buf[0:k], p: buf[k : 2*k], p0: buf[2*k : 3*k], r: buf[3*k : 4*k], ya: buf[4*k : 5*k]}
+		a0: buf[0:k], p: buf[k : 2*k], p0: buf[2*k : 3*k], r: buf[3*k : 4*k], ya: buf[4*k : 5*k],
+		act: make([]int32, 0, k)}
 }
 
 func (c *Coder) encodeChunk(s *scratch, dst, x []float32, ch int) EncodeStats {

@@ -203,3 +203,31 @@ func lipschitzOf(t testing.TB, d *Dictionary) float64 {
 	}
 	return c.Lipschitz()
 }
+
+// TestCDNoDriftOnLongRuns is the regression test for residual drift: CD
+// forced through 3,000 sweeps (Tol < 0) on the committed random problem
+// must still satisfy the KKT conditions and match scikit-learn.
+func TestCDNoDriftOnLongRuns(t *testing.T) {
+	ref := loadLassoRef(t)
+	pr := ref.Problems[0]
+	d, err := NewDictionary(to32(pr.D), pr.Atoms, pr.Dim)
+	if err != nil {
+		t.Fatal(err)
+	}
+	x := to32(pr.X)
+	c, err := NewCoder(d, CoderConfig{Lambda: pr.Lambda, NonNeg: true, Tol: -1, MaxIter: 3000, Solver: CD})
+	if err != nil {
+		t.Fatal(err)
+	}
+	codes, _, _ := c.Encode(nil, x, false)
+	for i := 0; i < pr.N; i++ {
+		a := codes[i*pr.Atoms : (i+1)*pr.Atoms]
+		xi := x[i*pr.Dim : (i+1)*pr.Dim]
+		if v := kktViolation(d, xi, a, pr.Lambda, true); v > kktTol {
+			t.Errorf("signal %d: KKT violation %.3g after 3,000 sweeps (tol %g)", i, v, kktTol)
+		}
+		if obj := d.Objective(xi, a, pr.Lambda); math.Abs(obj-pr.ObjNonneg[i]) > objRelTol*pr.ObjNonneg[i] {
+			t.Errorf("signal %d: objective %.9g, scikit-learn %.9g", i, obj, pr.ObjNonneg[i])
+		}
+	}
+}

@@ -1,9 +1,6 @@
 package learn
 
 import (
-	"image"
-	"image/color"
-	"image/png"
 	"math"
 	"math/rand/v2"
 	"os"
@@ -174,57 +171,6 @@ func envInt(name string, def int) int {
 	return def
 }
 
-func envFloat(name string, def float64) float64 {
-	if v, err := strconv.ParseFloat(os.Getenv(name), 64); err == nil {
-		return v
-	}
-	return def
-}
-
-// TestNaturalExplore is a development aid (STRIATE_EXPLORE=1).
-func TestNaturalExplore(t *testing.T) {
-	if os.Getenv("STRIATE_EXPLORE") == "" {
-		t.Skip("STRIATE_EXPLORE not set")
-	}
-	ns := naturalSetup{Train: envInt("NTRAIN", 20000), Held: 5000, Eps: envFloat("EPS", 1e-3),
-		Whiten: os.Getenv("WHITEN"), F0: envFloat("F0", 0.4),
-		Atoms: envInt("ATOMS", 192), Epochs: envInt("EPOCHS", 3), Lambda: envFloat("LAMBDA", 1)}
-	r := runNatural(t, ns)
-	logNatural(t, ns, r)
-	if err := writeMosaicDev("/tmp/atoms.png", r.dict); err != nil {
-		t.Fatal(err)
-	}
-	checkNatural(t, r)
-}
-
-// writeMosaicDev writes atoms as a PNG for looking at during development.
-func writeMosaicDev(path string, d *Dictionary) error {
-	const s, sc = 16, 4
-	cols := 16
-	rows := (d.k + cols - 1) / cols
-	img := image.NewGray(image.Rect(0, 0, cols*(s*sc+2), rows*(s*sc+2)))
-	for j := 0; j < d.k; j++ {
-		a := d.w[j*d.dim : (j+1)*d.dim]
-		var m float32
-		for _, v := range a {
-			m = max(m, float32(math.Abs(float64(v))))
-		}
-		for p, v := range a {
-			r, c := p/s, p%s
-			for dy := 0; dy < sc; dy++ {
-				for dx := 0; dx < sc; dx++ {
-					img.SetGray((j%cols)*(s*sc+2)+c*sc+dx, (j/cols)*(s*sc+2)+r*sc+dy, color.Gray{uint8(127.5 + 127*v/m)})
-				}
-			}
-		}
-	}
-	f, err := os.Create(path)
-	if err != nil {
-		return err
-	}
-	defer f.Close()
-	return png.Encode(f, img)
-}
 
 // TestLearnedBankPairs builds a dictionary from v1layer's hand-set Gabor
 // kernels (15×15: even and odd phases at four orientations between the

@@ -171,7 +171,6 @@ func envInt(name string, def int) int {
 	return def
 }
 
-
 // TestLearnedBankPairs builds a dictionary from v1layer's hand-set Gabor
 // kernels (15×15: even and odd phases at four orientations between the
 // quadrant edges, plus a noise atom) and checks that LearnedBank recovers each kernel's parameters from

@@ -65,7 +65,9 @@ func BenchmarkFrontEnd(b *testing.B) {
 
 // BenchmarkStage times the stages of the default front end separately:
 // "pad" (copying into the padded plane), "responses" (all 18
-// correlations), "complex+pool" (rectification, energy and pooling).
+// correlations), "complex+pool" (rectification, energy and pooling), and
+// the two halves as whole front ends: "retina-only" (DoG on/off + pooling)
+// and "gabor-only" (Gabor energy + pooling).
 func BenchmarkStage(b *testing.B) {
 	f, err := New(Config{})
 	if err != nil {
@@ -92,6 +94,22 @@ func BenchmarkStage(b *testing.B) {
 		run("responses", func() { f.eng.responses(s.resp, img, sz, sz, BorderZero, s.es) })
 		run("complex+pool", func() { f.post(&dst, sz, sz, s) })
 		sinkMaps = dst
+		for _, part := range []struct {
+			name string
+			cfg  Config
+		}{
+			{"retina-only", Config{Gabor: GaborConfig{Disable: true}}},
+			{"gabor-only", Config{DoG: DoGConfig{Disable: true}}},
+		} {
+			g, err := New(part.cfg)
+			if err != nil {
+				b.Fatal(err)
+			}
+			var out Maps
+			g.Apply(&out, img, sz, sz)
+			run(part.name, func() { g.Apply(&out, img, sz, sz) })
+			sinkMaps = out
+		}
 	}
 }
 

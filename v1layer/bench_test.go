@@ -140,3 +140,40 @@ func BenchmarkPool(b *testing.B) {
 		}
 	}
 }
+
+// BenchmarkStageRowPairs times the correlations with the two-row inner
+// loops (the default) against one row at a time, to choose between them.
+func BenchmarkStageRowPairs(b *testing.B) {
+	h2, v2 := hsum2, vsum2
+	defer func() { hsum2, vsum2 = h2, v2 }()
+	f, err := New(Config{})
+	if err != nil {
+		b.Fatal(err)
+	}
+	for _, pairs := range []bool{true, false} {
+		if pairs {
+			hsum2, vsum2 = h2, v2
+		} else {
+			hsum2 = func(d0, d1 []float32, n int, s, t [][]float32, o0, o1 int) {
+				hsum(d0, n, s, t, o0)
+				hsum(d1, n, s, t, o1)
+			}
+			vsum2 = func(d0, d1 []float32, n int, s, t [][]float32, o, st int) {
+				vsum(d0, n, s, t, o, st)
+				vsum(d1, n, s, t, o+st, st)
+			}
+		}
+		for _, sz := range []int{28, 256} {
+			img := benchImages(1, sz, sz)[0]
+			s := f.getScratch(sz, sz)
+			f.eng.responses(s.resp, img, sz, sz, BorderZero, s.es)
+			b.Run(fmt.Sprintf("pairs=%v/%dx%d", pairs, sz, sz), func(b *testing.B) {
+				start := time.Now()
+				for i := 0; i < b.N; i++ {
+					f.eng.responses(s.resp, img, sz, sz, BorderZero, s.es)
+				}
+				b.ReportMetric(float64(b.N)/time.Since(start).Seconds(), "img/s")
+			})
+		}
+	}
+}

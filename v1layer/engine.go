@@ -117,10 +117,23 @@ func (e *engine) responses(resp [][]float32, img []float32, h, w int, b Border, 
 			// in the next row, which is written afterwards.
 			y := 0
 			if kp.vertical2 {
+				s0 := 2*r + 1
 				for ; y+2 <= h; y += 2 {
-					vsum2(out[y*w:], out[(y+1)*w:], nx, srcs, taps, (R+y-r)*pw+R, pw)
+					// With a zero border, taps that read only rows outside
+					// the image (zero for both rows y and y+1) are skipped.
+					k0, k1 := 0, s0
+					if b != BorderReflect {
+						k0, k1 = max(0, r-y-1), min(s0, r-y+h)
+						for t, tm := range kp.terms {
+							taps[t] = tm.taps[k0:k1]
+						}
+					}
+					vsum2(out[y*w:], out[(y+1)*w:], nx, srcs, taps, (R+y-r+k0)*pw+R, pw)
 				}
 				if y < h {
+					for t, tm := range kp.terms {
+						taps[t] = tm.taps
+					}
 					vsum(out[y*w:], nx, srcs, taps, (R+y-r)*pw+R, pw)
 				}
 			} else {

@@ -14,7 +14,6 @@ import (
 func init() {
 	if archsimd.X86.AVX2() && archsimd.X86.FMA() {
 		hsum, vsum = hsumSIMD, vsumSIMD
-		hsum2, vsum2 = hsum2SIMD, vsum2SIMD
 		energyTo, maxInto = energySIMD, maxIntoSIMD
 		max2To, max3To = max2SIMD, max3SIMD
 		build = "simd (GOEXPERIMENT=simd, AVX2+FMA, 8 float32 lanes)"
@@ -152,125 +151,6 @@ func maxIntoSIMD(dst, src []float32) {
 		if i == n-8 {
 			return
 		}
-	}
-}
-
-// vsum2SIMD is vsumSIMD for two consecutive output rows (the second at
-// off+stride), sharing each source-row load between them and keeping 8
-// independent accumulators in flight (the FMA latency bound of one row).
-func vsum2SIMD(dst0, dst1 []float32, n int, srcs, taps [][]float32, off, stride int) {
-	if n%8 != 0 || len(dst0) < n || len(dst1) < n {
-		panic("v1layer: internal error: vsum2SIMD length")
-	}
-	for t, tp := range taps {
-		if off+len(tp)*stride+n > len(srcs[t]) {
-			panic("v1layer: internal error: vsum2SIMD source too short")
-		}
-	}
-	d0 := unsafe.Pointer(unsafe.SliceData(dst0))
-	d1 := unsafe.Pointer(unsafe.SliceData(dst1))
-	rs := uintptr(4 * stride)
-	// Blocks run from the right: row 0's overrun past the image width
-	// lands at the start of row 1, which the last (x = 0) block rewrites.
-	n32 := n / 32 * 32
-	if n32 < n {
-		vsumSIMD(dst0[n32:], n-n32, srcs, taps, off+n32, stride)
-		vsumSIMD(dst1[n32:], n-n32, srcs, taps, off+stride+n32, stride)
-	}
-	for x := n32 - 32; x >= 0; x -= 32 {
-		var a0, a1, a2, a3, b0, b1, b2, b3 archsimd.Float32x8
-		for t, tp := range taps {
-			p := unsafe.Pointer(&srcs[t][off+x])
-			// source row j feeds row 0 with tap j and row 1 with tap j−1.
-			c := archsimd.BroadcastFloat32x8(tp[0])
-			a0 = ld(p).MulAdd(c, a0)
-			a1 = ld(unsafe.Add(p, 32)).MulAdd(c, a1)
-			a2 = ld(unsafe.Add(p, 64)).MulAdd(c, a2)
-			a3 = ld(unsafe.Add(p, 96)).MulAdd(c, a3)
-			for j := 1; j < len(tp); j++ {
-				p = unsafe.Add(p, rs)
-				c0 := archsimd.BroadcastFloat32x8(tp[j])
-				c1 := archsimd.BroadcastFloat32x8(tp[j-1])
-				v0 := ld(p)
-				a0 = v0.MulAdd(c0, a0)
-				b0 = v0.MulAdd(c1, b0)
-				v1 := ld(unsafe.Add(p, 32))
-				a1 = v1.MulAdd(c0, a1)
-				b1 = v1.MulAdd(c1, b1)
-				v2 := ld(unsafe.Add(p, 64))
-				a2 = v2.MulAdd(c0, a2)
-				b2 = v2.MulAdd(c1, b2)
-				v3 := ld(unsafe.Add(p, 96))
-				a3 = v3.MulAdd(c0, a3)
-				b3 = v3.MulAdd(c1, b3)
-			}
-			p = unsafe.Add(p, rs)
-			c = archsimd.BroadcastFloat32x8(tp[len(tp)-1])
-			b0 = ld(p).MulAdd(c, b0)
-			b1 = ld(unsafe.Add(p, 32)).MulAdd(c, b1)
-			b2 = ld(unsafe.Add(p, 64)).MulAdd(c, b2)
-			b3 = ld(unsafe.Add(p, 96)).MulAdd(c, b3)
-		}
-		q := unsafe.Add(d0, 4*x)
-		st(q, a0)
-		st(unsafe.Add(q, 32), a1)
-		st(unsafe.Add(q, 64), a2)
-		st(unsafe.Add(q, 96), a3)
-		q = unsafe.Add(d1, 4*x)
-		st(q, b0)
-		st(unsafe.Add(q, 32), b1)
-		st(unsafe.Add(q, 64), b2)
-		st(unsafe.Add(q, 96), b3)
-	}
-}
-
-// hsum2SIMD is hsumSIMD for two rows (sources at off0 and off1), with 8
-// independent accumulators.
-func hsum2SIMD(dst0, dst1 []float32, n int, srcs, taps [][]float32, off0, off1 int) {
-	if n%8 != 0 || len(dst0) < n || len(dst1) < n {
-		panic("v1layer: internal error: hsum2SIMD length")
-	}
-	for t, tp := range taps {
-		if max(off0, off1)+n+len(tp)-1 > len(srcs[t]) {
-			panic("v1layer: internal error: hsum2SIMD source too short")
-		}
-	}
-	d0 := unsafe.Pointer(unsafe.SliceData(dst0))
-	d1 := unsafe.Pointer(unsafe.SliceData(dst1))
-	// Blocks run from the right, as in vsum2SIMD.
-	n32 := n / 32 * 32
-	if n32 < n {
-		hsumSIMD(dst0[n32:], n-n32, srcs, taps, off0+n32)
-		hsumSIMD(dst1[n32:], n-n32, srcs, taps, off1+n32)
-	}
-	for x := n32 - 32; x >= 0; x -= 32 {
-		var a0, a1, a2, a3, b0, b1, b2, b3 archsimd.Float32x8
-		for t, tp := range taps {
-			pb := unsafe.Pointer(&srcs[t][off0+x])
-			qb := unsafe.Pointer(&srcs[t][off1+x])
-			for u, c := range tp {
-				p, q := unsafe.Add(pb, 4*u), unsafe.Add(qb, 4*u)
-				cv := archsimd.BroadcastFloat32x8(c)
-				a0 = ld(p).MulAdd(cv, a0)
-				b0 = ld(q).MulAdd(cv, b0)
-				a1 = ld(unsafe.Add(p, 32)).MulAdd(cv, a1)
-				b1 = ld(unsafe.Add(q, 32)).MulAdd(cv, b1)
-				a2 = ld(unsafe.Add(p, 64)).MulAdd(cv, a2)
-				b2 = ld(unsafe.Add(q, 64)).MulAdd(cv, b2)
-				a3 = ld(unsafe.Add(p, 96)).MulAdd(cv, a3)
-				b3 = ld(unsafe.Add(q, 96)).MulAdd(cv, b3)
-			}
-		}
-		r := unsafe.Add(d0, 4*x)
-		st(r, a0)
-		st(unsafe.Add(r, 32), a1)
-		st(unsafe.Add(r, 64), a2)
-		st(unsafe.Add(r, 96), a3)
-		r = unsafe.Add(d1, 4*x)
-		st(r, b0)
-		st(unsafe.Add(r, 32), b1)
-		st(unsafe.Add(r, 64), b2)
-		st(unsafe.Add(r, 96), b3)
 	}
 }
 

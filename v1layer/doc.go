@@ -107,10 +107,12 @@
 // reference bank would need one forward and nine inverse transforms
 // (even+i·odd pairs), ~12 ms, against ~6 ms for the separable passes.
 //
-// The inner loops compute whole blocks of 8 or 32 outputs per row, two
-// rows at a time (sharing each source-row load between the two rows of a
-// vertical pass and keeping 8 independent accumulators against the FMA
-// latency), into buffers with slack columns whose values are never used.
+// The inner loops compute whole blocks of 8 or 32 outputs per row (four
+// independent accumulators) into buffers with slack columns whose values
+// are never used; with a zero border, vertical taps that would read only
+// rows outside the image are skipped. (Two-row kernels that share loads
+// between rows measured slower under Go's SIMD register allocation and
+// were dropped.)
 //
 // # Builds
 //

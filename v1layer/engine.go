@@ -219,14 +219,17 @@ func vsumGo(dst []float32, n int, srcs, taps [][]float32, off, stride int) {
 // hsum2Go and vsum2Go run two rows: the second row's sources start at
 // off1 (hsum) or one stride further down (vsum). dst0's overrun past the
 // image width may overlap the start of dst1, so dst0 is written first.
+// (Two-row SIMD kernels sharing loads between the rows were tried and
+// measured slower than two single-row calls — BenchmarkStageRowPairs —
+// so these only call the single-row loops in use.)
 func hsum2Go(dst0, dst1 []float32, n int, srcs, taps [][]float32, off0, off1 int) {
-	hsumGo(dst0, n, srcs, taps, off0)
-	hsumGo(dst1, n, srcs, taps, off1)
+	hsum(dst0, n, srcs, taps, off0)
+	hsum(dst1, n, srcs, taps, off1)
 }
 
 func vsum2Go(dst0, dst1 []float32, n int, srcs, taps [][]float32, off, stride int) {
-	vsumGo(dst0, n, srcs, taps, off, stride)
-	vsumGo(dst1, n, srcs, taps, off+stride, stride)
+	vsum(dst0, n, srcs, taps, off, stride)
+	vsum(dst1, n, srcs, taps, off+stride, stride)
 }
 
 // The inner loops in use; a SIMD build replaces them at init when the CPU

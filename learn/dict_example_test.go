@@ -25,6 +25,6 @@ func ExampleCoder_Encode() {
 	if err != nil {
 		panic(err)
 	}
-	fmt.Println(codes, st.NonZeros)
-	// Output: [1.5 0 -1] 2
+	fmt.Printf("%.4f %d\n", codes, st.NonZeros)
+	// Output: [1.5000 0.0000 -1.0000] 2
 }

@@ -27,7 +27,8 @@
 //     a*||²/(k+1)² (their Theorem 4.4), which the tests check.
 //   - CD, cyclic coordinate descent on G with the correlation residual
 //     r = D·x − G·a kept up to date (Friedman, Hastie & Tibshirani 2010,
-//     J. Stat. Softw. 33(1), "covariance updates"), the method of
+//     J. Stat. Softw. 33(1), "covariance updates"; sweeps over the active
+//     set between full sweeps, as glmnet does), the method of
 //     scikit-learn's lasso_cd. On 16×16 natural patches with 256 atoms it
 //     is the faster encoder (see the benchmarks), and the default inside
 //     dictionary learning.

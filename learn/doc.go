@@ -169,7 +169,12 @@
 //	mlp 1024 hidden, batch 256: go 58-60 s
 //
 // The MLP's cost is two GEMMs of 2·B·D·H flops per step at the ~11 GFLOP/s
-// gonum's pure-Go Sgemm reaches on 2 cores.
+// gonum's pure-Go Sgemm reaches on 2 cores. Every product of the "go"
+// engine is one c = a·bᵀ call, so the GOEXPERIMENT=simd build runs them on
+// the package's AVX2/FMA kernel (except the thin class-dimension products,
+// where gonum is faster): one MLP step above (BenchmarkHeadStep, B = 128)
+// took 19-29 ms against 42-101 ms portable and 100-180 ms for gorgonia's
+// graph, interleaved runs on the same heavily loaded machine.
 //
 // A fitted *Head is immutable and safe for concurrent use. Inference does
 // not touch gorgonia: the standardisation is folded into the first layer and

@@ -114,6 +114,7 @@ func TestHeadResumeBitIdentical(t *testing.T) {
 	for _, cfg := range []HeadConfig{
 		{Kind: KindMLP, Hidden: 8, Epochs: 9, Batch: 32, Seed: 5, Patience: -1},
 		{Kind: KindSoftmax, Optimizer: OptSGD, Epochs: 9, Batch: 32, Seed: 5, Schedule: ScheduleCosine},
+		{Kind: KindMLP, Hidden: 5, Epochs: 9, Batch: 64, Seed: 5, Engine: EngineGorgonia},
 	} {
 		want, wantRep, err := cfg.Fit(X, y, 3, nil)
 		if err != nil {

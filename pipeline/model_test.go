@@ -184,21 +184,31 @@ func TestFitDeterministic(t *testing.T) {
 	}
 }
 
-// TestConcurrentUse calls every method of one model from many goroutines
-// (run with -race) and checks that each result equals the sequential one.
+// TestConcurrentUse calls every method of one model (the committed small
+// model: front end, templates, guard, head) from many goroutines (run with
+// -race) and checks that each result equals the sequential one.
 func TestConcurrentUse(t *testing.T) {
-	m := quickModel(t)
-	_, test := mnist(t)
+	m, err := LoadFile(smallModel)
+	if err != nil {
+		t.Fatal(err)
+	}
+	floats := digits32(t)
 	const n = 16
 	imgs := make([]image.Image, n)
-	floats := make([][]float32, n)
 	want := make([]int, n)
 	wantF := make([][]float32, n)
 	for i := range imgs {
-		imgs[i] = setImage(test, i)
-		floats[i] = test.Float(nil, i)
+		g := image.NewGray(image.Rect(0, 0, 28, 28))
+		for j, v := range floats[i] {
+			g.Pix[j] = uint8(v*255 + 0.5)
+		}
+		imgs[i] = g
 		want[i], _ = m.Predict(imgs[i])
 		wantF[i] = m.Extract(imgs[i])
+	}
+	wantB, err := m.PredictBatch(floats[:n], 28, 28, 1)
+	if err != nil {
+		t.Fatal(err)
 	}
 	var wg sync.WaitGroup
 	errs := make(chan error, 64)
@@ -218,18 +228,21 @@ func TestConcurrentUse(t *testing.T) {
 						break
 					}
 				}
-				probs, err := m.PredictBatch(floats, 28, 28, 2)
+				probs, err := m.PredictBatch(floats[:n], 28, 28, 3)
 				if err != nil {
 					errs <- err
 					continue
 				}
 				for k, p := range probs {
-					if argmax(p) != want[k] {
-						errs <- errors.New("PredictBatch differs under concurrency")
-						break
+					for c := range p {
+						if p[c] != wantB[k][c] {
+							errs <- errors.New("PredictBatch differs under concurrency")
+							break
+						}
 					}
 				}
 				_ = m.ExtractBatch(imgs[:4], 2)
+				_, _ = m.ExtractFloats(floats[:4], 28, 28, 2)
 			}
 		}(g)
 	}

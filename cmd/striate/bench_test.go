@@ -1,0 +1,39 @@
+package main
+
+import (
+	"bytes"
+	"strings"
+	"testing"
+
+	"github.com/striate/striate/internal/benchwork"
+)
+
+func TestBenchMissingReference(t *testing.T) {
+	var out, errb bytes.Buffer
+	code := run([]string{"bench", "--ref", t.TempDir()}, &out, &errb)
+	if code != exitFail || !strings.Contains(errb.String(), "filterbank.json") {
+		t.Errorf("exit %d, stderr %q; want 1 and a message naming filterbank.json", code, errb.String())
+	}
+	if code := run([]string{"bench", "--threads", "0"}, &out, &errb); code != exitUsage {
+		t.Errorf("--threads 0: exit %d, want %d", code, exitUsage)
+	}
+}
+
+// A quick bench prints the table with the peers' figures from the
+// reference README beside striate's (PyTorch conv2d 6,486 img/s on MNIST,
+// 1 thread; ../shared/bench/README.md).
+func TestBenchQuickTable(t *testing.T) {
+	if _, err := benchwork.FindDir(""); err != nil {
+		t.Skipf("reference folder not available: %v", err)
+	}
+	var out, errb bytes.Buffer
+	if code := run([]string{"bench", "--quick", "--threads", "1", "--repeats", "1", "--quiet"}, &out, &errb); code != exitOK {
+		t.Fatalf("exit %d: %s", code, errb.String())
+	}
+	s := out.String()
+	for _, want := range []string{"28×28", "256×256", "6,486", "108.0", "PyTorch 1.13 conv2d", "img/s", "build"} {
+		if !strings.Contains(s, want) {
+			t.Errorf("bench output lacks %q:\n%s", want, s)
+		}
+	}
+}

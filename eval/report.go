@@ -422,7 +422,7 @@ func buildDoc(r *Report) ([]block, error) {
 					ori = fmt.Sprintf("%.1f", ch.Orientation*180/math.Pi)
 					wl = fmt.Sprintf("%.2f", ch.Wavelength)
 				}
-				labels = append(labels, channelLabel(i, iv.Channels))
+				labels = append(labels, channelLabel(i, iv.Channels, len(iv.Rows) > 24))
 				t.rows = append(t.rows, []string{fmt.Sprint(row.Channel), kind, ori, wl, fmt.Sprintf("%.1f", row.PrefOrientation*180/math.Pi),
 					fmt.Sprintf("%g", row.PrefWavelength), f4(row.PhaseCorr), f4(row.ShiftCorr), fmt.Sprintf("%.4g", row.Modulation)})
 			}
@@ -433,6 +433,7 @@ func buildDoc(r *Report) ([]block, error) {
 			}
 			fig("invariance-"+iv.Model, "Grating invariance of "+iv.Model,
 				"Top: phase and shift correlation per channel. Bottom: F1/F0 modulation ratio at the preferred grating "+
+					"(channel letters on crowded axes: D DoG, G Gabor, L learned, E energy, R rectified, S end-stopped; degrees are the preferred orientation) "+
 					"(log scale; linear cells, whose mean response is 0, are capped at 100; values below 0.001 are drawn at 0.001).", png)
 		}
 	}
@@ -504,13 +505,28 @@ func buildDoc(r *Report) ([]block, error) {
 	return doc, nil
 }
 
+// kindLetters abbreviate channel kinds on crowded axes.
+var kindLetters = map[v1layer.Kind]string{v1layer.KindDoG: "D", v1layer.KindGabor: "G", v1layer.KindLearned: "L",
+	v1layer.KindEnergy: "E", v1layer.KindRectified: "R", v1layer.KindEndStop: "S"}
+
 // channelLabel names channel i for an axis: its index, kind and tuning,
-// e.g. "5 energy 45° λ4" or "0 dog+ σ1".
-func channelLabel(i int, chans []v1layer.Channel) string {
+// e.g. "5 energy 45° λ4" or "0 dog+ σ1"; short gives "5 E45°" or "0 D+".
+func channelLabel(i int, chans []v1layer.Channel, short bool) string {
 	if i >= len(chans) {
 		return fmt.Sprint(i)
 	}
 	ch := chans[i]
+	if short {
+		l, ok := kindLetters[ch.Kind]
+		if !ok {
+			return fmt.Sprint(i)
+		}
+		if ch.Kind == v1layer.KindDoG {
+			pol := map[int]string{1: "+", -1: "−"}[ch.Polarity]
+			return fmt.Sprintf("%d %s%s", i, l, pol)
+		}
+		return fmt.Sprintf("%d %s%.0f°", i, l, ch.Orientation*180/math.Pi)
+	}
 	switch ch.Kind {
 	case v1layer.KindDoG:
 		pol := ""

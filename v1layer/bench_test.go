@@ -134,22 +134,24 @@ func BenchmarkStage(b *testing.B) {
 	}
 }
 
-// BenchmarkPool compares the two 3×3 stride-2 pooling paths on one map:
-// the fused scalar pass and the SIMD vertical max plus row pass; the
-// crossover sets pool3s2MaxW.
+// BenchmarkPool compares the 3×3 stride-2 pooling paths on one map: the
+// fused scalar pass, the vectorised row-max path (pool3s2Wide) and the
+// generic vertical-max plus row loop; the crossover sets pool3s2MaxW.
 func BenchmarkPool(b *testing.B) {
 	for _, sz := range []int{28, 64, 128, 256} {
 		src := benchImages(1, sz, sz)[0]
 		dst := make([]float32, poolOut(sz, 2)*poolOut(sz, 2))
-		tmp := make([]float32, sz)
-		for _, fused := range []bool{true, false} {
-			name := map[bool]string{true: "fused", false: "vertical-simd"}[fused]
-			b.Run(fmt.Sprintf("%s/%dx%d", name, sz, sz), func(b *testing.B) {
+		for _, path := range []string{"fused", "wide", "rows"} {
+			b.Run(fmt.Sprintf("%s/%dx%d", path, sz, sz), func(b *testing.B) {
 				old := pool3s2MaxW
-				if fused {
+				tmp := make([]float32, 2*sz+2)
+				switch path {
+				case "fused":
 					pool3s2MaxW = 1 << 30
-				} else {
+				case "wide":
 					pool3s2MaxW = 0
+				default:
+					pool3s2MaxW, tmp = 0, tmp[:sz]
 				}
 				defer func() { pool3s2MaxW = old }()
 				start := time.Now()

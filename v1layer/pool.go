@@ -1,6 +1,9 @@
 package v1layer
 
-import "fmt"
+import (
+	"fmt"
+	"math"
+)
 
 // PoolConfig sets up local max pooling of every output map. The zero value
 // is the reference pooling: a 3×3 window, stride 2, window centred on
@@ -44,7 +47,7 @@ func poolOut(n, s int) int { return (n + s - 1) / s }
 
 // maxPool writes the max over the size×size window centred at (s·i, s·j),
 // clipped to the h×w map src, to dst (poolOut(h)×poolOut(w)). tmp holds
-// w values. Max is separable: first over the window's rows (a full-width
+// at least w values (2w+2 enable the vectorised 3×3 stride-2 path). Max is separable: first over the window's rows (a full-width
 // element-wise max), then along the row.
 func maxPool(dst, src []float32, h, w, size, s int, tmp []float32) {
 	r := size / 2
@@ -58,6 +61,10 @@ func maxPool(dst, src []float32, h, w, size, s int, tmp []float32) {
 		return
 	}
 	t := tmp[:w]
+	if size == 3 && s == 2 && w >= 2 && len(tmp) >= 2*w+2 {
+		pool3s2Wide(dst, src, h, w, tmp)
+		return
+	}
 	for i := 0; i < oh; i++ {
 		c := i * s
 		lo, hi := max(c-r, 0), min(c+r, h-1)
@@ -118,9 +125,12 @@ func pool3s2Row(out, t []float32) {
 	}
 }
 
-// pool3s2MaxW is the widest map for which the fused scalar pool3s2 beats
-// the SIMD vertical max plus row pass (BenchmarkPool; see doc.go).
-var pool3s2MaxW = 64
+// pool3s2MaxW is the widest map for which the fused scalar pool3s2 is
+// used: BenchmarkPool (SIMD build, loaded machine, two runs) measured it
+// fastest at 28×28 (2.0-2.5 µs against 2.8-4.0 for pool3s2Wide) and
+// slower from 64×64 on (9.7-18.7 µs against 9.7-15.3; at 256×256
+// 520-610 µs against 53-109).
+var pool3s2MaxW = 48
 
 // pool3s2 is maxPool for the 3×3, stride-2 window in one scalar pass over
 // three source rows per output row (no intermediate buffer), h, w ≥ 2.
@@ -166,6 +176,32 @@ func pool3s2(dst, src []float32, h, w int) {
 				a = b
 			}
 			out[j] = a
+		}
+	}
+}
+
+// pool3s2Wide is maxPool for the 3×3, stride-2 window on wide maps: per
+// output row, a vectorised max of the three source rows into t (with −Inf
+// guards at both ends), a vectorised 3-wide max along t, then every other
+// element. tmp holds 2w+2 values.
+func pool3s2Wide(dst, src []float32, h, w int, tmp []float32) {
+	ow, oh := poolOut(w, 2), poolOut(h, 2)
+	ninf := float32(math.Inf(-1))
+	t := tmp[:w+2]
+	hm := tmp[w+2 : 2*w+2]
+	t[0], t[w+1] = ninf, ninf
+	for i := 0; i < oh; i++ {
+		c := 2 * i
+		lo, hi := max(c-1, 0), min(c+1, h-1)
+		if hi-lo == 2 {
+			max3To(t[1:w+1], src[lo*w:][:w], src[(lo+1)*w:][:w], src[hi*w:][:w])
+		} else {
+			max2To(t[1:w+1], src[lo*w:][:w], src[hi*w:][:w])
+		}
+		max3To(hm, t[0:w], t[1:w+1], t[2:w+2])
+		out := dst[i*ow:][:ow]
+		for j := range out {
+			out[j] = hm[2*j]
 		}
 	}
 }

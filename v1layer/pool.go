@@ -128,7 +128,7 @@ func pool3s2Row(out, t []float32) {
 // pool3s2MaxW is the widest map for which the fused scalar pool3s2 is
 // used: BenchmarkPool (SIMD build, loaded machine, two runs) measured it
 // fastest at 28×28 (2.0-2.5 µs against 2.8-4.0 for pool3s2Wide) and
-// slower from 64×64 on (9.7-18.7 µs against 9.7-15.3; at 256×256
+// slower from 64×64 on (10.9-18.7 µs against 9.7-15.3; at 256×256
 // 520-610 µs against 53-109).
 var pool3s2MaxW = 48
 

@@ -171,8 +171,19 @@ func benchFrontEnd(bc *benchContext) ([]benchRow, error) {
 	for _, s := range sets {
 		fmt.Fprintf(bc.g.stdout, "  %s: %d images from %s\n", s.Name, len(s.Images), s.Source)
 		for _, t := range bc.Threads {
+			c, oh, ow, err := fe.OutShape(s.H, s.W)
+			if err != nil {
+				return nil, err
+			}
 			d := benchwork.Median(bc.Repeats, func() {
+				// Output allocation is part of the timed work, as for the
+				// peers: one N×C×OH×OW block, like one output tensor.
+				n := c * oh * ow
+				slab := make([]float32, len(s.Images)*n)
 				dst := make([]v1layer.Maps, len(s.Images))
+				for i := range dst {
+					dst[i] = v1layer.Maps{C: c, H: oh, W: ow, Pix: slab[i*n : (i+1)*n : (i+1)*n]}
+				}
 				fe.ApplyBatch(dst, s.Images, s.H, s.W, t)
 			})
 			p, pv := benchwork.Fastest(peers, s.W, t)

@@ -442,9 +442,13 @@ func ReliabilityFigure(names []string, ms []*Metrics, title string) ([]byte, err
 	p.Legend.Add("perfect calibration", diag)
 	for i, m := range ms {
 		var xy plotter.XYs
+		var counts []int
+		maxCount := 1
 		for _, b := range m.Bins {
 			if b.Count > 0 {
 				xy = append(xy, plotter.XY{X: 100 * b.Confidence, Y: 100 * b.Accuracy})
+				counts = append(counts, b.Count)
+				maxCount = max(maxCount, b.Count)
 			}
 		}
 		line, pts, err := plotter.NewLinePoints(xy)
@@ -452,7 +456,15 @@ func ReliabilityFigure(names []string, ms []*Metrics, title string) ([]byte, err
 			return nil, err
 		}
 		line.Color, pts.Color = seriesColor(i), seriesColor(i)
+		line.Width = vg.Points(1)
 		pts.Shape = seriesGlyphs[i%len(seriesGlyphs)]
+		// Marker area ∝ the bin's sample count, so sparse bins read as such.
+		style := pts.GlyphStyle
+		pts.GlyphStyleFunc = func(j int) draw.GlyphStyle {
+			g := style
+			g.Radius = vg.Points(1.5 + 5*math.Sqrt(float64(counts[j])/float64(maxCount)))
+			return g
+		}
 		p.Add(line, pts)
 		p.Legend.Add(fmt.Sprintf("%s (ECE %.3f)", names[i], m.ECE), line, pts)
 	}

@@ -305,7 +305,7 @@ func buildDoc(r *Report) ([]block, error) {
 				return nil, err
 			}
 			fig("reliability-"+dname, "Reliability on "+dname,
-				"Accuracy against mean confidence in each of 15 confidence bins; points on the dashed diagonal are calibrated.", png)
+				"Accuracy against mean confidence in each of 15 confidence bins; points on the dashed diagonal are calibrated; marker area grows with the number of test images in the bin.", png)
 		}
 		add(headBlock{2, "Per-class scores and confusion matrices"})
 		for _, m := range r.Models {

@@ -98,7 +98,7 @@
 // by exhaustive search over row-first/column-first per kernel, the
 // directions that let kernels share first passes (the 0° even/odd pair
 // shares its vertical envelope, 90° its horizontal one, 45°/135° their
-// singular vectors): the reference bank needs 18 first passes and 36
+// singular vectors): the reference bank needs 18 first passes and 32
 // second passes, 1,052 multiply-adds per pixel against 9,090 for direct
 // correlation. A kernel whose rank makes 2·rank·s ≥ s² (a full-rank
 // learned atom) runs as a direct 2-D correlation of row AXPYs instead.

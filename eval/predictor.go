@@ -5,6 +5,7 @@ import (
 	"math"
 
 	"github.com/striate/striate/datasets"
+	"github.com/striate/striate/learn"
 )
 
 // Predictor is what eval needs from a fitted pipeline: the number of classes
@@ -18,11 +19,9 @@ type Predictor interface {
 }
 
 // Progress receives a step count and a short message during long work. A nil
-// Progress is silent. It has the same method set as learn.Progress, so the
-// command's progress bars serve both.
-type Progress interface {
-	Step(done, total int, msg string)
-}
+// Progress is silent. It is learn.Progress, so the command's progress bars
+// serve every package.
+type Progress = learn.Progress
 
 // Data is a labelled set of grey images ready for a Predictor: image i is
 // Images[i], H×W row-major float32 in [0,1], with class Labels[i] in

@@ -161,12 +161,13 @@
 // float32 BLAS, checked against gorgonia's gradients, and is faster because
 // it skips the input gradient and gorgonia's per-op allocations. Measured
 // one epoch on 60,000 × 2,000 random features, 10 classes (BenchmarkHeadEpoch,
-// 2-core EPYC, load from other jobs 2-8):
+// 2-core EPYC, load from other jobs 2-8, so ±30%):
 //
-//	softmax, batch 128:        go 2.1-2.5 s     gorgonia 9.5 s
-//	mlp 256 hidden, batch 128: go 19.7-27.5 s   gorgonia 47.6 s
-//	mlp 256 hidden, batch 512: go 15.8-20.9 s
-//	mlp 1024 hidden, batch 256: go 58-60 s
+//	                            go (portable)   go (GOEXPERIMENT=simd)   gorgonia
+//	softmax, batch 128          2.1-2.7 s       3.6 s                    9.5 s
+//	mlp 256 hidden, batch 128   19.7-27.5 s     11.6 s                   47.6 s
+//	mlp 256 hidden, batch 512   15.8-22.4 s     13.2 s
+//	mlp 1024 hidden, batch 256  58-60 s
 //
 // The MLP's cost is two GEMMs of 2·B·D·H flops per step at the ~11 GFLOP/s
 // gonum's pure-Go Sgemm reaches on 2 cores. Every product of the "go"

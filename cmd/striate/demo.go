@@ -16,6 +16,7 @@ func init() {
 		example: `  striate demo                         # full job, report in striate-report/ (about 15 min on 2 cores)
   striate demo --quick --out /tmp/r    # small subsets, about 2 min
   striate demo --data-only             # just load and summarise the data
+  striate demo --config mine.json      # train your own pipeline configuration instead
   striate demo --mnist DIR             # MNIST from a folder instead of the Go module cache`,
 		setup: func(fs *flag.FlagSet, g *globals) func([]string) error {
 			var o demoOptions
@@ -25,6 +26,7 @@ func init() {
 			fs.BoolVar(&o.dataOnly, "data-only", false, "only load the data and print its summary")
 			g.addSeed(fs)
 			g.addWorkers(fs)
+			g.addConfig(fs)
 			g.addOut(fs, "striate-report")
 			g.addQuiet(fs)
 			return func(args []string) error {

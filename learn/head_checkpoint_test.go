@@ -58,6 +58,15 @@ func TestHeadConfigJSONRoundTrip(t *testing.T) {
 	if back != c {
 		t.Errorf("round trip changed the config:\n%+v\n%+v", c, back)
 	}
+	for _, c := range []HeadConfig{{}, c, {Momentum: -1, L2: -1, ValFrac: -1, Patience: -1}} {
+		r, err := c.resolved()
+		if err != nil {
+			t.Fatal(err)
+		}
+		if rr, err := r.resolved(); err != nil || rr != r {
+			t.Errorf("resolving twice changes the config: %+v → %+v (%v)", r, rr, err)
+		}
+	}
 	b, _ = json.Marshal(HeadConfig{})
 	if string(b) != "{}" {
 		t.Errorf("zero config marshals to %s, want {}", b)

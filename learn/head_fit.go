@@ -145,7 +145,7 @@ func (c HeadConfig) resolved() (HeadConfig, error) {
 		r.Momentum = 0.9
 	}
 	if r.Momentum < 0 {
-		r.Momentum = 0
+		r.Momentum = -1 // none; negative sentinels stay so that resolving again is the identity
 	}
 	if r.Momentum >= 1 || math.IsNaN(r.Momentum) {
 		return r, fmt.Errorf("learn: HeadConfig.Momentum %g: want < 1", c.Momentum)
@@ -161,7 +161,7 @@ func (c HeadConfig) resolved() (HeadConfig, error) {
 		r.L2 = 1e-4
 	}
 	if r.L2 < 0 {
-		r.L2 = 0
+		r.L2 = -1 // none
 	}
 	if math.IsNaN(r.L2) || math.IsInf(r.L2, 0) {
 		return r, fmt.Errorf("learn: HeadConfig.L2 %g is not finite", c.L2)
@@ -170,7 +170,7 @@ func (c HeadConfig) resolved() (HeadConfig, error) {
 		r.ValFrac = 0.1
 	}
 	if r.ValFrac < 0 {
-		r.ValFrac = 0
+		r.ValFrac = -1 // no validation
 	}
 	if !(r.ValFrac < 0.9) {
 		return r, fmt.Errorf("learn: HeadConfig.ValFrac %g: want < 0.9 (0 means 0.1, negative none)", c.ValFrac)
@@ -186,7 +186,7 @@ func (c HeadConfig) resolved() (HeadConfig, error) {
 		r.Patience = 5
 	}
 	if r.Patience < 0 {
-		r.Patience = 0 // never stop
+		r.Patience = -1 // never stop
 	}
 	return r, nil
 }
@@ -209,7 +209,7 @@ type HeadFitOptions struct {
 
 // HeadReport describes a finished fit.
 type HeadReport struct {
-	Config        HeadConfig // with defaults filled in
+	Config        HeadConfig // with defaults filled in (negative "none" values kept as −1; Fit of it gives the same head)
 	NTrain, NVal  int        // rows used for training and validation
 	Batch         int        // effective minibatch size
 	StepsPerEpoch int
@@ -276,7 +276,7 @@ func (c HeadConfig) FitWith(X []float32, y []int, nClasses int, opt HeadFitOptio
 
 	mean, std := standardize(X, d, train)
 
-	spec := nn.Spec{In: d, Hidden: cfg.Hidden, Out: nClasses, Batch: batch, L2: cfg.L2}
+	spec := nn.Spec{In: d, Hidden: cfg.Hidden, Out: nClasses, Batch: batch, L2: max(0, cfg.L2)}
 	var net nn.Engine
 	if cfg.Engine == EngineGorgonia {
 		net, err = nn.New(spec)
@@ -457,7 +457,7 @@ func headUpdate(params, grads [][]float32, st *headState, cfg HeadConfig, lr flo
 		}
 		return
 	}
-	mu, a := float32(cfg.Momentum), float32(lr)
+	mu, a := float32(max(0, cfg.Momentum)), float32(lr)
 	for i, p := range params {
 		g, v := grads[i], st.opt1[i]
 		for j := range p {

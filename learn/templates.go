@@ -150,6 +150,9 @@ func (c TemplateConfig) resolved() (TemplateConfig, error) {
 	if c.WhitenEps < 0 {
 		r.WhitenEps = -1 // off
 	}
+	if c.Alpha < 0 {
+		r.Alpha = -1 // α = 0; kept negative so that resolving again is the identity
+	}
 	switch r.Encoder {
 	case "":
 		r.Encoder = EncodeSoft
@@ -210,7 +213,7 @@ type Templates struct {
 
 // TemplateFitReport describes a template fit.
 type TemplateFitReport struct {
-	Config    TemplateConfig // resolved
+	Config    TemplateConfig // with defaults filled in (negative "off" values kept as −1)
 	Patches   int            // patches used
 	Dim       int            // C·p·p
 	Empty     int            // k-means clusters re-seeded because they emptied (summed over iterations)

@@ -323,6 +323,21 @@ func TestTemplateConfigJSON(t *testing.T) {
 	if string(b) != string(b2) || back.Sparse == nil || back.Sparse.Lambda != 0.5 {
 		t.Errorf("round trip: %s → %s", b, b2)
 	}
+	for _, c := range []TemplateConfig{{}, {NormEps: -1, WhitenEps: -2, Alpha: -1}, c} {
+		r, err := c.resolved()
+		if err != nil {
+			t.Fatal(err)
+		}
+		rr, err := r.resolved()
+		if err != nil {
+			t.Fatal(err)
+		}
+		b1, _ := json.Marshal(r)
+		b2, _ := json.Marshal(rr)
+		if string(b1) != string(b2) {
+			t.Errorf("resolving twice changes the config: %s → %s", b1, b2)
+		}
+	}
 	if b, _ := json.Marshal(TemplateConfig{}); string(b) != "{}" {
 		t.Errorf("zero config marshals to %s, want {}", b)
 	}

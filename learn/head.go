@@ -13,7 +13,7 @@ import (
 // to standardised features z = (x − mean) / std. It is immutable and safe for
 // concurrent use; inference runs in plain Go on float32 slices (no gorgonia).
 //
-// Internally the standardisation is folded into the first headAffine layer
+// Internally the standardisation is folded into the first affine layer
 // (W' = diag(1/std)·W, b' = b − (mean/std)·W), so a prediction costs one
 // matrix–vector product per layer.
 type Head struct {

@@ -272,9 +272,10 @@ const (
 	// npyMaxHeader bounds the header a reader accepts: a v1.0 header length
 	// is a uint16, and striate's own headers are under 128 bytes.
 	npyMaxHeader = 4096
-	// npyMaxElems bounds what a reader allocates (2³¹ elements = 8 GiB of
-	// float32), so a hostile shape cannot ask for more.
-	npyMaxElems = 1 << 31
+	// npyMaxElems bounds what a reader allocates (2³⁰ elements = 4 GiB of
+	// float32), so a hostile shape cannot ask for more; it also fits the int
+	// of 32-bit boards.
+	npyMaxElems = 1 << 30
 )
 
 // npyHeader returns the complete header block (magic through '\n') for an

@@ -81,11 +81,7 @@ func (e *engine) responses(resp [][]float32, img []float32, h, w int, b Border, 
 				if b == BorderReflect {
 					y0, y1 = R-q.r, R+h+q.r
 				}
-				py := y0
-				for ; py+2 <= y1; py += 2 {
-					hsum2(pl[py*pw+R:], pl[(py+1)*pw+R:], nx, srcs, taps, py*pw+R-q.r, (py+1)*pw+R-q.r)
-				}
-				if py < y1 {
+				for py := y0; py < y1; py++ {
 					hsum(pl[py*pw+R:], nx, srcs, taps, py*pw+R-q.r)
 				}
 			} else {
@@ -93,14 +89,12 @@ func (e *engine) responses(resp [][]float32, img []float32, h, w int, b Border, 
 				if b == BorderReflect {
 					c0, nc = R-q.r, roundUp(w+2*q.r, 8)
 				}
-				y := 0
-				for ; y+2 <= h; y += 2 {
+				s0 := 2*q.r + 1
+				for y := 0; y < h; y++ {
 					py := R + y
-					vsum2(pl[py*pw+c0:], pl[(py+1)*pw+c0:], nc, srcs, taps, (py-q.r)*pw+c0, pw)
-				}
-				if y < h {
-					py := R + y
-					vsum(pl[py*pw+c0:], nc, srcs, taps, (py-q.r)*pw+c0, pw)
+					k0, k1 := trim(y, h, q.r, s0, b)
+					taps[0] = q.taps[k0:k1]
+					vsum(pl[py*pw+c0:], nc, srcs, taps, (py-q.r+k0)*pw+c0, pw)
 				}
 			}
 		}
@@ -115,32 +109,17 @@ func (e *engine) responses(resp [][]float32, img []float32, h, w int, b Border, 
 			r := kp.r
 			// Rows in increasing order: each row's overrun past w lands
 			// in the next row, which is written afterwards.
-			y := 0
 			if kp.vertical2 {
 				s0 := 2*r + 1
-				for ; y+2 <= h; y += 2 {
-					// With a zero border, taps that read only rows outside
-					// the image (zero for both rows y and y+1) are skipped.
-					k0, k1 := 0, s0
-					if b != BorderReflect {
-						k0, k1 = max(0, r-y-1), min(s0, r-y+h)
-						for t, tm := range kp.terms {
-							taps[t] = tm.taps[k0:k1]
-						}
-					}
-					vsum2(out[y*w:], out[(y+1)*w:], nx, srcs, taps, (R+y-r+k0)*pw+R, pw)
-				}
-				if y < h {
+				for y := 0; y < h; y++ {
+					k0, k1 := trim(y, h, r, s0, b)
 					for t, tm := range kp.terms {
-						taps[t] = tm.taps
+						taps[t] = tm.taps[k0:k1]
 					}
-					vsum(out[y*w:], nx, srcs, taps, (R+y-r)*pw+R, pw)
+					vsum(out[y*w:], nx, srcs, taps, (R+y-r+k0)*pw+R, pw)
 				}
 			} else {
-				for ; y+2 <= h; y += 2 {
-					hsum2(out[y*w:], out[(y+1)*w:], nx, srcs, taps, (R+y)*pw+R-r, (R+y+1)*pw+R-r)
-				}
-				if y < h {
+				for y := 0; y < h; y++ {
 					hsum(out[y*w:], nx, srcs, taps, (R+y)*pw+R-r)
 				}
 			}
@@ -216,29 +195,21 @@ func vsumGo(dst []float32, n int, srcs, taps [][]float32, off, stride int) {
 	}
 }
 
-// hsum2Go and vsum2Go run two rows: the second row's sources start at
-// off1 (hsum) or one stride further down (vsum). dst0's overrun past the
-// image width may overlap the start of dst1, so dst0 is written first.
-// (Two-row SIMD kernels sharing loads between the rows were tried and
-// measured slower than two single-row calls — BenchmarkStageRowPairs —
-// so these only call the single-row loops in use.)
-func hsum2Go(dst0, dst1 []float32, n int, srcs, taps [][]float32, off0, off1 int) {
-	hsum(dst0, n, srcs, taps, off0)
-	hsum(dst1, n, srcs, taps, off1)
-}
-
-func vsum2Go(dst0, dst1 []float32, n int, srcs, taps [][]float32, off, stride int) {
-	vsum(dst0, n, srcs, taps, off, stride)
-	vsum(dst1, n, srcs, taps, off+stride, stride)
+// trim returns the tap range [k0,k1) of a vertical pass of radius r
+// (s0 = 2r+1 taps) for output row y of h: with a zero border the taps that
+// read rows outside the image (all zeros) are skipped.
+func trim(y, h, r, s0 int, b Border) (k0, k1 int) {
+	if b == BorderReflect {
+		return 0, s0
+	}
+	return max(0, r-y), min(s0, r-y+h)
 }
 
 // The inner loops in use; a SIMD build replaces them at init when the CPU
 // supports it (see conv_simd_amd64.go).
 var (
-	hsum  = hsumGo
-	vsum  = vsumGo
-	hsum2 = hsum2Go
-	vsum2 = vsum2Go
+	hsum = hsumGo
+	vsum = vsumGo
 )
 
 var build = "plain (portable Go loops)"

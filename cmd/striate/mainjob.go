@@ -22,7 +22,10 @@ type jobSizes struct {
 	labelBudgets  []int // labels per class for the label-efficiency curve
 	levels        map[datasets.PerturbKind][]float64
 	speedImages   int
-	headMinSteps  int // pipeline.Config.HeadMinSteps for the small label budgets
+	headMinSteps  int // pipeline.Config.HeadMinSteps for the small label budgets; 0 = default
+	unlabeled     int // pipeline.Config.Unlabeled; 0 = default
+	bankPatches   int // photo patches for the learned bank; 0 = default
+	bankEpochs    int // dictionary-learning passes; 0 = default
 }
 
 // demoLevels are the robustness levels of the full job: the conditions the
@@ -40,10 +43,30 @@ var demoLevels = map[datasets.PerturbKind][]float64{
 func sizesFor(quick bool) jobSizes {
 	if quick {
 		return jobSizes{trainPerClass: 300, test: 2000, sweepTest: 2000, labelBudgets: []int{10, 100},
-			levels: eval.QuickLevels, speedImages: 500, headMinSteps: 600}
+			levels: eval.QuickLevels, speedImages: 500, headMinSteps: 600, unlabeled: 3000, bankPatches: 6000, bankEpochs: 4}
 	}
 	return jobSizes{trainPerClass: 0, test: 0, sweepTest: 5000, labelBudgets: []int{10, 100, 1000},
 		levels: demoLevels, speedImages: 2000}
+}
+
+// shrink applies the quick job's smaller budgets to c.
+func (sz jobSizes) shrink(c *pipeline.Config) {
+	if sz.headMinSteps > 0 {
+		c.HeadMinSteps = sz.headMinSteps
+	}
+	if sz.unlabeled > 0 {
+		c.Unlabeled = sz.unlabeled
+	}
+	if c.LearnBank != nil {
+		lb := *c.LearnBank
+		if sz.bankPatches > 0 {
+			lb.Patches = sz.bankPatches
+		}
+		if sz.bankEpochs > 0 {
+			lb.Dict.Epochs = sz.bankEpochs
+		}
+		c.LearnBank = &lb
+	}
 }
 
 // modelSpec is one of the pipelines the main job trains.
@@ -112,6 +135,9 @@ func runMainJob(g *globals, d *demoData, quick bool) error {
 		return err
 	}
 	specs := mainJobSpecs(base, g.seed)
+	for i := range specs {
+		sz.shrink(&specs[i].cfg)
+	}
 	configs := map[string]pipeline.Config{}
 	for _, s := range specs {
 		configs[s.name] = s.cfg
@@ -126,11 +152,6 @@ func runMainJob(g *globals, d *demoData, quick bool) error {
 	var banksDrawn bool
 	for _, dp := range sets {
 		train := dp.train
-		for i := range specs {
-			if sz.headMinSteps > 0 {
-				specs[i].cfg.HeadMinSteps = sz.headMinSteps
-			}
-		}
 		if sz.trainPerClass > 0 {
 			train = train.Subset(datasets.PerClass(train.Labels, sz.trainPerClass, g.seed))
 		}
@@ -215,9 +236,6 @@ func runMainJob(g *globals, d *demoData, quick bool) error {
 	mt := firstN(d.mnistTest, sz.test)
 	mtd := eval.FromSet(mt)
 	hand := specs[0]
-	if sz.headMinSteps > 0 {
-		hand.cfg.HeadMinSteps = sz.headMinSteps
-	}
 	fmt.Fprintf(w, "label efficiency of %s on MNIST: %v labels per class\n", hand.name, sz.labelBudgets)
 	bar := g.newProgress(len(sz.labelBudgets), "label efficiency")
 	curve, err := eval.LabelEfficiency(hand.name, func(idx []int) (eval.Predictor, error) {

@@ -2,6 +2,8 @@ package learn
 
 import (
 	"fmt"
+	"math"
+	"os"
 	"runtime"
 	"sync"
 	"testing"
@@ -31,6 +33,7 @@ var (
 func BenchmarkDictProtocol(b *testing.B) {
 	pd := loadProtocol(b)
 	b.Logf("kernels: %s, GOMAXPROCS %d", kernelBuild, runtime.GOMAXPROCS(0))
+	b.Logf("held-out zero-code objective %.3f (README: 78.84)", zeroCodeObjective(pd.held))
 	for i := 0; i < b.N; i++ {
 		// Every pass, a checkpoint codes the held-out set; that time is
 		// excluded from the fit time, giving the objective-versus-time curve.
@@ -107,5 +110,30 @@ func BenchmarkEncodeHeldout(b *testing.B) {
 			b.ReportMetric(float64(st.Signals)*float64(b.N)/b.Elapsed().Seconds(), "patches/s")
 			b.ReportMetric(st.MeanObjective(), "objective")
 		})
+	}
+}
+
+// zeroCodeObjective is the mean of ½||x||², the objective of the zero code.
+func zeroCodeObjective(x []float32) float64 {
+	var ss float64
+	for _, v := range x {
+		ss += float64(v) * float64(v)
+	}
+	return 0.5 * ss / float64(len(x)/256)
+}
+
+// TestProtocolData checks the reading of the bench protocol against the
+// README's zero-code baseline on the held-out patches (78.84; the photo
+// order is explained at benchPhotos).
+func TestProtocolData(t *testing.T) {
+	if os.Getenv("STRIATE_LONG") == "" {
+		t.Skip("STRIATE_LONG not set (whitening 100,000 patches takes ~15 s)")
+	}
+	pd := loadProtocol(t)
+	z := zeroCodeObjective(pd.held)
+	t.Logf("held-out zero-code objective %.4f (shared/bench/README.md: 78.84)", z)
+	// 0.005: the README's two decimals
+	if math.Abs(z-78.84) > 0.005 {
+		t.Errorf("zero-code objective %.4f; want 78.84 ± 0.005", z)
 	}
 }

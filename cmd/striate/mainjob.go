@@ -26,6 +26,7 @@ type jobSizes struct {
 	unlabeled     int // pipeline.Config.Unlabeled; 0 = default
 	bankPatches   int // photo patches for the learned bank; 0 = default
 	bankEpochs    int // dictionary-learning passes; 0 = default
+	bankAtoms     int // atoms of the learned bank; 0 = default (fewer atoms, fewer channels for the templates)
 }
 
 // demoLevels are the robustness levels of the full job: the conditions the
@@ -43,7 +44,7 @@ var demoLevels = map[datasets.PerturbKind][]float64{
 func sizesFor(quick bool) jobSizes {
 	if quick {
 		return jobSizes{trainPerClass: 300, test: 2000, sweepTest: 2000, labelBudgets: []int{10, 100},
-			levels: eval.QuickLevels, speedImages: 500, headMinSteps: 600, unlabeled: 3000, bankPatches: 6000, bankEpochs: 4}
+			levels: eval.QuickLevels, speedImages: 500, headMinSteps: 600, unlabeled: 3000, bankPatches: 6000, bankEpochs: 4, bankAtoms: 12}
 	}
 	return jobSizes{trainPerClass: 0, test: 0, sweepTest: 5000, labelBudgets: []int{10, 100, 1000},
 		levels: demoLevels, speedImages: 2000}
@@ -64,6 +65,9 @@ func (sz jobSizes) shrink(c *pipeline.Config) {
 		}
 		if sz.bankEpochs > 0 {
 			lb.Dict.Epochs = sz.bankEpochs
+		}
+		if sz.bankAtoms > 0 {
+			lb.Dict.Atoms = sz.bankAtoms
 		}
 		c.LearnBank = &lb
 	}

@@ -14,7 +14,9 @@ import (
 // mid-grey 128, its largest positive weight white and its most negative
 // black; tiles sit at gap + index·(size·scale + gap).
 func TestAtomMosaicLayout(t *testing.T) {
-	k := func(w ...float32) v1layer.Kernel { return v1layer.Kernel{Size: 3, W: w, Meta: v1layer.Channel{Pair: -1}} }
+	k := func(w ...float32) v1layer.Kernel {
+		return v1layer.Kernel{Size: 3, W: w, Meta: v1layer.Channel{Pair: -1}}
+	}
 	bank := &v1layer.Bank{Kernels: []v1layer.Kernel{
 		k(0, 0, 0, 0, 2, 0, 0, 0, -1),
 		k(-3, 0, 0, 0, 0, 0, 0, 0, 1),

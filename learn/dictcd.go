@@ -9,9 +9,7 @@ import "math"
 //	a_j ← prox_{λ/G_jj}((r_j + G_jj·a_j) / G_jj)
 //
 // and a change δ costs one axpy r −= δ·G_j. After a sweep over every atom,
-// sweeps visit only the non-zero ones (the active set, as glmnet does) on a
-// gathered copy of their rows and columns of G, so each change costs an
-// axpy of the active-set size rather than K, until
+// sweeps visit only the non-zero ones (the active set, as glmnet does) until
 // the objective F = ½xx − ½a·(c0 + r) + λ||a||₁ settles by the relative-change
 // rule of FISTA; a signal stops when a full sweep also meets the rule. Each
 // sweep, full or active, counts as one iteration.
@@ -39,11 +37,8 @@ func (c *Coder) cdRow(s *scratch, a, c0 []float32, xx float64) (iters int, obj f
 	full := true
 	run := 0   // active sweeps since the last full one
 	fulls := 0 // full sweeps so far
-	var m int
-	ga, ra, aa, a0 := s.ga, s.ra, s.aa, s.ab
 	for iters < c.cfg.MaxIter {
 		iters++
-		var fNew float64
 		if full {
 			fulls++
 			if fulls%refreshEvery == 0 {
@@ -62,72 +57,29 @@ func (c *Coder) cdRow(s *scratch, a, c0 []float32, xx float64) (iters int, obj f
 					active = append(active, int32(j))
 				}
 			}
-			fNew = cdObjective(a, c0, r, xx, lam)
 		} else {
-			if run == 0 {
-				// Enter the active phase: gather the active rows and
-				// columns of G, so that sweeps touch m-long vectors only.
-				m = len(active)
-				for i, j := range active {
-					row := g[int(j)*k:]
-					for l, jj := range active {
-						ga[i*m+l] = row[jj]
-					}
-					ra[i], aa[i], a0[i] = r[j], a[j], a[j]
-				}
+			for _, j := range active {
+				c.cdStep(a, r, g, int(j), k, lam, nonneg)
 			}
-			for i := 0; i < m; i++ {
-				c.cdStep(aa[:m], ra[:m], ga[:m*m], i, m, lam, nonneg)
-			}
-			fNew = cdObjectiveActive(aa[:m], ra[:m], c0, active, xx, lam)
 		}
+		fNew := cdObjective(a, c0, r, xx, lam)
 		done := stopped(f, fNew, c.cfg.Tol)
 		f = fNew
 		switch {
 		case done && full:
 			conv = true
 			return iters, f, conv
-		case !full && (done || run+1 >= maxActiveSweeps):
-			// The active set has settled (or float32 noise keeps it from
-			// settling to a tiny Tol): write back and check every atom.
-			c.leaveActive(a, r, aa[:m], a0[:m], active)
+		case done || run >= maxActiveSweeps:
+			// the active set has settled (or float32 noise keeps it from
+			// settling to a tiny Tol): check every atom again
 			full, run = true, 0
-		case full:
-			full, run = false, 0
 		default:
+			full = false
 			run++
 		}
 	}
-	if !full {
-		c.leaveActive(a, r, aa[:m], a0[:m], active)
-	}
 	s.act = active
 	return iters, f, conv
-}
-
-// leaveActive scatters the active codes back into a and brings the full
-// residual r up to date for their changes since the phase began.
-func (c *Coder) leaveActive(a, r, aa, a0 []float32, active []int32) {
-	k := c.dict.k
-	for i, j := range active {
-		if d := aa[i] - a0[i]; d != 0 {
-			axpy(-d, c.gram[int(j)*k:(int(j)+1)*k], r)
-		}
-		a[j] = aa[i]
-	}
-}
-
-func cdObjectiveActive(aa, ra, c0 []float32, active []int32, xx, lam float64) float64 {
-	var q, l1 float64
-	for i, v := range aa {
-		if v == 0 {
-			continue
-		}
-		fv := float64(v)
-		q += fv * (float64(c0[active[i]]) + float64(ra[i]))
-		l1 += math.Abs(fv)
-	}
-	return 0.5*xx - 0.5*q + lam*l1
 }
 
 // maxActiveSweeps bounds the active-set sweeps between full sweeps, so

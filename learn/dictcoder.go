@@ -209,8 +209,6 @@ type scratch struct {
 	corr             []float32 // chunkRows×K correlations D·x
 	a0, p, p0, r, ya []float32 // per-row vectors of length K
 	act              []int32   // CD's active set
-	ga               []float32 // CD's gathered active Gram block (≤ K×K)
-	ra, aa, ab       []float32 // CD's active residuals and codes
 }
 
 func (c *Coder) newScratch() *scratch {
@@ -218,8 +216,7 @@ func (c *Coder) newScratch() *scratch {
 	buf := make([]float32, 5*k)
 	return &scratch{corr: make([]float32, chunkRows*k),
 		a0: buf[0:k], p: buf[k : 2*k], p0: buf[2*k : 3*k], r: buf[3*k : 4*k], ya: buf[4*k : 5*k],
-		act: make([]int32, 0, k), ga: make([]float32, k*k),
-		ra: make([]float32, k), aa: make([]float32, k), ab: make([]float32, k)}
+		act: make([]int32, 0, k)}
 }
 
 func (c *Coder) encodeChunk(s *scratch, dst, x []float32, ch int) EncodeStats {

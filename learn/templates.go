@@ -208,6 +208,7 @@ type Templates struct {
 	normEps float32   // absolute ε of the per-patch normalisation; < 0 = off
 
 	filt []float32 // F = t·W (k×dim): responses r = F·(x̂ − μ) for the soft encoder
+	fmu  []float32 // F·μ (k): the soft encoder's per-template offset
 	pool sync.Pool
 }
 
@@ -352,6 +353,14 @@ func (t *Templates) derive() {
 		for j := range fk {
 			fk[j] = float32(acc[j])
 		}
+	}
+	t.fmu = make([]float32, t.k)
+	for k := range t.fmu {
+		var s float64
+		for j, f := range t.filt[k*t.dim : (k+1)*t.dim] {
+			s += float64(f) * float64(t.mean[j])
+		}
+		t.fmu[k] = float32(s)
 	}
 }
 

@@ -14,6 +14,84 @@ type tmplScratch struct {
 	r      []float32    // positions×K responses
 	f      []float32    // positions×F features
 	pooled []float32    // one scale's pooled vector
+	pm     []float64    // per-position patch mean
+	pinv   []float64    // per-position 1/sqrt(var + ε) (1 when normalisation is off)
+	box    []float64    // (H+1)×(W+1)×2 integral images of Σ_c x and Σ_c x²
+}
+
+func growF64(s []float64, n int) []float64 {
+	if cap(s) < n {
+		return make([]float64, n)
+	}
+	return s[:n]
+}
+
+// patchMoments fills s.pm and s.pinv for the oh×ow patch positions of m:
+// the mean and 1/sqrt(variance + ε) over each C×p×p patch, from integral
+// images (summed-area tables; Crow 1984) of Σ_c x and Σ_c x², accumulated in
+// float64. With normalisation off it writes mean 0 and scale 1.
+func (t *Templates) patchMoments(s *tmplScratch, m *v1layer.Maps, oh, ow int) {
+	np := oh * ow
+	if t.normEps < 0 {
+		for i := 0; i < np; i++ {
+			s.pm[i], s.pinv[i] = 0, 1
+		}
+		return
+	}
+	H, W, p, st := m.H, m.W, t.p, t.cfg.Stride
+	W1 := W + 1
+	s.box = growF64(s.box, 2*(H+1)*W1)
+	b := s.box
+	clear(b[:2*W1])
+	hw := H * W
+	for y := 0; y < H; y++ {
+		var r1, r2 float64 // running row sums
+		b[2*(y+1)*W1], b[2*(y+1)*W1+1] = 0, 0
+		for x := 0; x < W; x++ {
+			var c1, c2 float64
+			for c, off := 0, y*W+x; c < m.C; c, off = c+1, off+hw {
+				v := float64(m.Pix[off])
+				c1 += v
+				c2 += v * v
+			}
+			r1 += c1
+			r2 += c2
+			o := 2 * ((y+1)*W1 + x + 1)
+			u := 2 * (y*W1 + x + 1)
+			b[o] = b[u] + r1
+			b[o+1] = b[u+1] + r2
+		}
+	}
+	n := float64(m.C * p * p)
+	eps := float64(t.normEps)
+	for y := 0; y < oh; y++ {
+		y0, y1 := y*st, y*st+p
+		for x := 0; x < ow; x++ {
+			x0, x1 := x*st, x*st+p
+			a, bb, c, d := 2*(y0*W1+x0), 2*(y0*W1+x1), 2*(y1*W1+x0), 2*(y1*W1+x1)
+			s1 := b[d] - b[bb] - b[c] + b[a]
+			s2 := b[d+1] - b[bb+1] - b[c+1] + b[a+1]
+			mean := s1 / n
+			v := max(0, s2/n-mean*mean)
+			s.pm[y*ow+x] = mean
+			s.pinv[y*ow+x] = 1 / math.Sqrt(v+eps)
+		}
+	}
+}
+
+// extractCentred writes the C×p×p patch at (y0, x0) of m minus mean into
+// dst, index (c·p + dy)·p + dx (extractPatch's layout).
+func extractCentred(dst []float32, m *v1layer.Maps, y0, x0, p int, mean float32) {
+	i := 0
+	for c := 0; c < m.C; c++ {
+		for dy := 0; dy < p; dy++ {
+			off := (c*m.H+y0+dy)*m.W + x0
+			for _, v := range m.Pix[off : off+p] {
+				dst[i] = v - mean
+				i++
+			}
+		}
+	}
 }
 
 func grow(s []float32, n int) []float32 {
@@ -147,33 +225,49 @@ func (t *Templates) EncodeMaps(dst *v1layer.Maps, m *v1layer.Maps) *v1layer.Maps
 func (t *Templates) features(s *tmplScratch, m *v1layer.Maps) (oh, ow int) {
 	oh, ow = t.positions(m.H, m.W)
 	np, dim, k, st := oh*ow, t.dim, t.k, t.cfg.Stride
+	// Per-position mean and 1/sqrt(var + ε) of every C×p×p patch from box
+	// sums of the channel-summed maps (the same moments normalizePatch
+	// takes patch by patch, in one pass over the maps).
+	s.pm = growF64(s.pm, np)
+	s.pinv = growF64(s.pinv, np)
+	t.patchMoments(s, m, oh, ow)
 	s.p = grow(s.p, np*dim)
-	for y := 0; y < oh; y++ {
-		for x := 0; x < ow; x++ {
-			row := s.p[(y*ow+x)*dim : (y*ow+x+1)*dim]
-			extractPatch(row, m, y*st, x*st, t.p)
-			if t.normEps >= 0 {
-				normalizePatch(row, t.normEps)
-			}
-			for j := range row {
-				row[j] -= t.mean[j]
-			}
-		}
-	}
 	s.r = grow(s.r, np*k)
 	F := t.Features()
 	s.f = grow(s.f, np*F)
 	if t.cfg.Encoder == EncodeSoft {
+		// r = F·(x̂ − μ) with x̂ = (x − m)·inv is (F·(x − m))·inv − F·μ:
+		// the patches are only centred, the scale and the offset are applied
+		// to the K responses instead of the dim inputs.
+		for y := 0; y < oh; y++ {
+			for x := 0; x < ow; x++ {
+				i := y*ow + x
+				extractCentred(s.p[i*dim:(i+1)*dim], m, y*st, x*st, t.p, float32(s.pm[i]))
+			}
+		}
 		gemmNT(s.r, s.p, t.filt, np, k, dim)
 		a := t.alpha
 		for i := 0; i < np; i++ {
 			r, f := s.r[i*k:(i+1)*k], s.f[i*F:(i+1)*F]
+			inv := float32(s.pinv[i])
 			for j, v := range r {
+				v = v*inv - t.fmu[j]
 				f[j] = max(0, v-a)
 				f[k+j] = max(0, -v-a)
 			}
 		}
 		return oh, ow
+	}
+	for y := 0; y < oh; y++ {
+		for x := 0; x < ow; x++ {
+			i := y*ow + x
+			row := s.p[i*dim : (i+1)*dim]
+			extractPatch(row, m, y*st, x*st, t.p)
+			mean, inv := s.pm[i], s.pinv[i]
+			for j, v := range row {
+				row[j] = float32((float64(v)-mean)*inv) - t.mean[j]
+			}
+		}
 	}
 	// Triangle: u = W(x̂ − μ)/||W(x̂ − μ)||, z_j = ||u − t_j|| = sqrt(2 − 2·u·t_j).
 	s.pw = grow(s.pw, np*dim)

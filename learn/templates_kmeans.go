@@ -5,8 +5,6 @@ import (
 	"math"
 	"math/rand/v2"
 
-	"gonum.org/v1/gonum/blas"
-	"gonum.org/v1/gonum/blas/blas32"
 	"gonum.org/v1/gonum/mat"
 )
 
@@ -34,17 +32,9 @@ func fitWhitening(X []float32, n, dim int, eps float64) (mean, W []float32, err 
 		}
 		return mean, W, nil
 	}
-	xc := mat.NewDense(n, dim, nil)
-	for i := 0; i < n; i++ {
-		row := xc.RawRowView(i)
-		for j, v := range X[i*dim : (i+1)*dim] {
-			row[j] = float64(v) - mu[j]
-		}
-	}
-	var cov mat.SymDense
-	cov.SymOuterK(1/float64(n), xc.T())
+	cov := covariance(X, n, dim, mu)
 	var es mat.EigenSym
-	if !es.Factorize(&cov, true) {
+	if !es.Factorize(cov, true) {
 		return nil, nil, fmt.Errorf("learn: template fit: the eigendecomposition of the %d×%d patch covariance did not converge", dim, dim)
 	}
 	vals := es.Values(nil)
@@ -93,11 +83,43 @@ func applyWhitening(dst, X []float32, n, dim int, mean, W []float32) {
 				d[j] = v - mean[j]
 			}
 		}
-		blas32.Gemm(blas.NoTrans, blas.NoTrans, 1,
-			blas32.General{Rows: r1 - r0, Cols: dim, Stride: dim, Data: b},
-			blas32.General{Rows: dim, Cols: dim, Stride: dim, Data: W},
-			0, blas32.General{Rows: r1 - r0, Cols: dim, Stride: dim, Data: dst[r0*dim : r1*dim]})
+		gemmNT(dst[r0*dim:r1*dim], b, W, r1-r0, dim, dim) // W symmetric: b·Wᵀ = b·W
 	}
+}
+
+// covariance returns the dim×dim covariance (1/n)·Σ_i (x_i − μ)(x_i − μ)ᵀ of
+// the n rows of X. Blocks of covBlock rows are centred, transposed and
+// multiplied in float32 with gemmNT (the SIMD kernel in the simd build);
+// the block products are summed in float64, so the rounding error is that
+// of a covBlock-term float32 sum (~1e-6 relative), not of an n-term one.
+func covariance(X []float32, n, dim int, mu []float64) *mat.SymDense {
+	const covBlock = 1024
+	acc := make([]float64, dim*dim)
+	b := min(n, covBlock)
+	xt := make([]float32, dim*b)
+	prod := make([]float32, dim*dim)
+	for r0 := 0; r0 < n; r0 += covBlock {
+		r1 := min(n, r0+covBlock)
+		m := r1 - r0
+		for i := r0; i < r1; i++ {
+			for j, v := range X[i*dim : (i+1)*dim] {
+				xt[j*m+i-r0] = float32(float64(v) - mu[j])
+			}
+		}
+		gemmNT(prod, xt[:dim*m], xt[:dim*m], dim, dim, m)
+		for i, v := range prod {
+			acc[i] += float64(v)
+		}
+	}
+	cov := mat.NewSymDense(dim, nil)
+	inv := 1 / float64(n)
+	for i := 0; i < dim; i++ {
+		for j := i; j < dim; j++ {
+			// Average the two triangles so the result is exactly symmetric.
+			cov.SetSym(i, j, (acc[i*dim+j]+acc[j*dim+i])/2*inv)
+		}
+	}
+	return cov
 }
 
 type kmeansResult struct {

@@ -363,3 +363,174 @@ func TestTemplateConfigErrors(t *testing.T) {
 		t.Error("OutLen accepted the wrong channel count")
 	}
 }
+
+// TestTemplateEncodeMatchesFormula checks Encode's fused path (moments from
+// integral images, scale and offset applied to the responses) against the
+// encoder written out patch by patch in float64 as in Coates, Lee & Ng
+// (2011): x̂ = (x − mean x)/sqrt(var x + ε), r_k = F_k·(x̂ − μ), soft features
+// max(0, r − α) and max(0, −r − α), max-pooled on a 2×2 grid and over the
+// whole map. encodeTol: float32 im2col GEMM over dim = 75 terms of O(1)
+// values against float64, well under 1e-4 of the largest response.
+func TestTemplateEncodeMatchesFormula(t *testing.T) {
+	maps := randomMaps(40, 3, 11, 13, 7)
+	for _, stride := range []int{1, 2} {
+		cfg := TemplateConfig{K: 6, PatchSize: 5, Patches: 2000, Grids: []int{1, 2}, Pool: PoolMax, Stride: stride, Seed: 3}
+		tm := fitTemplates(t, cfg, maps)
+		m := &maps[39]
+		got := tm.Encode(nil, m)
+		oh, ow := tm.positions(m.H, m.W)
+		k, dim, p := tm.K(), tm.dim, tm.p
+		F := 2 * k
+		feat := make([]float64, oh*ow*F)
+		x := make([]float64, dim)
+		for y := 0; y < oh; y++ {
+			for xx := 0; xx < ow; xx++ {
+				i := 0
+				var s float64
+				for c := 0; c < m.C; c++ {
+					for dy := 0; dy < p; dy++ {
+						for dx := 0; dx < p; dx++ {
+							x[i] = float64(m.Pix[(c*m.H+y*stride+dy)*m.W+xx*stride+dx])
+							s += x[i]
+							i++
+						}
+					}
+				}
+				mean := s / float64(dim)
+				var q float64
+				for _, v := range x {
+					q += (v - mean) * (v - mean)
+				}
+				inv := 1 / math.Sqrt(q/float64(dim)+float64(tm.normEps))
+				for kk := 0; kk < k; kk++ {
+					var r float64
+					for j, v := range x {
+						r += float64(tm.filt[kk*dim+j]) * ((v-mean)*inv - float64(tm.mean[j]))
+					}
+					a := float64(tm.alpha)
+					feat[(y*ow+xx)*F+kk] = math.Max(0, r-a)
+					feat[(y*ow+xx)*F+k+kk] = math.Max(0, -r-a)
+				}
+			}
+		}
+		var want []float64
+		for _, g := range []int{1, 2} {
+			for f := 0; f < F; f++ {
+				for gy := 0; gy < g; gy++ {
+					for gx := 0; gx < g; gx++ {
+						v := math.Inf(-1)
+						for y := gy * oh / g; y < (gy+1)*oh/g; y++ {
+							for xx := gx * ow / g; xx < (gx+1)*ow/g; xx++ {
+								v = math.Max(v, feat[(y*ow+xx)*F+f])
+							}
+						}
+						want = append(want, v)
+					}
+				}
+			}
+		}
+		if len(got) != len(want) {
+			t.Fatalf("stride %d: %d features, want %d", stride, len(got), len(want))
+		}
+		var top float64
+		for _, v := range want {
+			top = math.Max(top, v)
+		}
+		if top == 0 {
+			t.Fatalf("stride %d: all reference features are zero; the check would be empty", stride)
+		}
+		const encodeTol = 1e-4
+		for i := range want {
+			if d := math.Abs(float64(got[i]) - want[i]); d > encodeTol*top {
+				t.Fatalf("stride %d: feature %d = %g, formula %g (|Δ| %.3g > %.0e·%g)", stride, i, got[i], want[i], d, encodeTol, top)
+			}
+		}
+	}
+}
+
+// TestWhiteningIsZCA checks fitWhitening against the definition of ZCA
+// whitening (Bell & Sejnowski 1997, Vision Res. 37:3327-3338): W is the
+// symmetric inverse square root of the regularised covariance, so W must be
+// symmetric and W·(C + εI)·W = I, with C the covariance computed here in
+// float64 directly from its definition and ε = eps·(mean eigenvalue) =
+// eps·trace(C)/dim. zcaTol: W is stored in float32 and C's blocks are
+// summed in float32 (~1e-6 relative each); over a condition number of about
+// 1/eps = 10 that stays well below 1e-4.
+func TestWhiteningIsZCA(t *testing.T) {
+	const n, dim, eps = 3000, 40, 0.1
+	rng := rand.New(rand.NewPCG(11, 12))
+	X := make([]float32, n*dim)
+	for i := 0; i < n; i++ {
+		// Correlated columns: a random walk along the row plus noise.
+		var w float64
+		for j := 0; j < dim; j++ {
+			w += rng.NormFloat64()
+			X[i*dim+j] = float32(0.3*w + rng.NormFloat64() + 2)
+		}
+	}
+	mean, W, err := fitWhitening(X, n, dim, eps)
+	if err != nil {
+		t.Fatal(err)
+	}
+	mu := make([]float64, dim)
+	for i := 0; i < n; i++ {
+		for j := 0; j < dim; j++ {
+			mu[j] += float64(X[i*dim+j]) / n
+		}
+	}
+	C := make([]float64, dim*dim)
+	for i := 0; i < n; i++ {
+		for a := 0; a < dim; a++ {
+			da := float64(X[i*dim+a]) - mu[a]
+			for b := 0; b < dim; b++ {
+				C[a*dim+b] += da * (float64(X[i*dim+b]) - mu[b]) / n
+			}
+		}
+	}
+	var tr float64
+	for a := 0; a < dim; a++ {
+		if d := math.Abs(float64(mean[a]) - mu[a]); d > 1e-5 {
+			t.Fatalf("mean[%d] = %g, want %g", a, mean[a], mu[a])
+		}
+		tr += C[a*dim+a]
+	}
+	e := eps * tr / dim
+	const zcaTol = 1e-4
+	for a := 0; a < dim; a++ {
+		for b := 0; b < dim; b++ {
+			if W[a*dim+b] != W[b*dim+a] {
+				t.Fatalf("W not symmetric at (%d,%d)", a, b)
+			}
+		}
+	}
+	// M = W·(C+εI), then M·W.
+	M := make([]float64, dim*dim)
+	for a := 0; a < dim; a++ {
+		for j := 0; j < dim; j++ {
+			var s float64
+			for i := 0; i < dim; i++ {
+				c := C[i*dim+j]
+				if i == j {
+					c += e
+				}
+				s += float64(W[a*dim+i]) * c
+			}
+			M[a*dim+j] = s
+		}
+	}
+	for a := 0; a < dim; a++ {
+		for b := 0; b < dim; b++ {
+			var s float64
+			for j := 0; j < dim; j++ {
+				s += M[a*dim+j] * float64(W[j*dim+b])
+			}
+			want := 0.0
+			if a == b {
+				want = 1
+			}
+			if math.Abs(s-want) > zcaTol {
+				t.Fatalf("(W(C+εI)W)[%d,%d] = %.6g, want %g (tol %g)", a, b, s, want, zcaTol)
+			}
+		}
+	}
+}

@@ -79,6 +79,7 @@ func TestDemoQuick(t *testing.T) {
 		Robustness []struct {
 			Points []struct {
 				Label    string  `json:"label"`
+				N        int     `json:"n"`
 				Accuracy float64 `json:"accuracy"`
 			} `json:"points"`
 		} `json:"robustness"`
@@ -124,6 +125,16 @@ func TestDemoQuick(t *testing.T) {
 	}
 	if len(res.Robustness) != 4 {
 		t.Errorf("%d robustness sweeps, want 4", len(res.Robustness))
+	}
+	for _, r := range res.Robustness {
+		if len(r.Points) == 0 {
+			t.Error("a robustness sweep has no points")
+		}
+		for _, p := range r.Points {
+			if p.N != 1000 {
+				t.Errorf("robustness %s scored on %d images, want the quick sweep's first 1000", p.Label, p.N)
+			}
+		}
 	}
 	if len(res.Labels) != 1 || len(res.Labels[0].Points) != 2 {
 		t.Fatalf("label efficiency: %+v, want one curve of two points", res.Labels)

@@ -43,7 +43,7 @@ var demoLevels = map[datasets.PerturbKind][]float64{
 
 func sizesFor(quick bool) jobSizes {
 	if quick {
-		return jobSizes{trainPerClass: 300, test: 2000, sweepTest: 2000, labelBudgets: []int{10, 100},
+		return jobSizes{trainPerClass: 300, test: 2000, sweepTest: 1000, labelBudgets: []int{10, 100},
 			levels: eval.QuickLevels, speedImages: 500, headMinSteps: 600, unlabeled: 3000, bankPatches: 6000, bankEpochs: 4, bankAtoms: 12}
 	}
 	return jobSizes{trainPerClass: 0, test: 0, sweepTest: 5000, labelBudgets: []int{10, 100, 1000},

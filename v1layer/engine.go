@@ -20,7 +20,7 @@ type engineScratch struct {
 	pad          []float32
 	planes       [][]float32
 	srcs         [][]float32
-	taps         [][]float32
+	taps         []filt
 }
 
 func newEngine(ks []Kernel, R int) *engine {
@@ -56,7 +56,7 @@ func (e *engine) scratchFor(s *engineScratch, h, w int) *engineScratch {
 		maxTerms = max(maxTerms, len(k.terms))
 	}
 	s.srcs = make([][]float32, maxTerms)
-	s.taps = make([][]float32, maxTerms)
+	s.taps = make([]filt, maxTerms)
 	s.h, s.w, s.nx, s.pw = h, w, nx, pw
 	return s
 }
@@ -93,7 +93,7 @@ func (e *engine) responses(resp [][]float32, img []float32, h, w int, b Border, 
 				for y := 0; y < h; y++ {
 					py := R + y
 					k0, k1 := trim(y, h, q.r, s0, b)
-					taps[0] = q.taps[k0:k1]
+					taps[0] = q.taps.sub(k0, k1)
 					vsum(pl[py*pw+c0:], nc, srcs, taps, (py-q.r+k0)*pw+c0, pw)
 				}
 			}
@@ -114,7 +114,7 @@ func (e *engine) responses(resp [][]float32, img []float32, h, w int, b Border, 
 				for y := 0; y < h; y++ {
 					k0, k1 := trim(y, h, r, s0, b)
 					for t, tm := range kp.terms {
-						taps[t] = tm.taps[k0:k1]
+						taps[t] = tm.taps.sub(k0, k1)
 					}
 					vsum(out[y*w:], nx, srcs, taps, (R+y-r+k0)*pw+R, pw)
 				}
@@ -145,10 +145,11 @@ func slotIn(fo []int, fi int) int {
 // hsumGo is the portable horizontal second pass:
 //
 //	dst[x] = Σ_t Σ_u taps[t][u]·srcs[t][off+x+u],  x ∈ [0,n)
-func hsumGo(dst []float32, n int, srcs, taps [][]float32, off int) {
+func hsumGo(dst []float32, n int, srcs [][]float32, taps []filt, off int) {
 	d := dst[:n]
 	clear(d)
-	for t, tp := range taps {
+	for t, f := range taps {
+		tp := f.w
 		src := srcs[t][off : off+n+len(tp)-1]
 		u := 0
 		for ; u+4 <= len(tp); u += 4 {
@@ -170,10 +171,11 @@ func hsumGo(dst []float32, n int, srcs, taps [][]float32, off int) {
 // vsumGo is the portable vertical pass:
 //
 //	dst[x] = Σ_t Σ_k taps[t][k]·srcs[t][off+k·stride+x],  x ∈ [0,n)
-func vsumGo(dst []float32, n int, srcs, taps [][]float32, off, stride int) {
+func vsumGo(dst []float32, n int, srcs [][]float32, taps []filt, off, stride int) {
 	d := dst[:n]
 	clear(d)
-	for t, tp := range taps {
+	for t, f := range taps {
+		tp := f.w
 		src := srcs[t]
 		k := 0
 		for ; k+4 <= len(tp); k += 4 {

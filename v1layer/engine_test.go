@@ -35,10 +35,10 @@ func TestSIMDMatchesPortable(t *testing.T) {
 		for _, s := range []int{1, 3, 11, 15, 29} {
 			const stride = 300
 			nt := 1 + rng.IntN(3)
-			srcs, taps := make([][]float32, nt), make([][]float32, nt)
+			srcs, taps := make([][]float32, nt), make([]filt, nt)
 			for t := range srcs {
 				srcs[t] = rnd(stride*(s+2) + n + s)
-				taps[t] = rnd(s)
+				taps[t] = mkFilt(rnd(s))
 			}
 			scale := float64(nt * s)
 			a, b := make([]float32, n), make([]float32, n)

@@ -94,14 +94,14 @@ func canon(x []float64) ([]float64, float64) {
 // pass1 is one first-pass filter.
 type pass1 struct {
 	vertical bool
-	taps     []float32
+	taps     filt
 	r        int
 }
 
 // term is one second pass: read plane src, filter with taps in the other direction.
 type term struct {
 	src  int
-	taps []float32
+	taps filt
 }
 
 // kplan says how one kernel's response is computed.
@@ -255,10 +255,10 @@ func (p *plan) addKernel(ki int, fs []factor, colFirst bool) {
 		}
 		if src < 0 {
 			src = len(p.first)
-			p.first = append(p.first, pass1{vertical: colFirst, taps: f32s(ca, 1), r: len(ca) / 2})
+			p.first = append(p.first, pass1{vertical: colFirst, taps: mkFilt(f32s(ca, 1)), r: len(ca) / 2})
 			p.firstC = append(p.firstC, ca)
 		}
-		kp.terms = append(kp.terms, term{src: src, taps: f32s(b, scale)})
+		kp.terms = append(kp.terms, term{src: src, taps: mkFilt(f32s(b, scale))})
 	}
 }
 
@@ -269,3 +269,23 @@ func f32s(x []float64, scale float64) []float32 {
 	}
 	return out
 }
+
+// filt is one 1-D filter: its taps, and each tap broadcast to 8 lanes for
+// the SIMD loops (which then load a tap vector instead of broadcasting).
+type filt struct {
+	w  []float32
+	wb [][8]float32
+}
+
+func mkFilt(w []float32) filt {
+	f := filt{w: w, wb: make([][8]float32, len(w))}
+	for i, v := range w {
+		for j := range f.wb[i] {
+			f.wb[i][j] = v
+		}
+	}
+	return f
+}
+
+// sub returns taps [k0,k1).
+func (f filt) sub(k0, k1 int) filt { return filt{w: f.w[k0:k1], wb: f.wb[k0:k1]} }

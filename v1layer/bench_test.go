@@ -163,3 +163,43 @@ func BenchmarkPool(b *testing.B) {
 		}
 	}
 }
+
+// BenchmarkDirect times the path for kernels with no separable plan on a
+// learned-style bank (24 full-rank 9×9 kernels, as package learn fits),
+// 28×28 and 64×64: "engine" is the front end's correlation stage (SIMD
+// in a SIMD build), "scalar" the plain row-AXPY loops it replaced.
+func BenchmarkDirect(b *testing.B) {
+	rng := rand.New(rand.NewPCG(5, 6))
+	ks := make([]Kernel, 24)
+	for i := range ks {
+		ks[i] = Kernel{Size: 9, W: make([]float32, 81)}
+		for j := range ks[i].W {
+			ks[i].W[j] = float32(rng.NormFloat64() * 0.1)
+		}
+	}
+	e := newEngine(ks, 4)
+	for _, sz := range []int{28, 64} {
+		img := benchImages(1, sz, sz)[0]
+		s := e.scratchFor(nil, sz, sz)
+		resp := make([][]float32, len(ks))
+		for i := range resp {
+			resp[i] = make([]float32, respLen(sz, sz))
+		}
+		for _, path := range []string{"engine", "scalar"} {
+			b.Run(fmt.Sprintf("%s/%dx%d", path, sz, sz), func(b *testing.B) {
+				start := time.Now()
+				for i := 0; i < b.N; i++ {
+					if path == "engine" {
+						e.responses(resp, img, sz, sz, BorderZero, s)
+						continue
+					}
+					padImage(s.pad, img, sz, sz, 4, s.pw, BorderZero)
+					for k := range ks {
+						correlateDirect(resp[k], s.pad, s.pw, sz, sz, 4, ks[k].W, 9)
+					}
+				}
+				b.ReportMetric(float64(b.N)/time.Since(start).Seconds(), "img/s")
+			})
+		}
+	}
+}

@@ -40,32 +40,3 @@ func reflectIndex(i, n int) int {
 	}
 	return i
 }
-
-// correlateDirect writes the correlation of the padded image pad (row
-// stride pw, border R) with the size×size kernel k to dst (h×w):
-//
-//	dst(y,x) = Σ_v Σ_u k[v][u]·img(y+v−r, x+u−r)
-//
-// as row AXPYs over pre-padded rows. It is the plain reference path used
-// for kernels no separable plan beats.
-func correlateDirect(dst, pad []float32, pw, h, w, R int, k []float32, size int) {
-	r := size / 2
-	off := R - r
-	for y := 0; y < h; y++ {
-		out := dst[y*w : y*w+w]
-		clear(out)
-		for v := 0; v < size; v++ {
-			row := pad[(y+off+v)*pw+off:]
-			for u := 0; u < size; u++ {
-				c := k[v*size+u]
-				if c == 0 {
-					continue
-				}
-				in := row[u : u+w]
-				for x := range out {
-					out[x] += c * in[x]
-				}
-			}
-		}
-	}
-}

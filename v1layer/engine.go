@@ -53,7 +53,7 @@ func (e *engine) scratchFor(s *engineScratch, h, w int) *engineScratch {
 	}
 	maxTerms := 0
 	for _, k := range e.p.ks {
-		maxTerms = max(maxTerms, len(k.terms))
+		maxTerms = max(maxTerms, len(k.terms), len(k.rows))
 	}
 	s.srcs = make([][]float32, maxTerms)
 	s.taps = make([]filt, maxTerms)
@@ -125,10 +125,22 @@ func (e *engine) responses(resp [][]float32, img []float32, h, w int, b Border, 
 			}
 		}
 	}
+	// Kernels without a separable plan: the 2-D correlation as a sum of
+	// horizontal passes, one per kernel row v, over the padded rows
+	// starting v rows further down (srcs[v] = pad[v·pw:]).
 	for ki := range p.ks {
-		if p.ks[ki].direct {
-			k := e.kernels[ki]
-			correlateDirect(resp[ki], s.pad, pw, h, w, R, k.W, k.Size)
+		kp := &p.ks[ki]
+		if !kp.direct {
+			continue
+		}
+		r := kp.r
+		srcs := s.srcs[:len(kp.rows)]
+		for v := range srcs {
+			srcs[v] = s.pad[v*pw:]
+		}
+		out := resp[ki]
+		for y := 0; y < h; y++ {
+			hsum(out[y*w:], nx, srcs, kp.rows, (R+y-r)*pw+R-r)
 		}
 	}
 }

@@ -106,8 +106,9 @@ type term struct {
 
 // kplan says how one kernel's response is computed.
 type kplan struct {
-	direct    bool // plain 2-D row-AXPY correlation
-	vertical2 bool // second pass is vertical (the first passes were horizontal)
+	direct    bool   // plain 2-D correlation, one horizontal term per kernel row
+	rows      []filt // direct: the kernel's rows
+	vertical2 bool   // second pass is vertical (the first passes were horizontal)
 	terms     []term
 	r         int
 }
@@ -133,6 +134,9 @@ func makePlan(kernels []Kernel) *plan {
 		f := separate(k.W, k.Size)
 		if f == nil || 2*len(f)*k.Size >= k.Size*k.Size {
 			p.ks[i].direct = true
+			for v := 0; v < k.Size; v++ {
+				p.ks[i].rows = append(p.ks[i].rows, mkFilt(append([]float32(nil), k.W[v*k.Size:(v+1)*k.Size]...)))
+			}
 			continue
 		}
 		facs[i] = f

@@ -75,9 +75,12 @@ type InputConfig struct {
 	// Normalize is "minmax" (default: stretch each image's grey values to
 	// span [0,1], which undoes a global contrast change) or "none".
 	Normalize string `json:"normalize,omitempty"`
-	// Denoise is "none" (default) or "median3": a 3×3 median filter applied
-	// first, which removes most of strong pixel noise at a small cost in fine
-	// detail.
+	// Denoise is "auto" (default), "median3" or "none". "median3" applies a
+	// 3×3 median filter first, which removes most of strong pixel noise at a
+	// small cost in fine detail; "auto" estimates each image's noise level
+	// (Donoho & Johnstone's wavelet MAD) and filters only noisy images: none
+	// below an estimated σ of 0.13, once up to 0.185, twice above. Clean
+	// MNIST and Fashion-MNIST images are left untouched.
 	Denoise string `json:"denoise,omitempty"`
 	// Center is "mass" (default: shift each image by whole pixels so that
 	// its centre of mass is at the image centre, as MNIST's makers did) or
@@ -153,7 +156,7 @@ func (c Config) withDefaults() Config {
 		c.Input.Normalize = NormalizeMinMax
 	}
 	if c.Input.Denoise == "" {
-		c.Input.Denoise = DenoiseNone
+		c.Input.Denoise = DenoiseAuto
 	}
 	if c.Input.Center == "" {
 		c.Input.Center = CenterMass

@@ -3,6 +3,7 @@ package pipeline
 import (
 	"fmt"
 	"math"
+	"slices"
 )
 
 // Input normalisation modes (InputConfig.Normalize, InputConfig.Center).
@@ -12,6 +13,7 @@ const (
 	CenterMass      = "mass" // integer shift putting the centre of mass at the centre
 	CenterNone      = "none"
 	DenoiseMedian3  = "median3" // 3×3 median filter, border pixels replicated
+	DenoiseAuto     = "auto"    // estimate the noise level; 3×3 median (twice when heavy) only on noisy images
 	DenoiseNone     = "none"
 )
 
@@ -27,9 +29,9 @@ func (c InputConfig) validate() error {
 		return fmt.Errorf("pipeline: input.normalize %q; want %q (default) or %q", c.Normalize, NormalizeMinMax, NormalizeNone)
 	}
 	switch c.Denoise {
-	case DenoiseMedian3, DenoiseNone:
+	case DenoiseMedian3, DenoiseAuto, DenoiseNone:
 	default:
-		return fmt.Errorf("pipeline: input.denoise %q; want %q (default) or %q", c.Denoise, DenoiseMedian3, DenoiseNone)
+		return fmt.Errorf("pipeline: input.denoise %q; want %q, %q or %q", c.Denoise, DenoiseAuto, DenoiseMedian3, DenoiseNone)
 	}
 	switch c.Center {
 	case CenterMass, CenterNone:
@@ -54,17 +56,28 @@ func (c InputConfig) validate() error {
 // computing the center of mass of the pixels"). An image with no mass is
 // left where it is.
 func normalizeInput(buf, img []float32, h, w int, c InputConfig) []float32 {
-	if c.Normalize != NormalizeMinMax && c.Center != CenterMass && c.Denoise != DenoiseMedian3 {
+	if c.Normalize != NormalizeMinMax && c.Center != CenterMass && c.Denoise != DenoiseMedian3 && c.Denoise != DenoiseAuto {
 		return img
 	}
 	n := h * w
-	if cap(buf) < 2*n {
-		buf = make([]float32, 2*n)
+	if cap(buf) < 2*n+n/4+1 {
+		buf = make([]float32, 2*n+n/4+1)
 	}
 	out, tmp := buf[:n], buf[n:2*n]
-	if c.Denoise == DenoiseMedian3 {
+	switch c.Denoise {
+	case DenoiseMedian3:
 		median3(tmp, img[:n], h, w)
-	} else {
+	case DenoiseAuto:
+		switch sd := noiseSigma(buf[2*n:], img[:n], h, w); {
+		case sd >= autoHeavy:
+			median3(out, img[:n], h, w)
+			median3(tmp, out, h, w)
+		case sd >= autoLight:
+			median3(tmp, img[:n], h, w)
+		default:
+			copy(tmp, img[:n])
+		}
+	default:
 		copy(tmp, img[:n])
 	}
 	if c.Normalize == NormalizeMinMax {
@@ -110,6 +123,51 @@ func normalizeInput(buf, img []float32, h, w int, c InputConfig) []float32 {
 		}
 	}
 	return out
+}
+
+// Noise levels of DenoiseAuto, in the units of noiseSigma's estimate σ̂
+// (pixels in [0,1]): below autoLight the image is left alone, from
+// autoLight it is median-filtered once, from autoHeavy twice. They were
+// chosen on validation images from the training splits, never the test
+// splits: pipelines fitted on the first 50,000 training images of MNIST and
+// of Fashion-MNIST, scored on training images 50,000-53,999 with Gaussian
+// noise σ = 0.1…0.5 added and clipped, under no filter, one, two and three
+// 3×3 median passes and a 5×5 median. No filter was best at σ = 0.1 on both
+// and at 0.2 on MNIST (σ̂ ≈ 0.12); one pass at 0.2 on Fashion-MNIST
+// (σ̂ ≈ 0.14) and at 0.3-0.4 on MNIST (σ̂ ≈ 0.17-0.22); two or three passes
+// at 0.3 and above on Fashion-MNIST (σ̂ ≥ 0.2) and at 0.5 on MNIST. Clipping
+// makes σ̂ about 0.6 σ on these dark-background images.
+const (
+	autoLight = 0.13
+	autoHeavy = 0.185
+)
+
+// noiseSigma estimates the standard deviation of additive white noise in
+// src (h×w) robustly, as Donoho & Johnstone (1994, Biometrika 81:425-455)
+// do from the finest wavelet scale: σ̂ = median|d|/0.6745 over the diagonal
+// Haar detail coefficients d = (a − b − c + e)/2 of the non-overlapping 2×2
+// blocks [a b; c e] (an orthonormal transform, so white noise keeps its σ
+// in d, and smooth image content gives d ≈ 0). scratch holds at least
+// (h/2)·(w/2) values.
+func noiseSigma(scratch, src []float32, h, w int) float64 {
+	d := scratch[:0]
+	for y := 0; y+1 < h; y += 2 {
+		r0, r1 := src[y*w:(y+1)*w], src[(y+1)*w:(y+2)*w]
+		for x := 0; x+1 < w; x += 2 {
+			v := (r0[x] - r0[x+1] - r1[x] + r1[x+1]) / 2
+			d = append(d, float32(math.Abs(float64(v))))
+		}
+	}
+	if len(d) == 0 {
+		return 0
+	}
+	slices.Sort(d)
+	m := len(d) / 2
+	med := float64(d[m])
+	if len(d)%2 == 0 {
+		med = (float64(d[m-1]) + float64(d[m])) / 2
+	}
+	return med / 0.6745
 }
 
 // median3 writes the 3×3 median of src (h×w, border pixels replicated) to

@@ -3,7 +3,9 @@ package pipeline
 import (
 	"encoding/json"
 	"math"
+	"math/rand/v2"
 	"os"
+	"slices"
 	"testing"
 
 	"github.com/striate/striate/datasets"
@@ -135,6 +137,81 @@ func TestMedian3MatchesSciPy(t *testing.T) {
 	for i := range got {
 		if got[i] != ref.Want[i] {
 			t.Fatalf("pixel %d: %v; SciPy gives %v", i, got[i], ref.Want[i])
+		}
+	}
+}
+
+// TestNoiseSigmaEstimates checks the wavelet MAD noise estimate on its
+// defining cases (Donoho & Johnstone 1994): on a linear ramp every diagonal
+// Haar coefficient is exactly 0, so σ̂ = 0; on a constant grey image with
+// unclipped Gaussian noise of σ it is consistent, σ̂ → σ. sigmaTol: the
+// median of 16,384 |d| has a relative standard error of about
+// 1/(2·φ(0.6745)·0.6745·sqrt(n)) ≈ 1.2%, so 5% is four standard errors.
+func TestNoiseSigmaEstimates(t *testing.T) {
+	const h, w = 256, 256
+	ramp := make([]float32, h*w)
+	for y := 0; y < h; y++ {
+		for x := 0; x < w; x++ {
+			ramp[y*w+x] = float32(0.1 + 0.002*float64(y) + 0.001*float64(x))
+		}
+	}
+	scratch := make([]float32, h*w/4)
+	if s := noiseSigma(scratch, ramp, h, w); s > 1e-6 {
+		t.Errorf("σ̂ of a noise-free ramp = %g, want 0", s)
+	}
+	rng := rand.New(rand.NewPCG(3, 9))
+	for _, sigma := range []float64{0.05, 0.2} {
+		img := make([]float32, h*w)
+		for i := range img {
+			img[i] = float32(0.5 + sigma*rng.NormFloat64())
+		}
+		const sigmaTol = 0.05
+		if s := noiseSigma(scratch, img, h, w); math.Abs(s-sigma) > sigmaTol*sigma {
+			t.Errorf("σ̂ = %.4f for white noise of σ = %g; want within %.0f%%", s, sigma, 100*sigmaTol)
+		}
+	}
+}
+
+// TestAutoDenoiseLeavesCleanImagesAlone checks the premise of the default
+// input stage on the published test splits: with Denoise "auto", every
+// clean MNIST test image and at least 99% of the clean Fashion-MNIST ones
+// come out exactly as with Denoise "none" (their σ̂ is below autoLight);
+// and heavily noisy images (σ = 0.5, clipped) are all filtered.
+func TestAutoDenoiseLeavesCleanImagesAlone(t *testing.T) {
+	auto := InputConfig{Normalize: NormalizeMinMax, Center: CenterMass, Denoise: DenoiseAuto}
+	none := auto
+	none.Denoise = DenoiseNone
+	for _, c := range []struct {
+		name string
+		load func(datasets.Split, string) (*datasets.Set, error)
+		frac float64 // least fraction left untouched
+	}{{"MNIST", datasets.LoadMNIST, 1}, {"Fashion-MNIST", datasets.LoadFashionMNIST, 0.99}} {
+		s, err := c.load(datasets.Test, "")
+		if err != nil {
+			t.Skipf("%s not available: %v", c.name, err)
+		}
+		same, filtered := 0, 0
+		img := make([]float32, s.H*s.W)
+		noisy := make([]float32, s.H*s.W)
+		for i := 0; i < s.N; i++ {
+			s.Float(img, i)
+			a := normalizeInput(nil, img, s.H, s.W, auto)
+			b := normalizeInput(nil, img, s.H, s.W, none)
+			if slices.Equal(a, b) {
+				same++
+			}
+			if i < 500 {
+				datasets.Perturbation{Kind: datasets.Noise, Level: 0.5}.Apply(noisy, img, s.H, s.W, uint64(i+1))
+				if !slices.Equal(normalizeInput(nil, noisy, s.H, s.W, auto), normalizeInput(nil, noisy, s.H, s.W, none)) {
+					filtered++
+				}
+			}
+		}
+		if f := float64(same) / float64(s.N); f < c.frac {
+			t.Errorf("%s: auto denoising changed %d of %d clean test images; want at most %.0f%%", c.name, s.N-same, s.N, 100*(1-c.frac))
+		}
+		if filtered != 500 {
+			t.Errorf("%s: auto denoising filtered %d of 500 images with noise σ = 0.5, want all", c.name, filtered)
 		}
 	}
 }

@@ -52,7 +52,13 @@ func (c *Coder) cdRow(s *scratch, a, c0 []float32, xx float64) (iters int, obj f
 				}
 			}
 			active = active[:0]
+			lam32 := float32(lam)
 			for j := 0; j < k; j++ {
+				// A zero coordinate stays zero unless |r_j| > λ (r_j > λ
+				// for non-negative codes): skip it without the step.
+				if rj := r[j]; a[j] == 0 && rj <= lam32 && (nonneg || rj >= -lam32) {
+					continue
+				}
 				if c.cdStep(a, r, g, j, k, lam, nonneg) {
 					active = append(active, int32(j))
 				}
@@ -62,7 +68,10 @@ func (c *Coder) cdRow(s *scratch, a, c0 []float32, xx float64) (iters int, obj f
 				c.cdStep(a, r, g, int(j), k, lam, nonneg)
 			}
 		}
-		fNew := cdObjective(a, c0, r, xx, lam)
+		// Every non-zero coordinate is in the active set (only active
+		// coordinates move between full sweeps), so the objective sums
+		// over it, in ascending order as a scan of a would.
+		fNew := cdObjectiveOn(active, a, c0, r, xx, lam)
 		done := stopped(f, fNew, c.cfg.Tol)
 		f = fNew
 		switch {
@@ -107,6 +116,22 @@ func (c *Coder) cdStep(a, r, g []float32, j, k int, lam float64, nonneg bool) bo
 func cdObjective(a, c0, r []float32, xx, lam float64) float64 {
 	var q, l1 float64
 	for j, v := range a {
+		if v == 0 {
+			continue
+		}
+		fv := float64(v)
+		q += fv * (float64(c0[j]) + float64(r[j]))
+		l1 += math.Abs(fv)
+	}
+	return 0.5*xx - 0.5*q + lam*l1
+}
+
+// cdObjectiveOn is cdObjective summed over the coordinates in idx
+// (ascending), which must include every non-zero of a.
+func cdObjectiveOn(idx []int32, a, c0, r []float32, xx, lam float64) float64 {
+	var q, l1 float64
+	for _, j := range idx {
+		v := a[j]
 		if v == 0 {
 			continue
 		}

@@ -96,7 +96,7 @@ func NewCoder(d *Dictionary, cfg CoderConfig) (*Coder, error) {
 	}
 	k := d.k
 	g := make([]float32, k*k)
-	gemmNT(g, d.w, d.w, k, k, d.dim)
+	gramInto(g, d.w, k, d.dim)
 	return &Coder{cfg: cfg, dict: d, gram: g, lip: lipschitz(d)}, nil
 }
 

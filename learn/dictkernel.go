@@ -9,8 +9,9 @@ import (
 // (dictkernel_simd_amd64.go, GOEXPERIMENT=simd) can replace them;
 // TestKernelsMatchReference checks whichever is in place.
 var (
-	gemmNT = gemmNTGonum
-	axpy   = axpyGonum
+	gemmNT    = gemmNTGonum
+	gemmNNSub = gemmNNSubGonum
+	axpy      = axpyGonum
 	// kernelBuild names the kernels in use, for benchmark logs.
 	kernelBuild = "portable (gonum blas32)"
 )
@@ -28,6 +29,19 @@ func gemmNTGonum(c, a, b []float32, m, n, p int) {
 		0, blas32.General{Rows: m, Cols: n, Stride: n, Data: c})
 }
 
+// gemmNNSubGonum computes c −= a·b for a (m×p), b (p×n), c (m×n), all
+// row-major and contiguous: the dictionary update's B − A·D for a block of
+// atoms.
+func gemmNNSubGonum(c, a, b []float32, m, n, p int) {
+	if m == 0 || n == 0 || p == 0 {
+		return
+	}
+	blas32.Gemm(blas.NoTrans, blas.NoTrans, -1,
+		blas32.General{Rows: m, Cols: p, Stride: p, Data: a},
+		blas32.General{Rows: p, Cols: n, Stride: n, Data: b},
+		1, blas32.General{Rows: m, Cols: n, Stride: n, Data: c})
+}
+
 // axpyGonum computes y += alpha·x for equal-length slices.
 func axpyGonum(alpha float32, x, y []float32) {
 	blas32.Axpy(alpha, blas32.Vector{N: len(x), Inc: 1, Data: x}, blas32.Vector{N: len(y), Inc: 1, Data: y})
@@ -41,6 +55,34 @@ func sparseRowTimes(dst, a, g []float32, k int) {
 	for j, v := range a {
 		if v != 0 {
 			axpy(v, g[j*k:(j+1)*k], dst)
+		}
+	}
+}
+
+// gramRows is the row-block height of gramInto.
+const gramRows = 32
+
+// gramInto computes the Gram matrix g = w·wᵀ (k×k) of the k rows of w
+// (each of length dim). Only the blocks on and above the diagonal are
+// multiplied, gramRows rows at a time, and the rest is mirrored, which
+// roughly halves the work of one full product.
+func gramInto(g, w []float32, k, dim int) {
+	tmp := make([]float32, gramRows*k)
+	for i0 := 0; i0 < k; i0 += gramRows {
+		m := min(gramRows, k-i0)
+		n := k - i0
+		t := tmp[:m*n]
+		gemmNT(t, w[i0*dim:(i0+m)*dim], w[i0*dim:k*dim], m, n, dim)
+		for r := 0; r < m; r++ {
+			i := i0 + r
+			copy(g[i*k+i0:(i+1)*k], t[r*n:(r+1)*n])
+		}
+	}
+	for i := 0; i < k; i++ {
+		for j := 0; j < i; j++ {
+			if j/gramRows < i/gramRows {
+				g[i*k+j] = g[j*k+i]
+			}
 		}
 	}
 }

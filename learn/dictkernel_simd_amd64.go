@@ -10,10 +10,14 @@ import (
 
 // The SIMD build (GOEXPERIMENT=simd, amd64) runs the dense products with
 // 8-lane float32 fused multiply-adds (AVX2 + FMA) when the CPU has them;
-// otherwise the gonum kernels stay in place.
+// otherwise the gonum kernels stay in place. Every kernel clears the upper
+// halves of the vector registers (VZEROUPPER) before scalar code runs: the
+// rest of the program is compiled to SSE, and SSE instructions after 256-bit
+// ones with dirty upper halves carry false dependencies. Without it a
+// 256-float axpy measured 185 ns instead of 50 on the 2-core EPYC.
 func init() {
 	if archsimd.X86.AVX2() && archsimd.X86.FMA() {
-		gemmNT, axpy = gemmNTSIMD, axpySIMD
+		gemmNT, gemmNNSub, axpy = gemmNTSIMD, gemmNNSubSIMD, axpySIMD
 		kernelBuild = "simd (GOEXPERIMENT=simd, AVX2+FMA, 8 float32 lanes)"
 	}
 }
@@ -137,7 +141,95 @@ func gemmNTSIMD(c, a, b []float32, m, n, p int) {
 			copy(c[i*n+j0:i*n+min(n, j0+16)], tile[:min(16, n-j0)])
 		}
 	}
+	archsimd.ClearAVXUpperBits()
 	packPool.Put(bufp)
+}
+
+// gemmNNSubSIMD is gemmNNSubGonum. b's rows are read in place: for 4 rows
+// of a and 16 columns of c, each step loads two vectors of one row of b and
+// broadcasts one value of each row of a. Columns past the last multiple of
+// 16 and rows past the last multiple of 4 take narrower loops.
+func gemmNNSubSIMD(c, a, b []float32, m, n, p int) {
+	if m == 0 || n == 0 || p == 0 {
+		return
+	}
+	if len(a) < m*p || len(b) < p*n || len(c) < m*n {
+		panic("learn: internal error: gemmNNSubSIMD slice too short")
+	}
+	n16 := n &^ 15
+	rs := uintptr(4 * n) // row stride of b and c in bytes
+	i := 0
+	for ; i+4 <= m; i += 4 {
+		a0 := unsafe.Pointer(unsafe.SliceData(a[i*p:]))
+		a1 := unsafe.Add(a0, 4*p)
+		a2 := unsafe.Add(a1, 4*p)
+		a3 := unsafe.Add(a2, 4*p)
+		for j := 0; j < n16; j += 16 {
+			var c00, c01, c10, c11, c20, c21, c30, c31 archsimd.Float32x8
+			bp := unsafe.Pointer(unsafe.SliceData(b[j:]))
+			for q := 0; q < p; q++ {
+				b0 := ld8(bp)
+				b1 := ld8(unsafe.Add(bp, 32))
+				bp = unsafe.Add(bp, rs)
+				off := uintptr(q) * 4
+				x0 := archsimd.BroadcastFloat32x8(*(*float32)(unsafe.Add(a0, off)))
+				c00 = x0.MulAdd(b0, c00)
+				c01 = x0.MulAdd(b1, c01)
+				x1 := archsimd.BroadcastFloat32x8(*(*float32)(unsafe.Add(a1, off)))
+				c10 = x1.MulAdd(b0, c10)
+				c11 = x1.MulAdd(b1, c11)
+				x2 := archsimd.BroadcastFloat32x8(*(*float32)(unsafe.Add(a2, off)))
+				c20 = x2.MulAdd(b0, c20)
+				c21 = x2.MulAdd(b1, c21)
+				x3 := archsimd.BroadcastFloat32x8(*(*float32)(unsafe.Add(a3, off)))
+				c30 = x3.MulAdd(b0, c30)
+				c31 = x3.MulAdd(b1, c31)
+			}
+			cp := unsafe.Pointer(unsafe.SliceData(c[i*n+j:]))
+			st8(cp, ld8(cp).Sub(c00))
+			st8(unsafe.Add(cp, 32), ld8(unsafe.Add(cp, 32)).Sub(c01))
+			cp = unsafe.Add(cp, rs)
+			st8(cp, ld8(cp).Sub(c10))
+			st8(unsafe.Add(cp, 32), ld8(unsafe.Add(cp, 32)).Sub(c11))
+			cp = unsafe.Add(cp, rs)
+			st8(cp, ld8(cp).Sub(c20))
+			st8(unsafe.Add(cp, 32), ld8(unsafe.Add(cp, 32)).Sub(c21))
+			cp = unsafe.Add(cp, rs)
+			st8(cp, ld8(cp).Sub(c30))
+			st8(unsafe.Add(cp, 32), ld8(unsafe.Add(cp, 32)).Sub(c31))
+		}
+	}
+	for ; i < m; i++ { // remaining rows: one row of a at a time
+		ar := a[i*p : (i+1)*p]
+		cr := c[i*n : (i+1)*n]
+		for j := 0; j < n16; j += 16 {
+			var c0, c1 archsimd.Float32x8
+			bp := unsafe.Pointer(unsafe.SliceData(b[j:]))
+			for q := 0; q < p; q++ {
+				x := archsimd.BroadcastFloat32x8(ar[q])
+				c0 = x.MulAdd(ld8(bp), c0)
+				c1 = x.MulAdd(ld8(unsafe.Add(bp, 32)), c1)
+				bp = unsafe.Add(bp, rs)
+			}
+			cp := unsafe.Pointer(unsafe.SliceData(cr[j:]))
+			st8(cp, ld8(cp).Sub(c0))
+			st8(unsafe.Add(cp, 32), ld8(unsafe.Add(cp, 32)).Sub(c1))
+		}
+	}
+	archsimd.ClearAVXUpperBits()
+	if n16 == n {
+		return
+	}
+	for i := 0; i < m; i++ { // remaining columns, scalar
+		ar := a[i*p : (i+1)*p]
+		for j := n16; j < n; j++ {
+			var s float32
+			for q, v := range ar {
+				s += v * b[q*n+j]
+			}
+			c[i*n+j] -= s
+		}
+	}
 }
 
 // axpySIMD is axpyGonum.
@@ -161,6 +253,7 @@ func axpySIMD(alpha float32, x, y []float32) {
 		o := uintptr(i) * 4
 		st8(unsafe.Add(yp, o), av.MulAdd(ld8(unsafe.Add(xp, o)), ld8(unsafe.Add(yp, o))))
 	}
+	archsimd.ClearAVXUpperBits()
 	for ; i < n; i++ {
 		y[i] += alpha * x[i]
 	}

@@ -43,6 +43,66 @@ func TestKernelsMatchReference(t *testing.T) {
 			t.Errorf("gemmNT %v: error %.3g (per √p) > %g", sh, worst, gemmTol)
 		}
 	}
+	for _, sh := range [][3]int{{1, 1, 1}, {4, 16, 8}, {5, 17, 3}, {7, 33, 64}, {16, 256, 256}, {3, 9, 1}, {13, 100, 20}} {
+		m, n, p := sh[0], sh[1], sh[2]
+		a := make([]float32, m*p)
+		b := make([]float32, p*n)
+		c := make([]float32, m*n)
+		for i := range a {
+			a[i] = float32(r.NormFloat64())
+		}
+		for i := range b {
+			b[i] = float32(r.NormFloat64())
+		}
+		for i := range c {
+			c[i] = float32(r.NormFloat64())
+		}
+		c0 := append([]float32(nil), c...)
+		gemmNNSub(c, a, b, m, n, p)
+		var worst float64
+		for i := 0; i < m; i++ {
+			for j := 0; j < n; j++ {
+				s := float64(c0[i*n+j])
+				for q := 0; q < p; q++ {
+					s -= float64(a[i*p+q]) * float64(b[q*n+j])
+				}
+				worst = math.Max(worst, math.Abs(float64(c[i*n+j])-s)/math.Sqrt(float64(p)))
+			}
+		}
+		const gemmTol = 1e-5 // as for gemmNT
+		if worst > gemmTol {
+			t.Errorf("gemmNNSub %v: error %.3g (per √p) > %g", sh, worst, gemmTol)
+		}
+	}
+	for _, sh := range [][2]int{{1, 1}, {5, 3}, {33, 64}, {70, 17}, {256, 256}} {
+		k, dim := sh[0], sh[1]
+		w := make([]float32, k*dim)
+		for i := range w {
+			w[i] = float32(r.NormFloat64())
+		}
+		g := make([]float32, k*k)
+		gramInto(g, w, k, dim)
+		// Higham (2002, Accuracy and Stability of Numerical Algorithms,
+		// §3.1): a float32 dot product of length n is off by at most
+		// γ_n·Σ|x_q·y_q|, γ_n = nu/(1−nu), u = 2⁻²⁴ (FMA only tightens it).
+		u := math.Ldexp(1, -24)
+		gamma := float64(dim) * u / (1 - float64(dim)*u)
+		var worst float64
+		for i := 0; i < k; i++ {
+			for j := 0; j < k; j++ {
+				var s, sa float64
+				for q := 0; q < dim; q++ {
+					v := float64(w[i*dim+q]) * float64(w[j*dim+q])
+					s += v
+					sa += math.Abs(v)
+				}
+				worst = math.Max(worst, math.Abs(float64(g[i*k+j])-s)/(gamma*sa))
+			}
+		}
+		if worst > 1 {
+			t.Errorf("gramInto %v: error %.3g × the γ_n bound", sh, worst)
+		}
+	}
 	for _, n := range []int{0, 1, 7, 8, 15, 16, 17, 33, 256} {
 		x := make([]float32, n)
 		y := make([]float32, n)

@@ -60,41 +60,19 @@ func (c LearnBankConfig) validate() error {
 	return nil
 }
 
-// learnBank runs the bank-learning recipe of c and returns the bank and its
+// learnBank runs the bank-learning recipe of c (learn.PhotoBankConfig with
+// ZCA whitening, on the embedded photos) and returns the bank and its
 // report. workers is used for dictionary learning and the Gabor fits.
 func learnBank(c LearnBankConfig, seed uint64, workers int, prog learn.Progress) (*v1layer.Bank, *learn.BankReport, error) {
 	photos, err := datasets.Photos()
 	if err != nil {
 		return nil, nil, fmt.Errorf("pipeline: learning a bank: %w", err)
 	}
-	p, err := datasets.SamplePatches(photos, datasets.PatchConfig{Size: c.PatchSize, Count: c.Patches, Seed: seed})
+	pc := learn.PhotoBankConfig{PatchSize: c.PatchSize, Patches: c.Patches, Whiten: learn.WhitenZCA, ZCAEps: c.ZCAEps,
+		Dict: c.Dict, Bank: c.Bank}
+	pb, err := pc.Learn(photos, seed, workers, prefixed{prog, "bank: "})
 	if err != nil {
 		return nil, nil, fmt.Errorf("pipeline: learning a bank: %w", err)
 	}
-	p.RemoveMean()
-	z, err := datasets.FitZCA(p, c.ZCAEps)
-	if err != nil {
-		return nil, nil, fmt.Errorf("pipeline: learning a bank: %w", err)
-	}
-	z.Apply(p)
-	dc := c.Dict
-	if dc.Seed == 0 {
-		dc.Seed = seed
-	}
-	if dc.Workers == 0 {
-		dc.Workers = max(1, workers)
-	}
-	dict, err := dc.Fit(p.Pix, c.PatchSize*c.PatchSize, prefixed{prog, "bank: "})
-	if err != nil {
-		return nil, nil, fmt.Errorf("pipeline: learning a bank: %w", err)
-	}
-	bc := c.Bank
-	if bc.Workers == 0 {
-		bc.Workers = max(1, workers)
-	}
-	bank, rep, err := learn.LearnedBank(dict, bc)
-	if err != nil {
-		return nil, nil, fmt.Errorf("pipeline: learning a bank: %w", err)
-	}
-	return bank, rep, nil
+	return pb.Bank, pb.Report, nil
 }

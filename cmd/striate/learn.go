@@ -4,7 +4,6 @@ import (
 	"encoding/json"
 	"flag"
 	"fmt"
-	"math"
 	"os"
 	"path/filepath"
 	"time"
@@ -70,50 +69,18 @@ func runLearn(g *globals, a learnArgs) error {
 	if err != nil {
 		return err
 	}
-	border := 0
-	if a.whiten == "of" {
-		photos = datasets.WhitenPhotos(photos, a.f0)
-		border = 8 // the periodic filter's edge artefacts
-	}
-	p, err := datasets.SamplePatches(photos, datasets.PatchConfig{Size: a.size, Count: a.patches, Seed: g.seed, Border: border})
-	if err != nil {
-		return err
-	}
-	p.RemoveMean()
-	if a.whiten == "of" {
-		// unit pixel variance, so that λ means the same for any photo set
-		var ss float64
-		for _, v := range p.Pix {
-			ss += float64(v) * float64(v)
-		}
-		if ss == 0 {
-			return fmt.Errorf("the whitened patches are all zero")
-		}
-		s := float32(1 / math.Sqrt(ss/float64(len(p.Pix))))
-		for i := range p.Pix {
-			p.Pix[i] *= s
-		}
-	} else {
-		z, err := datasets.FitZCA(p, a.eps)
-		if err != nil {
-			return err
-		}
-		z.Apply(p)
-	}
-	cfg := learn.DictConfig{Atoms: a.atoms, Lambda: a.lambda, BatchSize: a.batch, Epochs: a.epochs, Seed: g.seed, Workers: g.workers}
+	cfg := learn.PhotoBankConfig{PatchSize: a.size, Patches: a.patches, Whiten: a.whiten, ZCAEps: a.eps, F0: a.f0,
+		Dict: learn.DictConfig{Atoms: a.atoms, Lambda: a.lambda, BatchSize: a.batch, Epochs: a.epochs}}
 	steps := a.epochs * ((a.patches + a.batch - 1) / a.batch)
 	bar := g.newProgress(steps, "learn")
 	start := time.Now()
-	d, err := cfg.Fit(p.Pix, a.size*a.size, bar)
+	pb, err := cfg.Learn(photos, g.seed, g.workers, bar)
 	bar.Done()
 	if err != nil {
 		return err
 	}
 	fitTime := time.Since(start)
-	bank, rep, err := learn.LearnedBank(d, learn.BankConfig{Workers: g.workers})
-	if err != nil {
-		return err
-	}
+	bank, rep := pb.Bank, pb.Report
 	if err := os.MkdirAll(g.out, 0o755); err != nil {
 		return err
 	}

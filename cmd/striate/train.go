@@ -3,7 +3,6 @@ package main
 import (
 	"flag"
 	"fmt"
-	"os"
 	"time"
 
 	"github.com/striate/striate/datasets"
@@ -13,14 +12,15 @@ import (
 func init() {
 	register(&command{
 		name:    "train",
-		summary: "fit a pipeline on MNIST, Fashion-MNIST or an IDX folder and save the model",
+		summary: "fit a pipeline on MNIST, Fashion-MNIST, an IDX folder or a folder of class subfolders and save the model",
 		usage:   "",
 		example: `  striate train --data mnist --out mnist.stm
   striate train --data fashion --config fashion.json --seed 7 --out fashion.stm
   striate train --data mnist --labels 100 --out mnist-100.stm      # 100 labels per class
-  striate train --data /srv/depot/idx --out garments.stm           # train-/t10k-*-idx?-ubyte[.gz] files`,
+  striate train --data /srv/depot/idx --out garments.stm           # train-/t10k-*-idx?-ubyte[.gz] files
+  striate train --data /srv/depot/photos --out garments.stm        # one subfolder of images per class`,
 		setup: func(fs *flag.FlagSet, g *globals) func([]string) error {
-			data := fs.String("data", "mnist", "training data: `mnist`, fashion, or a folder of IDX files named like MNIST's")
+			data := fs.String("data", "mnist", "training data: `mnist`, fashion, a folder of IDX files named like MNIST's, or a folder with one subfolder of images per class")
 			labels := fs.Int("labels", 0, "use only this many labelled images per class (seeded; 0 = all); the unsupervised stages still see every training image without its label")
 			g.addSeed(fs)
 			g.addWorkers(fs)
@@ -40,18 +40,14 @@ func init() {
 	})
 }
 
-// loadData returns the training split and, when there is one, the test split.
-func loadData(data string, split datasets.Split) (*datasets.Set, error) {
-	switch data {
-	case "mnist":
-		return datasets.LoadMNIST(split, "")
-	case "fashion":
-		return datasets.LoadFashionMNIST(split, "")
+// trainSpecs turns --data into the specs loadSpec reads for the training
+// split and, when there is one, the test split: mnist, fashion and IDX
+// folders have both; a folder of class subfolders is training data only.
+func trainSpecs(data string) (train, test string) {
+	if data == "mnist" || data == "fashion" || hasIDX(data) {
+		return data + ":train", data + ":test"
 	}
-	if st, err := os.Stat(data); err != nil || !st.IsDir() {
-		return nil, usagef("--data %q is neither mnist, fashion nor a folder", data)
-	}
-	return datasets.LoadMNIST(split, data)
+	return data, ""
 }
 
 func runTrain(g *globals, data string, perClass int) error {
@@ -65,7 +61,12 @@ func runTrain(g *globals, data string, perClass int) error {
 		cfg = pipeline.DefaultConfig()
 	}
 	cfg.Seed = g.seed
-	train, err := loadData(data, datasets.Train)
+	trainSpec, testSpec := trainSpecs(data)
+	in := cfg.Input
+	if in.Height == 0 || in.Width == 0 {
+		in = pipeline.DefaultConfig().Input
+	}
+	train, err := loadSpec(trainSpec, in.Height, in.Width, g.stderr)
 	if err != nil {
 		return err
 	}
@@ -94,10 +95,13 @@ func runTrain(g *globals, data string, perClass int) error {
 	}
 	fmt.Fprintf(g.stdout, "model written to %s\n", g.out)
 
-	test, err := loadData(data, datasets.Test)
-	if err != nil {
-		fmt.Fprintf(g.stdout, "no test split to score on: %v\n", err)
+	if testSpec == "" {
+		fmt.Fprintf(g.stdout, "no test split in %s to score on (score with: striate evaluate --model %s --data FOLDER)\n", data, g.out)
 		return nil
+	}
+	test, err := loadSpec(testSpec, in.Height, in.Width, g.stderr)
+	if err != nil {
+		return err
 	}
 	bar = g.newProgress(test.N, "test")
 	acc, err := pipeline.Accuracy(m, test, nil, g.workers, bar)

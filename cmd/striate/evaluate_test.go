@@ -398,7 +398,10 @@ func TestCLIInspect(t *testing.T) {
 		}
 	}
 	r = mustRun(t, 0, "inspect", "--json", cliModelA)
-	var h modelHeader
+	var h struct {
+		Classes []string              `json:"classes"`
+		Tensors []pipeline.TensorInfo `json:"tensors"`
+	}
 	if err := json.Unmarshal([]byte(r.stdout), &h); err != nil || len(h.Tensors) == 0 || len(h.Classes) != 3 {
 		t.Errorf("inspect --json: %v, %d tensors, classes %v", err, len(h.Tensors), h.Classes)
 	}

@@ -11,6 +11,7 @@ import (
 	"github.com/striate/striate/datasets"
 	"github.com/striate/striate/eval"
 	"github.com/striate/striate/learn"
+	"github.com/striate/striate/pipeline"
 )
 
 func init() {
@@ -18,7 +19,8 @@ func init() {
 		name:    "learn",
 		summary: "learn a simple-cell bank by sparse coding of whitened patches from the shipped photos",
 		usage:   "",
-		example: `  striate learn --out bank/                       # 256 atoms of 16×16, writes bank.json, atoms.png, bank_hist.png
+		example: `  striate learn --out bank/                       # 256 atoms of 16×16: bank.json, config.json, atoms.png, bank_hist.png
+  striate train --data fashion --config bank/config.json --out learned.stm   # a pipeline on that bank
   striate learn --quick --out /tmp/bank           # a small, fast run (for tests and a first look)
   striate learn --atoms 192 --epochs 8 --out bank192/
   striate learn --whiten zca --eps 0.01 --lambda 1 --out bank-zca/   # ZCA-whitened patches instead`,
@@ -92,7 +94,17 @@ func runLearn(g *globals, a learnArgs) error {
 	if err != nil {
 		return err
 	}
-	files := map[string][]byte{"bank.json": bj, "atoms.png": mosaic}
+	// config.json: the default pipeline with this bank in place of the
+	// hand-set Gabor bank, ready for "striate train --config".
+	pc := pipeline.DefaultConfig()
+	pc.Front.Bank = bank
+	pc.Front.Gabor.Disable = true
+	pc.Seed = g.seed
+	cj, err := pc.MarshalIndent()
+	if err != nil {
+		return err
+	}
+	files := map[string][]byte{"bank.json": bj, "atoms.png": mosaic, "config.json": cj}
 	if hist, err := eval.BankHistogramsPNG(rep); err == nil {
 		files["bank_hist.png"] = hist
 	} else {
@@ -116,6 +128,7 @@ func runLearn(g *globals, a learnArgs) error {
 	fmt.Fprintf(w, "median SF bandwidth %.2f octaves, median orientation bandwidth %.1f°\n",
 		rep.MedianFreqBandwidth, rep.MedianOrientationBandwidth)
 	fmt.Fprintf(w, "quadrature pairs %d, unpaired (rectified) %d\n", rep.Pairs, rep.Unpaired)
-	fmt.Fprintf(w, "wrote %s/{bank.json,atoms.png,bank_hist.png}\n", g.out)
+	fmt.Fprintf(w, "wrote %s/{bank.json,config.json,atoms.png,bank_hist.png}\n", g.out)
+	fmt.Fprintf(w, "train a pipeline on this bank: striate train --data fashion --config %s\n", filepath.Join(g.out, "config.json"))
 	return nil
 }

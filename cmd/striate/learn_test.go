@@ -9,6 +9,7 @@ import (
 	"strings"
 	"testing"
 
+	"github.com/striate/striate/pipeline"
 	"github.com/striate/striate/v1layer"
 )
 
@@ -36,6 +37,15 @@ func TestLearnQuick(t *testing.T) {
 	}
 	if len(bank.Kernels) != 64 || bank.Kernels[0].Size != 9 || bank.Kernels[0].Meta.Kind != v1layer.KindLearned {
 		t.Fatalf("bank has %d kernels of size %d kind %v; want 64 of 9 learned", len(bank.Kernels), bank.Kernels[0].Size, bank.Kernels[0].Meta.Kind)
+	}
+	// config.json is a pipeline configuration that ParseConfig accepts
+	// (strict: unknown keys rejected) with this bank as the simple cells.
+	cfg, err := pipeline.LoadConfig(filepath.Join(dir, "config.json"))
+	if err != nil {
+		t.Fatalf("config.json: %v", err)
+	}
+	if cfg.Front.Bank == nil || len(cfg.Front.Bank.Kernels) != 64 || cfg.Front.Bank.Kernels[5].W[40] != bank.Kernels[5].W[40] {
+		t.Fatalf("config.json does not carry the learned bank")
 	}
 	f, err := os.Open(filepath.Join(dir, "atoms.png"))
 	if err != nil {

@@ -10,9 +10,10 @@ import (
 var sinkF []float32
 
 // BenchmarkFit times Fit of the default pipeline on MNIST training sets of
-// increasing size; /60000 is the full-MNIST training time of issue 5's
-// target (≤ 10 minutes on the 2-core machine). Run it alone, under the
-// shared lock, with -benchtime 1x:
+// increasing size; /60000 is the full-MNIST training time (target ≤ 10
+// minutes on the 2-core machine; measured 2 December 2026, SIMD build, 2
+// threads, idle machine: 210.7 s, head 173.6 s, features 31.7 s, templates
+// 5.3 s). Run it alone, under the shared lock, with -benchtime 1x:
 //
 //	flock /tmp/striate-heavy.lock go test -run XXX -bench Fit/60000 -benchtime 1x ./pipeline
 func BenchmarkFit(b *testing.B) {

@@ -166,6 +166,15 @@ func checkTargets(t *testing.T, name string, got map[string]float64, conds []con
 	} else {
 		floor(t, name+" shift-4", got["shift-4"], 0.80)
 	}
+	// Heavy noise is where the input stage's adaptive median filter must
+	// hold: with it the demo-sized head reached 75.6% (MNIST noise 0.5) and
+	// 67.4% (Fashion noise 0.3), without it 47.3% and 47.5%, so floors
+	// halfway above the unfiltered figures catch the filter going missing.
+	if fashion {
+		floor(t, name+" noise-0.3", got["noise-0.3"], 0.60)
+	} else {
+		floor(t, name+" noise-0.5", got["noise-0.5"], 0.65)
+	}
 }
 
 // target prints whether got reaches the target.

@@ -13,9 +13,10 @@ import (
 // checks one against the other.
 func init() {
 	if archsimd.X86.AVX2() && archsimd.X86.FMA() {
-		hsum, vsum = hsumSIMD, vsumSIMD
+		hsum, vsum, sum3 = hsumSIMD, vsumSIMD, sum3SIMD
 		energyTo, maxInto = energySIMD, maxIntoSIMD
 		max2To, max3To = max2SIMD, max3SIMD
+		min2To, min3To, esq2To, esq3To, sqrtsOf = min2SIMD, min3SIMD, esq2SIMD, esq3SIMD, sqrtsSIMD
 		build = "simd (GOEXPERIMENT=simd, AVX2+FMA, 8 float32 lanes)"
 	}
 }
@@ -272,4 +273,217 @@ func max3SIMD(dst, a, b, c []float32) {
 			return
 		}
 	}
+}
+
+func min2SIMD(dst, a, b []float32) {
+	n := len(dst)
+	if n < 8 {
+		min2Go(dst, a, b)
+		return
+	}
+	a, b = a[:n], b[:n]
+	for i := 0; ; i += 8 {
+		if i > n-8 {
+			i = n - 8
+		}
+		x := archsimd.LoadFloat32x8Slice(a[i:])
+		x.Min(archsimd.LoadFloat32x8Slice(b[i:])).StoreSlice(dst[i:])
+		if i == n-8 {
+			archsimd.ClearAVXUpperBits()
+			return
+		}
+	}
+}
+
+func min3SIMD(dst, a, b, c []float32) {
+	n := len(dst)
+	if n < 8 {
+		min3Go(dst, a, b, c)
+		return
+	}
+	a, b, c = a[:n], b[:n], c[:n]
+	for i := 0; ; i += 8 {
+		if i > n-8 {
+			i = n - 8
+		}
+		x := archsimd.LoadFloat32x8Slice(a[i:])
+		y := archsimd.LoadFloat32x8Slice(b[i:])
+		x.Min(y).Min(archsimd.LoadFloat32x8Slice(c[i:])).StoreSlice(dst[i:])
+		if i == n-8 {
+			archsimd.ClearAVXUpperBits()
+			return
+		}
+	}
+}
+
+func esq2SIMD(dst, e0, e1, o0, o1 []float32) {
+	n := len(dst)
+	if n < 8 {
+		esq2Go(dst, e0, e1, o0, o1)
+		return
+	}
+	e0, e1, o0, o1 = e0[:n], e1[:n], o0[:n], o1[:n]
+	for i := 0; ; i += 8 {
+		if i > n-8 {
+			i = n - 8
+		}
+		a := archsimd.LoadFloat32x8Slice(e0[i:])
+		b := archsimd.LoadFloat32x8Slice(o0[i:])
+		c := archsimd.LoadFloat32x8Slice(e1[i:])
+		d := archsimd.LoadFloat32x8Slice(o1[i:])
+		a.Mul(a).Add(b.Mul(b)).Max(c.Mul(c).Add(d.Mul(d))).StoreSlice(dst[i:])
+		if i == n-8 {
+			archsimd.ClearAVXUpperBits()
+			return
+		}
+	}
+}
+
+func esq3SIMD(dst, e0, e1, e2, o0, o1, o2 []float32) {
+	n := len(dst)
+	if n < 8 {
+		esq3Go(dst, e0, e1, e2, o0, o1, o2)
+		return
+	}
+	e0, e1, e2, o0, o1, o2 = e0[:n], e1[:n], e2[:n], o0[:n], o1[:n], o2[:n]
+	for i := 0; ; i += 8 {
+		if i > n-8 {
+			i = n - 8
+		}
+		a := archsimd.LoadFloat32x8Slice(e0[i:])
+		b := archsimd.LoadFloat32x8Slice(o0[i:])
+		v := a.Mul(a).Add(b.Mul(b))
+		a = archsimd.LoadFloat32x8Slice(e1[i:])
+		b = archsimd.LoadFloat32x8Slice(o1[i:])
+		v = v.Max(a.Mul(a).Add(b.Mul(b)))
+		a = archsimd.LoadFloat32x8Slice(e2[i:])
+		b = archsimd.LoadFloat32x8Slice(o2[i:])
+		v.Max(a.Mul(a).Add(b.Mul(b))).StoreSlice(dst[i:])
+		if i == n-8 {
+			archsimd.ClearAVXUpperBits()
+			return
+		}
+	}
+}
+
+// sqrtsSIMD works in place, so it cannot overlap its last vector (that
+// would take the root twice): the first n%8 elements go scalar.
+func sqrtsSIMD(x []float32) {
+	n := len(x)
+	h := n % 8
+	sqrtsGo(x[:h])
+	for i := h; i < n; i += 8 {
+		archsimd.LoadFloat32x8Slice(x[i:]).Sqrt().StoreSlice(x[i:])
+	}
+	archsimd.ClearAVXUpperBits()
+}
+
+// sum3SIMD is three rows of sumSIMD (row j: dst[j·ds:], sources at
+// off + j·rstep) for n ≤ 32, a multiple of 8: blocks of 3 rows × 16 (six
+// accumulators, as blk6) and 3 × 8, right to left, so that a row's
+// overrun past its width into the next row's first columns is rewritten
+// by that row's first block afterwards. Narrow images (28×28) get six
+// independent FMA chains this way instead of four.
+func sum3SIMD(dst []float32, ds, n int, srcs [][]float32, taps []filt, off, step, rstep int) {
+	if n%8 != 0 || n > 32 || len(dst) < 2*ds+n || len(srcs) < len(taps) || off < 0 {
+		panic("v1layer: internal error: sum3SIMD length")
+	}
+	for t := range taps {
+		if nt := len(taps[t].wb); nt > 0 && off+2*rstep+(nt-1)*step+n > len(srcs[t]) {
+			panic("v1layer: internal error: sum3SIMD source too short")
+		}
+	}
+	d := unsafe.Pointer(unsafe.SliceData(dst))
+	rs, dss, rst := uintptr(4*step), uintptr(4*ds), uintptr(4*rstep)
+	x := n
+	if n%16 != 0 {
+		x -= 8
+		blk3x1(unsafe.Add(d, 4*x), dss, srcs, taps, off+x, rs, rst)
+	}
+	for x >= 16 {
+		x -= 16
+		blk3x2(unsafe.Add(d, 4*x), dss, srcs, taps, off+x, rs, rst)
+	}
+	archsimd.ClearAVXUpperBits()
+}
+
+// blk3x2 is blk2 for three rows at once: row j reads its sources at
+// off + j·rstep/4 and writes at d + j·ds.
+func blk3x2(d unsafe.Pointer, ds uintptr, srcs [][]float32, taps []filt, off int, rs, rstep uintptr) {
+	var a00, a01, a10, a11, a20, a21 archsimd.Float32x8
+	for t := range taps {
+		wb := taps[t].wb
+		if len(wb) == 0 {
+			continue
+		}
+		p0 := unsafe.Pointer(&srcs[t][off])
+		p1 := unsafe.Add(p0, rstep)
+		p2 := unsafe.Add(p1, rstep)
+		cp := unsafe.Pointer(&wb[0])
+		for k := len(wb) - 1; k > 0; k-- {
+			c := ld(cp)
+			a00 = ld(unsafe.Add(p0, 0)).MulAdd(c, a00)
+			a01 = ld(unsafe.Add(p0, 32)).MulAdd(c, a01)
+			a10 = ld(unsafe.Add(p1, 0)).MulAdd(c, a10)
+			a11 = ld(unsafe.Add(p1, 32)).MulAdd(c, a11)
+			a20 = ld(unsafe.Add(p2, 0)).MulAdd(c, a20)
+			a21 = ld(unsafe.Add(p2, 32)).MulAdd(c, a21)
+			p0 = unsafe.Add(p0, rs)
+			p1 = unsafe.Add(p1, rs)
+			p2 = unsafe.Add(p2, rs)
+			cp = unsafe.Add(cp, 32)
+		}
+		c := ld(cp)
+		a00 = ld(unsafe.Add(p0, 0)).MulAdd(c, a00)
+		a01 = ld(unsafe.Add(p0, 32)).MulAdd(c, a01)
+		a10 = ld(unsafe.Add(p1, 0)).MulAdd(c, a10)
+		a11 = ld(unsafe.Add(p1, 32)).MulAdd(c, a11)
+		a20 = ld(unsafe.Add(p2, 0)).MulAdd(c, a20)
+		a21 = ld(unsafe.Add(p2, 32)).MulAdd(c, a21)
+	}
+	d0 := d
+	d1 := unsafe.Add(d0, ds)
+	d2 := unsafe.Add(d1, ds)
+	st(unsafe.Add(d0, 0), a00)
+	st(unsafe.Add(d0, 32), a01)
+	st(unsafe.Add(d1, 0), a10)
+	st(unsafe.Add(d1, 32), a11)
+	st(unsafe.Add(d2, 0), a20)
+	st(unsafe.Add(d2, 32), a21)
+}
+
+// blk3x1 is blk1 for three rows at once: row j reads its sources at
+// off + j·rstep/4 and writes at d + j·ds.
+func blk3x1(d unsafe.Pointer, ds uintptr, srcs [][]float32, taps []filt, off int, rs, rstep uintptr) {
+	var a00, a10, a20 archsimd.Float32x8
+	for t := range taps {
+		wb := taps[t].wb
+		if len(wb) == 0 {
+			continue
+		}
+		p0 := unsafe.Pointer(&srcs[t][off])
+		p1 := unsafe.Add(p0, rstep)
+		p2 := unsafe.Add(p1, rstep)
+		cp := unsafe.Pointer(&wb[0])
+		for k := len(wb) - 1; k > 0; k-- {
+			c := ld(cp)
+			a00 = ld(unsafe.Add(p0, 0)).MulAdd(c, a00)
+			a10 = ld(unsafe.Add(p1, 0)).MulAdd(c, a10)
+			a20 = ld(unsafe.Add(p2, 0)).MulAdd(c, a20)
+			p0 = unsafe.Add(p0, rs)
+			p1 = unsafe.Add(p1, rs)
+			p2 = unsafe.Add(p2, rs)
+			cp = unsafe.Add(cp, 32)
+		}
+		c := ld(cp)
+		a00 = ld(unsafe.Add(p0, 0)).MulAdd(c, a00)
+		a10 = ld(unsafe.Add(p1, 0)).MulAdd(c, a10)
+		a20 = ld(unsafe.Add(p2, 0)).MulAdd(c, a20)
+	}
+	d0 := d
+	d1 := unsafe.Add(d0, ds)
+	d2 := unsafe.Add(d1, ds)
+	st(unsafe.Add(d0, 0), a00)
+	st(unsafe.Add(d1, 0), a10)
+	st(unsafe.Add(d2, 0), a20)
 }

@@ -101,18 +101,33 @@
 // singular vectors): the reference bank needs 18 first passes and 32
 // second passes, 1,052 multiply-adds per pixel against 9,090 for direct
 // correlation. A kernel whose rank makes 2·rank·s ≥ s² (a full-rank
-// learned atom) runs as a direct 2-D correlation of row AXPYs instead.
+// learned atom) runs as a direct 2-D correlation instead: one horizontal
+// pass per kernel row over the padded rows, summed in registers (s²
+// multiply-adds per pixel; BenchmarkDirect: 24 learned-style 9×9 kernels
+// on 28×28 run ~9× faster in the SIMD build than the scalar row-AXPY
+// loops, ~2× in the plain build).
 // FFT correlation was costed and not used: gonum's real 2-D FFT of
 // 256×256 takes ~1.2 ms each way (../shared/bench/README.md), and the
 // reference bank would need one forward and nine inverse transforms
 // (even+i·odd pairs), ~12 ms, against ~6 ms for the separable passes.
 //
-// The inner loops compute whole blocks of 8 or 32 outputs per row (four
-// independent accumulators) into buffers with slack columns whose values
-// are never used; with a zero border, vertical taps that would read only
-// rows outside the image are skipped (about a quarter of the vertical
-// work of the 29-tap kernels at 28×28). (Two-row kernels that share loads between rows measured slower
-// under Go's SIMD register allocation and were dropped.)
+// The SIMD inner loops compute whole blocks of outputs per row into
+// buffers with slack columns whose values are never used: 48 outputs
+// (six independent accumulators, enough to hide the FMA latency and the
+// most Go's register allocation keeps without spilling), then 32, 16, 8;
+// images at most 32 wide (MNIST) run three rows × 16 at once for the same
+// six chains. Taps are stored pre-broadcast to 8 lanes and walked by
+// pointer, so every load has a constant offset. With a zero border, vertical taps that would read only rows
+// outside the image are skipped (about a quarter of the vertical work of
+// the 29-tap kernels at 28×28). After AVX code the loops clear the upper
+// halves of the Y registers: Go 1.26 does not, and the SSE moves it uses
+// for struct copies elsewhere then stall (measured: 28×28 at half speed).
+//
+// With the reference pooling (3×3, stride 2) and no stage that needs
+// whole maps (contrast or divisive normalisation, length summation,
+// end-stopping), rectification and energy are fused into the pooling
+// (poolfused.go): max commutes with max(0,·), negation and sqrt, so each
+// output map is pooled straight from the responses, bit for bit the same.
 //
 // # Builds
 //

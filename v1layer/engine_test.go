@@ -37,7 +37,7 @@ func TestSIMDMatchesPortable(t *testing.T) {
 			nt := 1 + rng.IntN(3)
 			srcs, taps := make([][]float32, nt), make([]filt, nt)
 			for t := range srcs {
-				srcs[t] = rnd(stride*(s+2) + n + s)
+				srcs[t] = rnd(stride*(s+4) + n + s)
 				taps[t] = mkFilt(rnd(s))
 			}
 			scale := float64(nt * s)
@@ -48,6 +48,16 @@ func TestSIMDMatchesPortable(t *testing.T) {
 			vsum(a, n, srcs, taps, 3, stride)
 			vsumGo(b, n, srcs, taps, 3, stride)
 			check("vsum", a, b, scale)
+			if n <= 32 {
+				const ds = 40
+				a3, b3 := make([]float32, 2*ds+n), make([]float32, 2*ds+n)
+				sum3(a3, ds, n, srcs, taps, 5, 1, 7)
+				sum3Go(b3, ds, n, srcs, taps, 5, 1, 7)
+				check("sum3 horizontal", a3, b3, scale)
+				sum3(a3, ds, n, srcs, taps, 3, stride, stride)
+				sum3Go(b3, ds, n, srcs, taps, 3, stride, stride)
+				check("sum3 vertical", a3, b3, scale)
+			}
 		}
 		e, o := rnd(n+3), rnd(n+3)
 		a, b := make([]float32, n+3), make([]float32, n+3)
@@ -66,6 +76,26 @@ func TestSIMDMatchesPortable(t *testing.T) {
 		max3To(a, e, o, c3)
 		max3Go(b, e, o, c3)
 		check("max3", a, b, 1)
+		min2To(a, e, o)
+		min2Go(b, e, o)
+		check("min2", a, b, 1)
+		min3To(a, e, o, c3)
+		min3Go(b, e, o, c3)
+		check("min3", a, b, 1)
+		e1, o1, e2, o2 := rnd(n+3), rnd(n+3), rnd(n+3), rnd(n+3)
+		esq2To(a, e, e1, o, o1)
+		esq2Go(b, e, e1, o, o1)
+		check("esq2", a, b, 2)
+		esq3To(a, e, e1, e2, o, o1, o2)
+		esq3Go(b, e, e1, e2, o, o1, o2)
+		check("esq3", a, b, 2)
+		for i := range a {
+			a[i] = float32(i%7) * 0.37
+		}
+		copy(b, a)
+		sqrtsOf(a)
+		sqrtsGo(b)
+		check("sqrts", a, b, 2)
 	}
 }
 

@@ -23,6 +23,7 @@ type FrontEnd struct {
 	norm    [][]int     // divisive-normalisation pools (stage indices)
 	lcnG    []float32
 	eng     *engine
+	fused   bool // post takes the fused pooling path (poolfused.go)
 	scratch sync.Pool
 }
 
@@ -88,6 +89,7 @@ func New(cfg Config) (*FrontEnd, error) {
 		}
 	}
 	f.eng = newEngine(f.kernels, f.maxR)
+	f.fused = f.fusable()
 	return f, nil
 }
 
@@ -312,6 +314,10 @@ func (f *FrontEnd) apply(dst *Maps, img []float32, h, w int, s *scratch) {
 // post runs everything after the correlations: rectification, energy,
 // contrast and divisive normalisation, end-stopping, pooling.
 func (f *FrontEnd) post(dst *Maps, h, w int, s *scratch) {
+	if f.fused {
+		f.postFused(dst, h, w, s)
+		return
+	}
 	cfg := &f.cfg
 	n := h * w
 	for i := range f.stage {

@@ -126,15 +126,34 @@ func (e *engine) responses(resp [][]float32, img []float32, h, w int, b Border, 
 	}
 }
 
+// bulkOf splits a row of n outputs into a bulk [0,nb) run one row at a
+// time (48-wide SIMD blocks) and a tail [nb,n) of at most 32 run three
+// rows at a time (sum3), so that no part of a row runs with fewer than six
+// independent FMA chains; rows of at most 32 are all tail.
+func bulkOf(n int) int {
+	if n <= 32 {
+		return 0
+	}
+	nt := n % 48
+	if nt > 32 {
+		nt -= 16
+	}
+	return n - nt
+}
+
 // hrows runs a horizontal pass over rows [y0,y1): row y writes n values
 // to dst[y·ds:] from sources at off0 + y·rstep. Rows go in increasing
-// order (each row's overrun past its width is rewritten by the next), in
-// threes when n ≤ 32 (sum3).
+// order (each row's overrun past its width is rewritten by the next) in
+// threes: the three tails first (sum3; only a tail overruns), then the
+// bulks.
 func hrows(dst []float32, ds, y0, y1, n int, srcs [][]float32, taps []filt, off0, rstep int) {
 	y := y0
-	if n <= 32 {
+	if nb := bulkOf(n); nb < n {
 		for ; y+3 <= y1; y += 3 {
-			sum3(dst[y*ds:], ds, n, srcs, taps, off0+y*rstep, 1, rstep)
+			sum3(dst[y*ds+nb:], ds, n-nb, srcs, taps, off0+y*rstep+nb, 1, rstep)
+			for j := y; j < y+3 && nb > 0; j++ {
+				hsum(dst[j*ds:], nb, srcs, taps, off0+j*rstep)
+			}
 		}
 	}
 	for ; y < y1; y++ {
@@ -145,11 +164,10 @@ func hrows(dst []float32, ds, y0, y1, n int, srcs [][]float32, taps []filt, off0
 // vrows runs a vertical pass of radius r (taps full, per term) for output
 // rows [0,h): row y writes n values to dst[d0 + y·ds:] from source rows
 // starting (y − r + k0)·pw after src0, where [k0,k1) is trim's tap range.
-// Rows go in increasing order (each row's overrun past its width is
-// rewritten by the next); when n ≤ 32, three at a time over the union of
-// their tap ranges: the extra taps read rows outside the image, which are
-// zero in every buffer this reads with a zero border (R ≥ 2 keeps them
-// inside the buffer). taps is scratch for the trimmed filters.
+// Rows go as in hrows; the three-row tails run over the union of the
+// three rows' tap ranges: the extra taps read rows outside the image,
+// which are zero in every buffer this reads with a zero border (R ≥ 2
+// keeps them inside the buffer). taps is scratch for the trimmed filters.
 //
 // (Column strips sized to keep a strip's source rows in L1 were tried and
 // measured ~30% slower at 256×256: whole rows stream from L3 in order and
@@ -157,23 +175,29 @@ func hrows(dst []float32, ds, y0, y1, n int, srcs [][]float32, taps []filt, off0
 func vrows(dst []float32, d0, ds, h, n int, srcs [][]float32, full, taps []filt, r, src0, pw int, b Border, R int) {
 	s0 := 2*r + 1
 	taps = taps[:len(full)]
+	one := func(y, nn int) {
+		k0, k1 := trim(y, h, r, s0, b)
+		for t, f := range full {
+			taps[t] = f.sub(k0, k1)
+		}
+		vsum(dst[d0+y*ds:], nn, srcs, taps, src0+(y-r+k0)*pw, pw)
+	}
 	y := 0
-	if n <= 32 && R >= 2 {
+	if nb := bulkOf(n); nb < n && R >= 2 {
 		for ; y+3 <= h; y += 3 {
 			k0, _ := trim(y+2, h, r, s0, b)
 			_, k1 := trim(y, h, r, s0, b)
 			for t, f := range full {
 				taps[t] = f.sub(k0, k1)
 			}
-			sum3(dst[d0+y*ds:], ds, n, srcs, taps, src0+(y-r+k0)*pw, pw, pw)
+			sum3(dst[d0+y*ds+nb:], ds, n-nb, srcs, taps, src0+(y-r+k0)*pw+nb, pw, pw)
+			for j := y; j < y+3 && nb > 0; j++ {
+				one(j, nb)
+			}
 		}
 	}
 	for ; y < h; y++ {
-		k0, k1 := trim(y, h, r, s0, b)
-		for t, f := range full {
-			taps[t] = f.sub(k0, k1)
-		}
-		vsum(dst[d0+y*ds:], n, srcs, taps, src0+(y-r+k0)*pw, pw)
+		one(y, n)
 	}
 }
 

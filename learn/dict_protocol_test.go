@@ -157,8 +157,8 @@ func readProtocol(dir string) (*protocolData, error) {
 	return d, nil
 }
 
-// heldOutObjective codes the held-out patches to a tight tolerance and
-// returns the mean objective, mean non-zeros, and the encode stats.
+// heldOutObjective codes the held-out patches to a tight tolerance (Tol
+// 1e-7) and returns the mean objective and mean non-zeros.
 func heldOutObjective(tb testing.TB, d *Dictionary, held []float32, lam float64) (float64, float64) {
 	c, err := NewCoder(d, CoderConfig{Lambda: lam, Solver: CD, Tol: 1e-7, MaxIter: 1000, Workers: 2})
 	if err != nil {
@@ -169,4 +169,18 @@ func heldOutObjective(tb testing.TB, d *Dictionary, held []float32, lam float64)
 		tb.Fatal(err)
 	}
 	return st.MeanObjective(), float64(st.NonZeros) / float64(st.Signals)
+}
+
+// heldOutObjectiveAt codes the held-out patches with CD at the given Tol
+// (one worker, MaxIter 1000) and returns the mean objective.
+func heldOutObjectiveAt(tb testing.TB, d *Dictionary, held []float32, lam, tol float64) float64 {
+	c, err := NewCoder(d, CoderConfig{Lambda: lam, Solver: CD, Tol: tol, MaxIter: 1000})
+	if err != nil {
+		tb.Fatal(err)
+	}
+	_, st, err := c.Encode(nil, held, false)
+	if err != nil {
+		tb.Fatal(err)
+	}
+	return st.MeanObjective()
 }

@@ -3,6 +3,7 @@ package learn
 import (
 	"bytes"
 	"errors"
+	"math"
 	"math/rand/v2"
 	"testing"
 )
@@ -52,8 +53,12 @@ func sameBits(a, b []float32) bool {
 func TestDictResumeBitIdentical(t *testing.T) {
 	const dim, k = 16, 24
 	x, _ := smallSignals(600, dim, k, 7)
-	for _, solver := range []Solver{CD, FISTA} {
-		cfg := DictConfig{Atoms: k, Lambda: 0.3, BatchSize: 50, Steps: 40, Seed: 3, Coder: CoderConfig{Solver: solver}}
+	for _, v := range []struct {
+		solver Solver
+		forget float64
+	}{{CD, 0}, {FISTA, 0}, {CD, 10}} {
+		solver := v.solver
+		cfg := DictConfig{Atoms: k, Lambda: 0.3, BatchSize: 50, Steps: 40, Seed: 3, Forget: v.forget, Coder: CoderConfig{Solver: solver}}
 		full, err := cfg.Fit(x, dim, nil)
 		if err != nil {
 			t.Fatal(err)
@@ -155,9 +160,51 @@ func TestDictRecoversAtoms(t *testing.T) {
 	}
 }
 
+// TestDictForgetSchedule checks the past-scaling factor against its
+// closed forms: with Forget = ρ and a fixed batch, Mairal et al. (2010,
+// JMLR 11:19-60, §3.4.2; formula as recalled) β_t = (1 − 1/t)^ρ; counted
+// in signals, an epoch's short last batch of m signals gives
+// (1 − m/N_t)^ρ; with Forget = 0, scikit-learn 1.2's
+// (θ+1−η)/(θ+1) (sklearn/decomposition/_dict_learning.py, as recalled).
+func TestDictForgetSchedule(t *testing.T) {
+	const rho, eta, n = 4.0, 10, 95 // 10 batches per epoch, the last of 5
+	l := &learner{cfg: DictConfig{BatchSize: eta, Forget: rho}, n: n}
+	// betaTol: the factor is rounded to float32.
+	const betaTol = 1e-7
+	for _, c := range []struct {
+		step, nb int
+		want     float64
+	}{
+		{1, eta, 0},
+		{2, eta, math.Pow(1-1.0/2, rho)},
+		{9, eta, math.Pow(1-1.0/9, rho)},
+		{10, 5, math.Pow(1-5.0/95, rho)},          // short last batch of epoch 1
+		{11, eta, math.Pow(1-10.0/105, rho)},      // first batch of epoch 2
+		{25, eta, math.Pow(1-10.0/(190+50), rho)}, // 5th batch of epoch 3
+	} {
+		l.step = c.step
+		if got := float64(l.beta(c.nb)); math.Abs(got-c.want) > betaTol {
+			t.Errorf("Forget %g step %d: β = %.8f; want %.8f", rho, c.step, got, c.want)
+		}
+	}
+	l.cfg.Forget = 0
+	for _, step := range []int{1, 5, 9, 10, 11, 40} {
+		l.step = step
+		theta := float64(step * eta)
+		if step >= eta {
+			theta = float64(eta*eta + step - eta)
+		}
+		want := (theta + 1 - eta) / (theta + 1)
+		if got := float64(l.beta(eta)); math.Abs(got-want) > betaTol {
+			t.Errorf("scikit-learn schedule step %d: β = %.8f; want %.8f", step, got, want)
+		}
+	}
+}
+
 func TestDictConfigErrors(t *testing.T) {
 	x, _ := smallSignals(10, 4, 2, 1)
-	for _, c := range []DictConfig{{Atoms: 20}, {Atoms: -1}, {Atoms: 2, BatchSize: -3}, {Atoms: 2, Lambda: -1}} {
+	for _, c := range []DictConfig{{Atoms: 20}, {Atoms: -1}, {Atoms: 2, BatchSize: -3}, {Atoms: 2, Lambda: -1},
+		{Atoms: 2, Forget: -1}, {Atoms: 2, Forget: math.NaN()}, {Atoms: 2, Forget: 1e9}} {
 		if _, err := c.Fit(x, 4, nil); err == nil {
 			t.Errorf("%+v: no error", c)
 		}

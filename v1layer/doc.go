@@ -143,9 +143,9 @@
 // (TestSIMDMatchesPortable); `striate bench` prints which build timed the
 // figures it shows. On the reference work (`striate bench`, 5 repeats,
 // median; 2-core AMD EPYC with AVX2 + FMA, 2 December 2026, run under the
-// project's heavy-work lock while other jobs compiled; three runs) the SIMD
-// build ran MNIST at 9,671–11,304 img/s on one thread and 21,477–29,130 on
-// two, 256×256 crops at 107.9–121.5 and 195.2–258.4 img/s (peers: 6,486 /
+// project's heavy-work lock while other jobs compiled; four runs) the SIMD
+// build ran MNIST at 9,391–11,304 img/s on one thread and 19,876–29,130 on
+// two, 256×256 crops at 97.4–121.5 and 190.6–258.4 img/s (peers: 6,486 /
 // 10,124 and 108 / 135); the plain build at 1,608 / 3,521 and 21.7 / 46.3
 // img/s, five to six times slower. Before the 48-wide blocks, the cleared
 // Y registers, the fused pooling and the three-row blocks the SIMD build

@@ -30,7 +30,9 @@
 // σ = 1, 2 px; Gabor energy at 4 orientations, λ = 4, 8 px; 3×3 max pooling,
 // stride 2 → 12×14×14 maps), 64 k-means templates over 5×5 patches pooled on
 // a 2×2 grid plus the maps average-pooled 2×2, the guard at MinStd 0.05, and
-// a 512-unit MLP trained 15 epochs with Adam and a cosine schedule.
+// a 512-unit MLP trained 15 epochs with Adam and a cosine schedule on all
+// labelled images (no validation hold-out; see DefaultHead for the figures
+// behind that choice).
 //
 // The input stage's noise estimate is σ̂ = median|d|/0.6745 over the
 // diagonal Haar coefficients d of the image's 2×2 blocks (Donoho &

@@ -83,7 +83,7 @@ type modelSpec struct {
 // hidden units and 8 epochs instead of 512 and 15, which trains about six
 // times faster and costs a few tenths of a point; the accuracy runs of the
 // pipeline package (and "striate train") use the full default.
-var demoHead = learn.HeadConfig{Kind: learn.KindMLP, Hidden: 128, Epochs: 8, Schedule: learn.ScheduleCosine}
+var demoHead = learn.HeadConfig{Kind: learn.KindMLP, Hidden: 128, Epochs: 8, Schedule: learn.ScheduleCosine, ValFrac: -1}
 
 // mainJobSpecs returns the hand-set and the learned pipeline built on base
 // (the demo's own defaults unless --config names a file). The learned one

@@ -50,6 +50,14 @@ type Config struct {
 	// Head is the supervised head; its zero value means DefaultHead (a field
 	// set by hand makes every other zero field take learn's own default).
 	Head learn.HeadConfig `json:"head"`
+	// Mirror is for classes that look the same mirrored left to right
+	// (garments, shoes, bags; not digits or letters): the head is trained on
+	// every training image and on its mirror image, and Predict averages the
+	// class probabilities of an image and of its mirror image (Extract is
+	// unchanged). It doubles the head's training time and the cost of a
+	// prediction. On Fashion-MNIST (validation images from the training
+	// split) it raised the accuracy from 91.83% to 92.12%.
+	Mirror bool `json:"mirror,omitempty"`
 	// HeadMinSteps is the least number of minibatch steps the head is
 	// trained for: when the training set is so small that Head.Epochs passes
 	// give fewer steps, Fit raises the epoch count to reach it (the fitted
@@ -79,8 +87,10 @@ type InputConfig struct {
 	// 3×3 median filter first, which removes most of strong pixel noise at a
 	// small cost in fine detail; "auto" estimates each image's noise level
 	// (Donoho & Johnstone's wavelet MAD) and filters only noisy images: none
-	// below an estimated σ of 0.13, once up to 0.185, twice above. Clean
-	// MNIST and Fashion-MNIST images are left untouched.
+	// below an estimated σ of 0.13, once up to 0.185, twice above, each time
+	// followed by a grey-level coring that sets what is within a multiple of
+	// σ̂ of black or white to black or white. Clean MNIST and Fashion-MNIST
+	// images are left untouched.
 	Denoise string `json:"denoise,omitempty"`
 	// Center is "mass" (default: shift each image by whole pixels so that
 	// its centre of mass is at the image centre, as MNIST's makers did) or

@@ -72,8 +72,10 @@ func normalizeInput(buf, img []float32, h, w int, c InputConfig) []float32 {
 		case sd >= autoHeavy:
 			median3(out, img[:n], h, w)
 			median3(tmp, out, h, w)
+			core(tmp, autoCoreHeavy*sd)
 		case sd >= autoLight:
 			median3(tmp, img[:n], h, w)
+			core(tmp, autoCoreLight*sd)
 		default:
 			copy(tmp, img[:n])
 		}
@@ -137,10 +139,39 @@ func normalizeInput(buf, img []float32, h, w int, c InputConfig) []float32 {
 // (σ̂ ≈ 0.14) and at 0.3-0.4 on MNIST (σ̂ ≈ 0.17-0.22); two or three passes
 // at 0.3 and above on Fashion-MNIST (σ̂ ≥ 0.2) and at 0.5 on MNIST. Clipping
 // makes σ̂ about 0.6 σ on these dark-background images.
+//
+// After the median passes, grey levels within a = k·σ̂ of black or white
+// are set to black or white and the rest stretched linearly (see core),
+// with k = autoCoreLight after one pass and autoCoreHeavy after two: what
+// the median leaves of clipped noise is a faint haze on the background and
+// speckle on the strokes, which the front end's contrast normalisation would
+// otherwise amplify. Chosen the same way, on validation images 50,000-53,999
+// of both training splits (k from 0.5 to 1.5 after two passes, 0 to 1 after
+// one): it raised MNIST at σ = 0.3 / 0.5 from 93.2% / 76.8% to 95.3% /
+// 83.8%, and Fashion-MNIST at σ = 0.2 / 0.3 from 75.7% / 67.5% to 76.9% /
+// 72.2%.
 const (
-	autoLight = 0.13
-	autoHeavy = 0.185
+	autoLight     = 0.13
+	autoHeavy     = 0.185
+	autoCoreLight = 0.5
+	autoCoreHeavy = 0.75
 )
+
+// core maps v to clamp((v − a)/(1 − 2a), 0, 1) in place: a grey-level
+// coring that sends the a-neighbourhoods of black and white to black and
+// white (common practice in image restoration, e.g. the black and white
+// points of a levels adjustment). a is capped at 0.25 so the stretch stays
+// at most 2×.
+func core(v []float32, a float64) {
+	a = min(a, 0.25)
+	if a <= 0 {
+		return
+	}
+	lo, s := float32(a), float32(1/(1-2*a))
+	for i, x := range v {
+		v[i] = min(1, max(0, (x-lo)*s))
+	}
+}
 
 // noiseSigma estimates the standard deviation of additive white noise in
 // src (h×w) robustly, as Donoho & Johnstone (1994, Biometrika 81:425-455)

@@ -215,3 +215,28 @@ func TestAutoDenoiseLeavesCleanImagesAlone(t *testing.T) {
 		}
 	}
 }
+
+// TestCore checks the grey-level coring against its definition
+// clamp((v − a)/(1 − 2a), 0, 1) (the black and white points of a levels
+// adjustment; common practice) and the cap a ≤ 0.25.
+func TestCore(t *testing.T) {
+	v := []float32{0, 0.1, 0.2, 0.5, 0.8, 0.9, 1}
+	core(v, 0.2)
+	want := []float32{0, 0, 0, 0.5, 1, 1, 1}
+	for i := range v {
+		if math.Abs(float64(v[i]-want[i])) > 1e-6 {
+			t.Errorf("core(a=0.2)[%d] = %v; want %v", i, v[i], want[i])
+		}
+	}
+	v = []float32{0.3, 0.5, 0.6}
+	core(v, 0.4) // capped at 0.25: (v − 0.25)/0.5
+	for i, w := range []float32{0.1, 0.5, 0.7} {
+		if math.Abs(float64(v[i]-w)) > 1e-6 {
+			t.Errorf("core(a=0.4, capped)[%d] = %v; want %v", i, v[i], w)
+		}
+	}
+	v = []float32{0.3}
+	if core(v, 0); v[0] != 0.3 {
+		t.Errorf("core(a=0) changed %v", v[0])
+	}
+}

@@ -76,6 +76,20 @@ func (s *Set) Subset(idx []int) *Set {
 	return out
 }
 
+// Mirrored returns a new Set holding the left–right mirror image of every
+// image of s (pixel (y, x) from (y, W−1−x)), with the same labels.
+func (s *Set) Mirrored() *Set {
+	out := &Set{Name: s.Name + " (mirrored)", N: s.N, H: s.H, W: s.W, Pix: make([]uint8, len(s.Pix)),
+		Labels: append([]int(nil), s.Labels...), Classes: append([]string(nil), s.Classes...), Source: s.Source}
+	for r := 0; r+s.W <= len(s.Pix); r += s.W {
+		src, dst := s.Pix[r:r+s.W], out.Pix[r:r+s.W]
+		for x, v := range src {
+			dst[s.W-1-x] = v
+		}
+	}
+	return out
+}
+
 // ClassCounts returns the number of images of each class.
 func (s *Set) ClassCounts() []int {
 	c := make([]int, len(s.Classes))

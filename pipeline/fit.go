@@ -117,20 +117,27 @@ func FitReported(cfg Config, train *datasets.Set, opts FitOptions) (*Model, FitR
 	t0 = time.Now()
 	d := p.featureLen(tmpl)
 	rep.FeatureLen = d
-	X := make([]float32, train.N*d)
-	extractSet(p, tmpl, train, nil, X, opts.Workers, opts.Progress, "features")
-	g := fitGuard(cfg.Guard, X, train.N, d)
+	rows, labels := train.N, train.Labels
+	if cfg.Mirror { // rows [N, 2N) are the mirror images of rows [0, N)
+		rows, labels = 2*train.N, append(append([]int(nil), train.Labels...), train.Labels...)
+	}
+	X := make([]float32, rows*d)
+	extractSet(p, tmpl, train, nil, X[:train.N*d], opts.Workers, opts.Progress, "features")
+	if cfg.Mirror {
+		extractSet(p, tmpl, train.Mirrored(), nil, X[train.N*d:], opts.Workers, opts.Progress, "mirrored features")
+	}
+	g := fitGuard(cfg.Guard, X, rows, d)
 	k := g.out()
-	for i := 0; i < train.N; i++ { // compact in place: see guard.apply
+	for i := 0; i < rows; i++ { // compact in place: see guard.apply
 		g.apply(X[i*k:(i+1)*k], X[i*d:(i+1)*d])
 	}
-	X = X[:train.N*k]
+	X = X[:rows*k]
 	rep.FeatureLen = k
 	rep.Features = time.Since(t0)
 
-	cfg.Head = withMinSteps(cfg.Head, train.N, cfg.HeadMinSteps)
+	cfg.Head = withMinSteps(cfg.Head, rows, cfg.HeadMinSteps)
 	t0 = time.Now()
-	head, hrep, err := cfg.Head.Fit(X, train.Labels, len(train.Classes), opts.Progress)
+	head, hrep, err := cfg.Head.Fit(X, labels, len(train.Classes), opts.Progress)
 	rep.Head = hrep
 	if err != nil {
 		return nil, rep, fmt.Errorf("pipeline: fitting the head: %w", err)

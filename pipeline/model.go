@@ -35,6 +35,7 @@ type work struct {
 	feat  []float32
 	hsc   []float32
 	probs []float32
+	mir   []float32 // the mirrored input (Config.Mirror)
 }
 
 func newModel(cfg Config, classes []string, p *shapes, tmpl *templateStage, g *guard, head *learn.Head) (*Model, error) {
@@ -91,9 +92,45 @@ func (m *Model) Predict(img image.Image) (class int, probs []float32) {
 	w := m.scratch.Get().(*work)
 	defer m.scratch.Put(w)
 	w.gray = datasets.ToGray(w.gray, img, m.cfg.Input.Height, m.cfg.Input.Width)
-	w.feat = m.extractGray(w.feat, w.gray, w)
-	probs = m.head.Predict(make([]float32, len(m.classes)), w.feat, m.headScratch(w))
+	probs = m.classify(make([]float32, len(m.classes)), w.gray, w)
 	return argmax(probs), probs
+}
+
+// classify writes the class probabilities of the grey image g (at the input
+// size) into dst and returns it. With Config.Mirror they are the mean of the
+// head's probabilities for g and for its left–right mirror image.
+func (m *Model) classify(dst, g []float32, w *work) []float32 {
+	w.feat = m.extractGray(w.feat, g, w)
+	dst = m.head.Predict(dst, w.feat, m.headScratch(w))
+	if !m.cfg.Mirror {
+		return dst
+	}
+	w.mir = mirrorRows(w.mir, g, m.cfg.Input.Height, m.cfg.Input.Width)
+	w.feat = m.extractGray(w.feat, w.mir, w)
+	if cap(w.probs) < len(dst) {
+		w.probs = make([]float32, len(dst))
+	}
+	w.probs = m.head.Predict(w.probs[:len(dst)], w.feat, m.headScratch(w))
+	for i, p := range w.probs {
+		dst[i] = (dst[i] + p) / 2
+	}
+	return dst
+}
+
+// mirrorRows writes the left–right mirror image of the h×w image src into
+// dst (grown as needed) and returns it.
+func mirrorRows(dst, src []float32, h, w int) []float32 {
+	if cap(dst) < h*w {
+		dst = make([]float32, h*w)
+	}
+	dst = dst[:h*w]
+	for y := 0; y < h; y++ {
+		r, o := src[y*w:(y+1)*w], dst[y*w:(y+1)*w]
+		for x, v := range r {
+			o[w-1-x] = v
+		}
+	}
+	return dst
 }
 
 // ExtractBatch returns the feature vectors of imgs, computed over workers
@@ -122,9 +159,7 @@ func (m *Model) PredictBatch(imgs [][]float32, h, w, workers int) ([][]float32, 
 	}
 	out := make([][]float32, len(imgs))
 	m.parallel(len(imgs), workers, func(i int, wk *work) {
-		g := m.prepare(wk, imgs[i], h, w)
-		wk.feat = m.extractGray(wk.feat, g, wk)
-		out[i] = m.head.Predict(make([]float32, len(m.classes)), wk.feat, m.headScratch(wk))
+		out[i] = m.classify(make([]float32, len(m.classes)), m.prepare(wk, imgs[i], h, w), wk)
 	})
 	return out, nil
 }

@@ -50,9 +50,7 @@ func Accuracy(m *Model, s *datasets.Set, perturb Perturb, workers int, progress 
 					p.Apply(b.pb, img, s.H, s.W, seed)
 					img = b.pb
 				}
-				g := m.prepare(b.w, img, s.H, s.W)
-				b.w.feat = m.extractGray(b.w.feat, g, b.w)
-				b.out = m.head.Predict(b.out, b.w.feat, m.headScratch(b.w))
+				b.out = m.classify(b.out, m.prepare(b.w, img, s.H, s.W), b.w)
 				if argmax(b.out) == s.Labels[i] {
 					correct.Add(1)
 				}

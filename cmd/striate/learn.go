@@ -23,6 +23,7 @@ func init() {
   striate train --data fashion --config bank/config.json --out learned.stm   # a pipeline on that bank
   striate learn --quick --out /tmp/bank           # a small, fast run (for tests and a first look)
   striate learn --atoms 192 --epochs 8 --out bank192/
+  striate learn --forget 10 --epochs 1 --out bank-fast/    # one pass with a fast-forgetting past (Mairal et al.'s ρ)
   striate learn --whiten zca --eps 0.01 --lambda 1 --out bank-zca/   # ZCA-whitened patches instead`,
 		setup: func(fs *flag.FlagSet, g *globals) func([]string) error {
 			quick := fs.Bool("quick", false, "small fast run: 64 atoms of 8×8 from 5,000 patches, 2 passes")
@@ -35,6 +36,7 @@ func init() {
 			eps := fs.Float64("eps", 0.01, "ZCA regulariser ε (squared [0,1] pixel units), with --whiten zca")
 			epochs := fs.Int("epochs", 6, "passes over the training patches")
 			batch := fs.Int("batch", 256, "minibatch size")
+			forget := fs.Float64("forget", 0, "ρ of the past scaling (1 − n/N)^ρ of the dictionary update (Mairal et al. 2010); 0 keeps scikit-learn's schedule")
 			g.addSeed(fs)
 			g.addWorkers(fs)
 			g.addQuiet(fs)
@@ -49,12 +51,15 @@ func init() {
 				if *quick {
 					*atoms, *size, *patches, *epochs = 64, 8, 5000, 2
 				}
+				if *forget < 0 {
+					return usagef("--forget %g; want 0 (scikit-learn's schedule) or ρ > 0", *forget)
+				}
 				if *atoms < 1 || *size < 3 || *patches < *atoms || *epochs < 1 || *batch < 1 {
 					return usagef("--atoms %d, --size %d, --patches %d, --epochs %d, --batch %d: want atoms ≥ 1, size ≥ 3, patches ≥ atoms, epochs ≥ 1, batch ≥ 1",
 						*atoms, *size, *patches, *epochs, *batch)
 				}
 				return runLearn(g, learnArgs{atoms: *atoms, size: *size, patches: *patches, lambda: *lambda,
-					whiten: *whiten, f0: *f0, eps: *eps, epochs: *epochs, batch: *batch})
+					whiten: *whiten, f0: *f0, eps: *eps, epochs: *epochs, batch: *batch, forget: *forget})
 			}
 		},
 	})
@@ -62,7 +67,7 @@ func init() {
 
 type learnArgs struct {
 	atoms, size, patches, epochs, batch int
-	lambda, f0, eps                     float64
+	lambda, f0, eps, forget             float64
 	whiten                              string
 }
 
@@ -72,7 +77,7 @@ func runLearn(g *globals, a learnArgs) error {
 		return err
 	}
 	cfg := learn.PhotoBankConfig{PatchSize: a.size, Patches: a.patches, Whiten: a.whiten, ZCAEps: a.eps, F0: a.f0,
-		Dict: learn.DictConfig{Atoms: a.atoms, Lambda: a.lambda, BatchSize: a.batch, Epochs: a.epochs}}
+		Dict: learn.DictConfig{Atoms: a.atoms, Lambda: a.lambda, BatchSize: a.batch, Epochs: a.epochs, Forget: a.forget}}
 	steps := a.epochs * ((a.patches + a.batch - 1) / a.batch)
 	bar := g.newProgress(steps, "learn")
 	start := time.Now()

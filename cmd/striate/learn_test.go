@@ -66,4 +66,8 @@ func TestLearnQuick(t *testing.T) {
 	if code := run([]string{"learn", "--atoms", "0"}, &out, &errb); code != exitUsage {
 		t.Errorf("--atoms 0: exit %d; want %d", code, exitUsage)
 	}
+	errb.Reset()
+	if code := run([]string{"learn", "--forget", "-1"}, &out, &errb); code != exitUsage || !strings.Contains(errb.String(), "--forget -1") {
+		t.Errorf("--forget -1: exit %d (want %d), stderr %q", code, exitUsage, errb.String())
+	}
 }

@@ -15,6 +15,7 @@ func init() {
 		summary: "fit a pipeline on MNIST, Fashion-MNIST, an IDX folder or a folder of class subfolders and save the model",
 		usage:   "",
 		example: `  striate train --data mnist --out mnist.stm
+  striate train --data fashion --mirror --out fashion.stm       # garments look the same mirrored
   striate train --data fashion --config fashion.json --seed 7 --out fashion.stm
   striate train --data mnist --labels 100 --out mnist-100.stm      # 100 labels per class
   striate train --data /srv/depot/idx --out garments.stm           # train-/t10k-*-idx?-ubyte[.gz] files
@@ -22,6 +23,7 @@ func init() {
 		setup: func(fs *flag.FlagSet, g *globals) func([]string) error {
 			data := fs.String("data", "mnist", "training data: `mnist`, fashion, a folder of IDX files named like MNIST's, or a folder with one subfolder of images per class")
 			labels := fs.Int("labels", 0, "use only this many labelled images per class (seeded; 0 = all); the unsupervised stages still see every training image without its label")
+			mirror := fs.Bool("mirror", false, "also train on mirror images and average each prediction over the image and its mirror image (sets the config's mirror; for classes that look the same mirrored, such as garments, not digits)")
 			g.addSeed(fs)
 			g.addWorkers(fs)
 			g.addConfig(fs)
@@ -34,7 +36,7 @@ func init() {
 				if *labels < 0 {
 					return usagef("--labels %d; want 0 (all) or a positive count per class", *labels)
 				}
-				return runTrain(g, *data, *labels)
+				return runTrain(g, *data, *labels, *mirror)
 			}
 		},
 	})
@@ -50,7 +52,7 @@ func trainSpecs(data string) (train, test string) {
 	return data, ""
 }
 
-func runTrain(g *globals, data string, perClass int) error {
+func runTrain(g *globals, data string, perClass int, mirror bool) error {
 	cfg := pipeline.Config{}
 	if g.config != "" {
 		var err error
@@ -61,6 +63,7 @@ func runTrain(g *globals, data string, perClass int) error {
 		cfg = pipeline.DefaultConfig()
 	}
 	cfg.Seed = g.seed
+	cfg.Mirror = cfg.Mirror || mirror
 	trainSpec, testSpec := trainSpecs(data)
 	in := cfg.Input
 	if in.Height == 0 || in.Width == 0 {

@@ -54,3 +54,27 @@ func TestCLITrainErrors(t *testing.T) {
 		t.Errorf("train --labels -3: exit %d, stderr:\n%s", r.code, r.stderr)
 	}
 }
+
+// TestCLITrainMirror: --mirror sets the model's Config.Mirror, and the
+// model still separates the fixture's classes (horizontal and vertical
+// stripes and blobs look the same mirrored, so mirror averaging must not
+// cost accuracy; same 0.9 floor as TestCLITrainFolder).
+func TestCLITrainMirror(t *testing.T) {
+	cliFixture(t)
+	out := filepath.Join(t.TempDir(), "shapes-mirror.stm")
+	mustRun(t, 0, "train", "--data", filepath.Join(cliDir, "train"), "--mirror", "--out", out, "--workers", "2", "--quiet", "--seed", "3")
+	m, err := pipeline.LoadFile(out)
+	if err != nil {
+		t.Fatalf("the trained model does not load: %v", err)
+	}
+	if !m.Config().Mirror {
+		t.Fatal("train --mirror wrote a model without Config.Mirror")
+	}
+	acc, err := pipeline.Accuracy(m, cliTestSet, nil, 2, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if acc < 0.9 {
+		t.Errorf("accuracy %.3f on the held-out shapes, want ≥ 0.9", acc)
+	}
+}

@@ -32,8 +32,8 @@ func longRuns(t *testing.T, which string) {
 	}
 }
 
-// accConfig is the default config, with Mirror on for Fashion-MNIST (its
-// garments, shoes and bags look the same mirrored; digits do not).
+// accConfig is the preset for the dataset: "garments" for Fashion-MNIST,
+// "digits" for MNIST (see pipeline.Preset).
 func accConfig(t *testing.T, fashion bool) pipeline.Config {
 	t.Helper()
 	if p := os.Getenv("STRIATE_ACC_CONFIG"); p != "" {
@@ -44,8 +44,15 @@ func accConfig(t *testing.T, fashion bool) pipeline.Config {
 		t.Logf("config from %s", p)
 		return c
 	}
-	c := pipeline.DefaultConfig()
-	c.Mirror = fashion
+	name := "digits"
+	if fashion {
+		name = "garments"
+	}
+	c, err := pipeline.Preset(name)
+	if err != nil {
+		t.Fatal(err)
+	}
+	t.Logf("preset %q: %s", name, pipeline.PresetAbout(name))
 	return c
 }
 

@@ -92,6 +92,15 @@ type InputConfig struct {
 	// σ̂ of black or white to black or white. Clean MNIST and Fashion-MNIST
 	// images are left untouched.
 	Denoise string `json:"denoise,omitempty"`
+	// Deskew is "none" (default) or "shear": shear each image's rows so that
+	// the slant of its grey mass (the regression slope μ11/μ02 of x on y) is
+	// removed, the deskewing of the classic MNIST benchmarks. For handwriting,
+	// where slant is a habit of the writer rather than a property of the
+	// class; on MNIST validation images (training split) it raised the
+	// accuracy from 99.28% to 99.33% with all labels and from 98.52% to
+	// 98.80% with 1,000 per class. Not for garments: on Fashion-MNIST it cost
+	// half a point.
+	Deskew string `json:"deskew,omitempty"`
 	// Center is "mass" (default: shift each image by whole pixels so that
 	// its centre of mass is at the image centre, as MNIST's makers did) or
 	// "none".
@@ -176,6 +185,9 @@ func (c Config) withDefaults() Config {
 	}
 	if c.Input.Center == "" {
 		c.Input.Center = CenterMass
+	}
+	if c.Input.Deskew == "" {
+		c.Input.Deskew = DeskewNone
 	}
 	if c.Pool.Op == "" {
 		c.Pool.Op = "avg"

@@ -89,3 +89,37 @@ func TestWithMinSteps(t *testing.T) {
 		t.Errorf("no minimum: %d epochs; want 15", got.Epochs)
 	}
 }
+
+// TestPresets: each preset is a valid config that differs from the default
+// only where its description says, and an unknown name is an error listing
+// the known ones.
+func TestPresets(t *testing.T) {
+	def := DefaultConfig()
+	for _, name := range PresetNames() {
+		c, err := Preset(name)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if err := c.Validate(); err != nil {
+			t.Errorf("preset %s: %v", name, err)
+		}
+		if PresetAbout(name) == "" {
+			t.Errorf("preset %s has no description", name)
+		}
+		want := def
+		switch name {
+		case "digits":
+			want.Input.Deskew = DeskewShear
+		case "garments":
+			want.Mirror, want.Pool.Sqrt = true, true
+		}
+		a, _ := c.MarshalIndent()
+		b, _ := want.MarshalIndent()
+		if string(a) != string(b) {
+			t.Errorf("preset %s:\n%s\nwant\n%s", name, a, b)
+		}
+	}
+	if _, err := Preset("socks"); err == nil || !strings.Contains(err.Error(), "garments") {
+		t.Errorf("unknown preset: error %v; want one listing the presets", err)
+	}
+}

@@ -15,6 +15,8 @@ const (
 	DenoiseMedian3  = "median3" // 3×3 median filter, border pixels replicated
 	DenoiseAuto     = "auto"    // estimate the noise level; 3×3 median (twice when heavy) only on noisy images
 	DenoiseNone     = "none"
+	DeskewShear     = "shear" // shear rows so that the second-moment slant μ11/μ02 is removed
+	DeskewNone      = "none"
 )
 
 // minRange is the smallest max − min that NormalizeMinMax stretches: below
@@ -38,6 +40,11 @@ func (c InputConfig) validate() error {
 	default:
 		return fmt.Errorf("pipeline: input.center %q; want %q (default) or %q", c.Center, CenterMass, CenterNone)
 	}
+	switch c.Deskew {
+	case DeskewNone, DeskewShear:
+	default:
+		return fmt.Errorf("pipeline: input.deskew %q; want %q (default) or %q", c.Deskew, DeskewNone, DeskewShear)
+	}
 	return nil
 }
 
@@ -56,7 +63,7 @@ func (c InputConfig) validate() error {
 // computing the center of mass of the pixels"). An image with no mass is
 // left where it is.
 func normalizeInput(buf, img []float32, h, w int, c InputConfig) []float32 {
-	if c.Normalize != NormalizeMinMax && c.Center != CenterMass && c.Denoise != DenoiseMedian3 && c.Denoise != DenoiseAuto {
+	if c.Normalize != NormalizeMinMax && c.Center != CenterMass && c.Denoise != DenoiseMedian3 && c.Denoise != DenoiseAuto && c.Deskew != DeskewShear {
 		return img
 	}
 	n := h * w
@@ -94,6 +101,10 @@ func normalizeInput(buf, img []float32, h, w int, c InputConfig) []float32 {
 			}
 		}
 	}
+	if c.Deskew == DeskewShear {
+		deskew(out, tmp, h, w)
+		copy(tmp, out)
+	}
 	if c.Center != CenterMass {
 		copy(out, tmp)
 		return out
@@ -125,6 +136,66 @@ func normalizeInput(buf, img []float32, h, w int, c InputConfig) []float32 {
 		}
 	}
 	return out
+}
+
+// maxSkew bounds the shear of DeskewShear (|α| ≤ 1, a slant of 45°), so a
+// shape whose mass lies almost on one row is not smeared across the image.
+const maxSkew = 1
+
+// deskew writes src (h×w) sheared along x into dst: dst(y, x) = src(y, x +
+// α·(y − ȳ)), linearly interpolated along the row with zero fill, where
+// α = μ11/μ02 is the slope of the regression of x on y over the grey
+// mass (central moments μ11 = Σ v·(x − x̄)(y − ȳ), μ02 = Σ v·(y − ȳ)²),
+// clamped to ±maxSkew. The shear removes the slant (μ11 becomes 0) and
+// keeps the centre of mass. It is the deskewing of the MNIST benchmarks
+// (LeCun et al. 1998 list "deskewed" variants of several classifiers; the
+// moment form is common practice). An image with no mass, or with all its
+// mass on one row, is copied unchanged.
+func deskew(dst, src []float32, h, w int) {
+	var m, my, mx float64
+	for y := 0; y < h; y++ {
+		for x, v := range src[y*w : (y+1)*w] {
+			m += float64(v)
+			my += float64(v) * float64(y)
+			mx += float64(v) * float64(x)
+		}
+	}
+	if m <= 0 {
+		copy(dst, src[:h*w])
+		return
+	}
+	cy, cx := my/m, mx/m
+	var m11, m02 float64
+	for y := 0; y < h; y++ {
+		dy := float64(y) - cy
+		for x, v := range src[y*w : (y+1)*w] {
+			m11 += float64(v) * (float64(x) - cx) * dy
+			m02 += float64(v) * dy * dy
+		}
+	}
+	if m02 <= 1e-12*m {
+		copy(dst, src[:h*w])
+		return
+	}
+	a := max(-maxSkew, min(maxSkew, m11/m02))
+	for y := 0; y < h; y++ {
+		row, out := src[y*w:(y+1)*w], dst[y*w:(y+1)*w]
+		off := a * (float64(y) - cy)
+		for x := range out {
+			sx := float64(x) + off
+			x0 := math.Floor(sx)
+			f := sx - x0
+			i := int(x0)
+			var v float64
+			if i >= 0 && i < w {
+				v += (1 - f) * float64(row[i])
+			}
+			if i+1 >= 0 && i+1 < w {
+				v += f * float64(row[i+1])
+			}
+			out[x] = float32(v)
+		}
+	}
 }
 
 // Noise levels of DenoiseAuto, in the units of noiseSigma's estimate σ̂

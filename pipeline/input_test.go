@@ -6,6 +6,7 @@ import (
 	"math/rand/v2"
 	"os"
 	"slices"
+	"strings"
 	"testing"
 
 	"github.com/striate/striate/datasets"
@@ -238,5 +239,90 @@ func TestCore(t *testing.T) {
 	v = []float32{0.3}
 	if core(v, 0); v[0] != 0.3 {
 		t.Errorf("core(a=0) changed %v", v[0])
+	}
+}
+
+// slantedLine draws a line of slope s (x = c + s·(y − c)) one pixel of mass
+// per row, split between the two nearest columns so that each row's centre
+// of mass lies exactly on the line.
+func slantedLine(h, w int, c, s float64) []float32 {
+	img := make([]float32, h*w)
+	for y := 0; y < h; y++ {
+		p := c + s*(float64(y)-c)
+		i := int(math.Floor(p))
+		f := float32(p - math.Floor(p))
+		img[y*w+i] += 1 - f
+		img[y*w+i+1] += f
+	}
+	return img
+}
+
+func rowCentroids(img []float32, h, w int) (cs []float64, mass float64) {
+	for y := 0; y < h; y++ {
+		var m, mx float64
+		for x, v := range img[y*w : (y+1)*w] {
+			m += float64(v)
+			mx += float64(v) * float64(x)
+		}
+		mass += m
+		if m > 0 {
+			cs = append(cs, mx/m)
+		}
+	}
+	return cs, mass
+}
+
+// TestDeskew checks the shear against two facts. The regression slope of x
+// on y for points on the line x = c + s·(y − c) is s (least squares; common
+// practice), so deskewing that line must make every row's centre of mass
+// the same column, the line's centre. Linear interpolation moves a row's
+// centre of mass by exactly the shift and keeps its mass (common practice),
+// so the mass is kept. A vertical line is left as it is, and a slope beyond
+// maxSkew is only partly removed.
+func TestDeskew(t *testing.T) {
+	const h, w = 28, 28
+	const c = 13.5
+	// deskewTol: float32 pixels and float64 sums; 1e-4 px is far below the
+	// 1/28 px any real slant leaves.
+	const deskewTol = 1e-4
+	for _, s := range []float64{0.4, -0.3} {
+		src := slantedLine(h, w, c, s)
+		dst := make([]float32, h*w)
+		deskew(dst, src, h, w)
+		cs, mass := rowCentroids(dst, h, w)
+		_, m0 := rowCentroids(src, h, w)
+		for y, x := range cs {
+			if math.Abs(x-c) > deskewTol {
+				t.Errorf("slope %g: row %d centre %.5f after deskew; want %.1f", s, y, x, c)
+				break
+			}
+		}
+		if math.Abs(mass-m0) > deskewTol*m0 {
+			t.Errorf("slope %g: mass %.5f after deskew; want %.5f", s, mass, m0)
+		}
+	}
+	vert := slantedLine(h, w, c, 0)
+	dst := make([]float32, h*w)
+	if deskew(dst, vert, h, w); !slices.Equal(dst, vert) {
+		t.Error("deskew changed a vertical line")
+	}
+	// Slope 1.5 is clamped to maxSkew = 1: a slant of 0.5 px per row remains.
+	steep := make([]float32, h*w)
+	for y := 6; y < 22; y++ { // slope 1.5 over the middle rows, inside the image
+		p := c + 1.5*(float64(y)-c)
+		i := int(math.Floor(p))
+		f := float32(p - math.Floor(p))
+		steep[y*w+i] += 1 - f
+		steep[y*w+i+1] += f
+	}
+	deskew(dst, steep, h, w)
+	cs, _ := rowCentroids(dst, h, w)
+	if got := (cs[len(cs)-1] - cs[0]) / float64(len(cs)-1); math.Abs(got-0.5) > 1e-3 {
+		t.Errorf("slope 1.5 deskewed to slope %.4f; want 0.5 (clamped at %d)", got, maxSkew)
+	}
+	// The config value is checked.
+	bad := InputConfig{Normalize: NormalizeMinMax, Denoise: DenoiseAuto, Center: CenterMass, Deskew: "tilt"}
+	if err := bad.validate(); err == nil || !strings.Contains(err.Error(), "input.deskew") {
+		t.Errorf("deskew %q: error %v; want one naming input.deskew", bad.Deskew, err)
 	}
 }

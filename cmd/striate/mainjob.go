@@ -104,15 +104,16 @@ func mainJobSpecs(base pipeline.Config, seed uint64) []modelSpec {
 	}
 }
 
-// demoConfig is the pipeline the main job trains: the package default with
-// demoHead, or the file named by --config.
-func demoConfig(path string) (pipeline.Config, error) {
+// demoConfig is the pipeline the main job trains on one dataset: the
+// preset for its images (garments for Fashion-MNIST, digits for MNIST) with
+// demoHead, or the file named by --config for both.
+func demoConfig(path, preset string) (pipeline.Config, error) {
 	if path != "" {
 		return pipeline.LoadConfig(path)
 	}
-	c := pipeline.DefaultConfig()
+	c, err := pipeline.Preset(preset)
 	c.Head = demoHead
-	return c, nil
+	return c, err
 }
 
 // runMainJob learns a bank, trains the hand-set and learned pipelines on
@@ -134,22 +135,22 @@ func runMainJob(g *globals, d *demoData, quick bool) error {
 		rep.Notes = append(rep.Notes, fmt.Sprintf("Quick run: %d labelled training images per class and the first %d test images; "+
 			"figures are indicative only. Run without --quick for the full result.", sz.trainPerClass, sz.test))
 	}
-	base, err := demoConfig(g.config)
-	if err != nil {
-		return err
-	}
-	specs := mainJobSpecs(base, g.seed)
-	for i := range specs {
-		sz.shrink(&specs[i].cfg)
-	}
-	if g.config == "" {
-		rep.Notes = append(rep.Notes, "On Fashion-MNIST both pipelines set \"mirror\": true (garments, shoes and bags look the same "+
-			"mirrored): the head also learns from the mirror image of every training image, and each prediction averages "+
-			"an image and its mirror image. The configurations below are those of the MNIST runs.")
-	}
+	// specs[k] are the two pipelines of dataset k (Fashion-MNIST, MNIST).
+	var specs [2][]modelSpec
 	configs := map[string]pipeline.Config{}
-	for _, s := range specs {
-		configs[s.name] = s.cfg
+	for k, ds := range []struct{ name, preset string }{{"Fashion-MNIST", "garments"}, {"MNIST", "digits"}} {
+		base, err := demoConfig(g.config, ds.preset)
+		if err != nil {
+			return err
+		}
+		specs[k] = mainJobSpecs(base, g.seed)
+		for i := range specs[k] {
+			sz.shrink(&specs[k][i].cfg)
+			configs[specs[k][i].name+" on "+ds.name] = specs[k][i].cfg
+		}
+		if g.config == "" {
+			rep.Notes = append(rep.Notes, fmt.Sprintf("On %s both pipelines use the %q preset (%s).", ds.name, ds.preset, pipeline.PresetAbout(ds.preset)))
+		}
 	}
 	rep.Config = configs
 
@@ -159,7 +160,8 @@ func runMainJob(g *globals, d *demoData, quick bool) error {
 	sets := []dataPair{{d.fashionTrain, d.fashionTest}, {d.mnistTrain, d.mnistTest}}
 	var mnistModels = map[string]*pipeline.Model{}
 	var banksDrawn bool
-	for _, dp := range sets {
+	for k, dp := range sets {
+		specs := specs[k]
 		train := dp.train
 		if sz.trainPerClass > 0 {
 			train = train.Subset(datasets.PerClass(train.Labels, sz.trainPerClass, g.seed))
@@ -169,13 +171,7 @@ func runMainJob(g *globals, d *demoData, quick bool) error {
 		rep.Data = append(rep.Data, eval.Provenance{Name: dp.test.Name, Source: dp.test.Source, Train: train.N, Test: test.N,
 			H: test.H, W: test.W, Classes: test.Classes})
 		preds := map[string][]int{}
-		// Garments look the same mirrored: on Fashion-MNIST the demo's
-		// pipelines set Config.Mirror (a --config file decides for itself).
-		mirror := dp.train == d.fashionTrain && g.config == ""
 		for _, s := range specs {
-			if mirror {
-				s.cfg.Mirror = true
-			}
 			fmt.Fprintf(w, "training %s on %s (%d images)\n", s.name, train.Name, train.N)
 			bar := g.newProgress(train.N, s.name)
 			t0 := time.Now()
@@ -250,7 +246,7 @@ func runMainJob(g *globals, d *demoData, quick bool) error {
 	// training split without labels; the head sees only the budget.
 	mt := firstN(d.mnistTest, sz.test)
 	mtd := eval.FromSet(mt)
-	hand := specs[0]
+	hand := specs[1][0] // hand-set on MNIST
 	fmt.Fprintf(w, "label efficiency of %s on MNIST: %v labels per class\n", hand.name, sz.labelBudgets)
 	bar := g.newProgress(len(sz.labelBudgets), "label efficiency")
 	curve, err := eval.LabelEfficiency(hand.name, func(idx []int) (eval.Predictor, error) {
@@ -268,7 +264,7 @@ func runMainJob(g *globals, d *demoData, quick bool) error {
 	}
 
 	// The front end's invariance: grating probe of each pipeline's front end.
-	for _, s := range specs {
+	for _, s := range specs[1] {
 		m := mnistModels[s.name]
 		if m == nil {
 			continue

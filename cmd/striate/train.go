@@ -3,6 +3,7 @@ package main
 import (
 	"flag"
 	"fmt"
+	"strings"
 	"time"
 
 	"github.com/striate/striate/datasets"
@@ -15,7 +16,8 @@ func init() {
 		summary: "fit a pipeline on MNIST, Fashion-MNIST, an IDX folder or a folder of class subfolders and save the model",
 		usage:   "",
 		example: `  striate train --data mnist --out mnist.stm
-  striate train --data fashion --mirror --out fashion.stm       # garments look the same mirrored
+  striate train --data fashion --out fashion.stm                 # preset "garments" (auto for fashion)
+  striate train --data /srv/depot/photos --preset garments --out garments.stm
   striate train --data fashion --config fashion.json --seed 7 --out fashion.stm
   striate train --data mnist --labels 100 --out mnist-100.stm      # 100 labels per class
   striate train --data /srv/depot/idx --out garments.stm           # train-/t10k-*-idx?-ubyte[.gz] files
@@ -23,6 +25,7 @@ func init() {
 		setup: func(fs *flag.FlagSet, g *globals) func([]string) error {
 			data := fs.String("data", "mnist", "training data: `mnist`, fashion, a folder of IDX files named like MNIST's, or a folder with one subfolder of images per class")
 			labels := fs.Int("labels", 0, "use only this many labelled images per class (seeded; 0 = all); the unsupervised stages still see every training image without its label")
+			preset := fs.String("preset", "auto", "pipeline preset: default, digits, garments, or auto (digits for --data mnist, garments for fashion, default otherwise); ignored with --config")
 			mirror := fs.Bool("mirror", false, "also train on mirror images and average each prediction over the image and its mirror image (sets the config's mirror; for classes that look the same mirrored, such as garments, not digits)")
 			g.addSeed(fs)
 			g.addWorkers(fs)
@@ -36,7 +39,14 @@ func init() {
 				if *labels < 0 {
 					return usagef("--labels %d; want 0 (all) or a positive count per class", *labels)
 				}
-				return runTrain(g, *data, *labels, *mirror)
+				p := *preset
+				if p == "auto" {
+					p = autoPreset(*data)
+				}
+				if _, err := pipeline.Preset(p); err != nil {
+					return usagef("--preset %q; want auto, %s", *preset, strings.Join(pipeline.PresetNames(), ", "))
+				}
+				return runTrain(g, *data, *labels, p, *mirror)
 			}
 		},
 	})
@@ -52,15 +62,29 @@ func trainSpecs(data string) (train, test string) {
 	return data, ""
 }
 
-func runTrain(g *globals, data string, perClass int, mirror bool) error {
-	cfg := pipeline.Config{}
+// autoPreset is the preset --preset auto picks for --data.
+func autoPreset(data string) string {
+	switch data {
+	case "mnist":
+		return "digits"
+	case "fashion":
+		return "garments"
+	}
+	return "default"
+}
+
+func runTrain(g *globals, data string, perClass int, preset string, mirror bool) error {
+	var cfg pipeline.Config
+	var err error
 	if g.config != "" {
-		var err error
 		if cfg, err = pipeline.LoadConfig(g.config); err != nil {
 			return err
 		}
 	} else {
-		cfg = pipeline.DefaultConfig()
+		if cfg, err = pipeline.Preset(preset); err != nil {
+			return err
+		}
+		fmt.Fprintf(g.stdout, "preset %s: %s\n", preset, pipeline.PresetAbout(preset))
 	}
 	cfg.Seed = g.seed
 	cfg.Mirror = cfg.Mirror || mirror

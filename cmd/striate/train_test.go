@@ -41,7 +41,7 @@ func TestCLITrainFolder(t *testing.T) {
 	}
 }
 
-// TestCLITrainErrors: bad --data and --labels fail with the flag named.
+// TestCLITrainErrors: bad --data, --labels and --preset fail with the flag named.
 func TestCLITrainErrors(t *testing.T) {
 	cliFixture(t)
 	missing := filepath.Join(t.TempDir(), "nowhere")
@@ -52,6 +52,10 @@ func TestCLITrainErrors(t *testing.T) {
 	r = runCLI(t, "train", "--labels", "-3", "--quiet")
 	if r.code != 2 || !strings.Contains(r.stderr, "--labels -3") {
 		t.Errorf("train --labels -3: exit %d, stderr:\n%s", r.code, r.stderr)
+	}
+	r = runCLI(t, "train", "--preset", "socks", "--quiet")
+	if r.code != 2 || !strings.Contains(r.stderr, "--preset") || !strings.Contains(r.stderr, "garments") {
+		t.Errorf("train --preset socks: exit %d, stderr:\n%s", r.code, r.stderr)
 	}
 }
 

@@ -101,6 +101,14 @@ type InputConfig struct {
 	// 98.80% with 1,000 per class. Not for garments: on Fashion-MNIST it cost
 	// half a point.
 	Deskew string `json:"deskew,omitempty"`
+	// Upright is "none" (default) or "vertical": after centring, a shape
+	// whose principal axis (of its second moments) is tilted 15°-40° from
+	// vertical and which is elongated is rotated about the centre so that
+	// the axis is vertical. For objects that stand upright when they are
+	// seen the usual way (garments); shapes nearer horizontal or diagonal,
+	// and round ones, are left alone. On Fashion-MNIST validation images it
+	// raised the accuracy under a ±30° rotation from 23% to 70%.
+	Upright string `json:"upright,omitempty"`
 	// Center is "mass" (default: shift each image by whole pixels so that
 	// its centre of mass is at the image centre, as MNIST's makers did) or
 	// "none".
@@ -188,6 +196,9 @@ func (c Config) withDefaults() Config {
 	}
 	if c.Input.Deskew == "" {
 		c.Input.Deskew = DeskewNone
+	}
+	if c.Input.Upright == "" {
+		c.Input.Upright = UprightNone
 	}
 	if c.Pool.Op == "" {
 		c.Pool.Op = "avg"

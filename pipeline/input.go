@@ -4,6 +4,8 @@ import (
 	"fmt"
 	"math"
 	"slices"
+
+	"github.com/striate/striate/datasets"
 )
 
 // Input normalisation modes (InputConfig.Normalize, InputConfig.Center).
@@ -17,6 +19,8 @@ const (
 	DenoiseNone     = "none"
 	DeskewShear     = "shear" // shear rows so that the second-moment slant μ11/μ02 is removed
 	DeskewNone      = "none"
+	UprightVertical = "vertical" // rotate a tilted, elongated shape so that its principal axis is vertical
+	UprightNone     = "none"
 )
 
 // minRange is the smallest max − min that NormalizeMinMax stretches: below
@@ -45,6 +49,11 @@ func (c InputConfig) validate() error {
 	default:
 		return fmt.Errorf("pipeline: input.deskew %q; want %q (default) or %q", c.Deskew, DeskewNone, DeskewShear)
 	}
+	switch c.Upright {
+	case UprightNone, UprightVertical:
+	default:
+		return fmt.Errorf("pipeline: input.upright %q; want %q (default) or %q", c.Upright, UprightNone, UprightVertical)
+	}
 	return nil
 }
 
@@ -63,7 +72,7 @@ func (c InputConfig) validate() error {
 // computing the center of mass of the pixels"). An image with no mass is
 // left where it is.
 func normalizeInput(buf, img []float32, h, w int, c InputConfig) []float32 {
-	if c.Normalize != NormalizeMinMax && c.Center != CenterMass && c.Denoise != DenoiseMedian3 && c.Denoise != DenoiseAuto && c.Deskew != DeskewShear {
+	if c.Normalize != NormalizeMinMax && c.Center != CenterMass && c.Denoise != DenoiseMedian3 && c.Denoise != DenoiseAuto && c.Deskew != DeskewShear && c.Upright != UprightVertical {
 		return img
 	}
 	n := h * w
@@ -107,8 +116,22 @@ func normalizeInput(buf, img []float32, h, w int, c InputConfig) []float32 {
 	}
 	if c.Center != CenterMass {
 		copy(out, tmp)
-		return out
+	} else {
+		centerMass(out, tmp, h, w)
 	}
+	if c.Upright == UprightVertical {
+		if deg, ok := uprightAngle(out, h, w); ok {
+			datasets.Perturbation{Kind: datasets.Rotate, Level: deg}.Apply(tmp, out, h, w, 0)
+			copy(out, tmp)
+		}
+	}
+	return out
+}
+
+// centerMass writes src moved by the integer shift that puts its centre of
+// mass at the image centre into dst (zero fill); see normalizeInput.
+func centerMass(dst, src []float32, h, w int) {
+	out, tmp := dst, src
 	var m, my, mx float64
 	for y := 0; y < h; y++ {
 		var row float64
@@ -135,7 +158,61 @@ func normalizeInput(buf, img []float32, h, w int, c InputConfig) []float32 {
 			copy(out[y*w+x0:y*w+x1], tmp[sy*w+x0-dx:sy*w+x1-dx])
 		}
 	}
-	return out
+}
+
+// Limits of UprightVertical: a shape is turned only when its principal axis
+// lies between uprightMinDeg and uprightMaxDeg from vertical and it is
+// elongated (minor/major second-moment ratio at most uprightMaxRatio). Below
+// the lower limit the tilt is left as natural variation; beyond the upper
+// one the axis is nearer horizontal (shoes, bags) or diagonal (an ankle
+// boot's L), where turning it upright would be wrong; a round shape has no
+// reliable axis. Chosen on Fashion-MNIST validation images (training split):
+// of 4,000 clean ones 100 are turned, mostly sandals and ankle boots.
+const (
+	uprightMinDeg   = 15
+	uprightMaxDeg   = 40
+	uprightMaxRatio = 0.8
+)
+
+// uprightAngle returns the rotation (degrees counter-clockwise as
+// displayed, datasets.Rotate's convention) that turns the principal axis of
+// img's grey mass to vertical, and whether UprightVertical's limits call for
+// it. The principal axis is the major eigenvector of the second central
+// moments: its angle from the x axis is φ = ½·atan2(2μ11, μ20 − μ02) (Hu
+// 1962; common practice in shape analysis), with y pointing down.
+func uprightAngle(img []float32, h, w int) (deg float64, ok bool) {
+	var m, my, mx float64
+	for y := 0; y < h; y++ {
+		for x, v := range img[y*w : (y+1)*w] {
+			m += float64(v)
+			my += float64(v) * float64(y)
+			mx += float64(v) * float64(x)
+		}
+	}
+	if m <= 0 {
+		return 0, false
+	}
+	cy, cx := my/m, mx/m
+	var m20, m02, m11 float64
+	for y := 0; y < h; y++ {
+		dy := float64(y) - cy
+		for x, v := range img[y*w : (y+1)*w] {
+			dx := float64(x) - cx
+			m20 += float64(v) * dx * dx
+			m02 += float64(v) * dy * dy
+			m11 += float64(v) * dx * dy
+		}
+	}
+	a, b := (m20+m02)/2, math.Hypot((m20-m02)/2, m11)
+	if a+b <= 0 || (a-b)/(a+b) > uprightMaxRatio {
+		return 0, false
+	}
+	phi := 0.5 * math.Atan2(2*m11, m20-m02)  // (−90°, 90°]
+	d := phi - math.Copysign(math.Pi/2, phi) // signed angle from vertical
+	if ad := math.Abs(d) * 180 / math.Pi; ad <= uprightMinDeg || ad > uprightMaxDeg {
+		return 0, false
+	}
+	return d * 180 / math.Pi, true
 }
 
 // maxSkew bounds the shear of DeskewShear (|α| ≤ 1, a slant of 45°), so a

@@ -325,4 +325,88 @@ func TestDeskew(t *testing.T) {
 	if err := bad.validate(); err == nil || !strings.Contains(err.Error(), "input.deskew") {
 		t.Errorf("deskew %q: error %v; want one naming input.deskew", bad.Deskew, err)
 	}
+	bad.Deskew, bad.Upright = DeskewNone, "level"
+	if err := bad.validate(); err == nil || !strings.Contains(err.Error(), "input.upright") {
+		t.Errorf("upright %q: error %v; want one naming input.upright", bad.Upright, err)
+	}
+}
+
+// blob is an anisotropic Gaussian on a 28×28 grid whose major axis (σ 5 px)
+// is tilted tilt degrees from vertical (clockwise as displayed for tilt > 0)
+// and whose minor axis has σ minor px.
+func blob(tilt, minor float64) []float32 {
+	const n = 28
+	img := make([]float32, n*n)
+	t := tilt * math.Pi / 180
+	ux, uy := math.Sin(t), -math.Cos(t) // major axis direction, y down
+	for y := 0; y < n; y++ {
+		for x := 0; x < n; x++ {
+			dx, dy := float64(x)-13.5, float64(y)-13.5
+			a := dx*ux + dy*uy  // along the major axis
+			b := -dx*uy + dy*ux // across it
+			img[y*n+x] = float32(math.Exp(-a*a/(2*25) - b*b/(2*minor*minor)))
+		}
+	}
+	return img
+}
+
+// TestUprightAngle checks the principal-axis rule on Gaussian blobs of
+// known orientation: the second-moment axis of an anisotropic Gaussian is
+// its major axis (a fact of the moment method; common practice), so a blob
+// tilted 25° must be turned by 25° and is then upright to within 1°, while
+// blobs tilted 10° (natural variation), 60° (nearer horizontal), or round
+// ones are left alone.
+func TestUprightAngle(t *testing.T) {
+	// angleTol: the blob is sampled on whole pixels and clipped at the
+	// border; 0.5° is far below the 15° the rule starts at.
+	const angleTol = 0.5
+	for _, tilt := range []float64{25, -25, 35} {
+		img := blob(tilt, 2)
+		deg, ok := uprightAngle(img, 28, 28)
+		if !ok || math.Abs(math.Abs(deg)-math.Abs(tilt)) > angleTol {
+			t.Errorf("tilt %g°: uprightAngle = %.2f°, %v; want a turn of %g°", tilt, deg, ok, math.Abs(tilt))
+			continue
+		}
+		turned := make([]float32, len(img))
+		datasets.Perturbation{Kind: datasets.Rotate, Level: deg}.Apply(turned, img, 28, 28, 0)
+		if d, ok := uprightAngle(turned, 28, 28); ok {
+			t.Errorf("tilt %g°: still tilted after the turn (%.2f° more)", tilt, d)
+		}
+		// The turned blob's axis is vertical: μ11 ≈ 0 and μ02 > μ20.
+		if a := axisFromVertical(turned, 28, 28); a > 2*angleTol {
+			t.Errorf("tilt %g°: axis %.2f° from vertical after the turn; want < %g°", tilt, a, 2*angleTol)
+		}
+	}
+	for _, c := range []struct {
+		tilt, minor float64
+		why         string
+	}{{10, 2, "small tilt"}, {60, 2, "nearer horizontal"}, {25, 4.8, "nearly round"}} {
+		if deg, ok := uprightAngle(blob(c.tilt, c.minor), 28, 28); ok {
+			t.Errorf("%s (tilt %g°, minor σ %g): turned by %.2f°; want left alone", c.why, c.tilt, c.minor, deg)
+		}
+	}
+	if _, ok := uprightAngle(make([]float32, 28*28), 28, 28); ok {
+		t.Error("an empty image was turned")
+	}
+}
+
+// axisFromVertical is the principal-axis angle from vertical in degrees,
+// from the moments written out afresh (tan 2φ = 2μ11/(μ20 − μ02)).
+func axisFromVertical(img []float32, h, w int) float64 {
+	var m, sx, sy, sxx, syy, sxy float64
+	for y := 0; y < h; y++ {
+		for x := 0; x < w; x++ {
+			v := float64(img[y*w+x])
+			m += v
+			sx += v * float64(x)
+			sy += v * float64(y)
+			sxx += v * float64(x*x)
+			syy += v * float64(y*y)
+			sxy += v * float64(x*y)
+		}
+	}
+	cx, cy := sx/m, sy/m
+	m20, m02, m11 := sxx/m-cx*cx, syy/m-cy*cy, sxy/m-cx*cy
+	phi := 0.5 * math.Atan2(2*m11, m20-m02) * 180 / math.Pi
+	return 90 - math.Abs(phi)
 }

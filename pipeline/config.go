@@ -106,8 +106,10 @@ type InputConfig struct {
 	// vertical and which is elongated is rotated about the centre so that
 	// the axis is vertical. For objects that stand upright when they are
 	// seen the usual way (garments); shapes nearer horizontal or diagonal,
-	// and round ones, are left alone. On Fashion-MNIST validation images it
-	// raised the accuracy under a ±30° rotation from 23% to 70%.
+	// and round ones, are left alone, and so are images in which Denoise
+	// "auto" found noise (noise corrupts the moments). On Fashion-MNIST
+	// validation images it raised the accuracy under a ±30° rotation from
+	// 29% to 71% for 0.1 points of clean accuracy (with Mirror and Pool.Sqrt).
 	Upright string `json:"upright,omitempty"`
 	// Center is "mass" (default: shift each image by whole pixels so that
 	// its centre of mass is at the image centre, as MNIST's makers did) or

@@ -111,7 +111,7 @@ func TestPresets(t *testing.T) {
 		case "digits":
 			want.Input.Deskew = DeskewShear
 		case "garments":
-			want.Mirror, want.Pool.Sqrt = true, true
+			want.Mirror, want.Pool.Sqrt, want.Input.Upright = true, true, UprightVertical
 		}
 		a, _ := c.MarshalIndent()
 		b, _ := want.MarshalIndent()

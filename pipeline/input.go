@@ -80,11 +80,14 @@ func normalizeInput(buf, img []float32, h, w int, c InputConfig) []float32 {
 		buf = make([]float32, 2*n+n/4+1)
 	}
 	out, tmp := buf[:n], buf[n:2*n]
+	noisy := false // DenoiseAuto found noise: the moments of UprightVertical are not to be trusted
 	switch c.Denoise {
 	case DenoiseMedian3:
 		median3(tmp, img[:n], h, w)
 	case DenoiseAuto:
-		switch sd := noiseSigma(buf[2*n:], img[:n], h, w); {
+		sd := noiseSigma(buf[2*n:], img[:n], h, w)
+		noisy = sd >= autoLight
+		switch {
 		case sd >= autoHeavy:
 			median3(out, img[:n], h, w)
 			median3(tmp, out, h, w)
@@ -119,7 +122,7 @@ func normalizeInput(buf, img []float32, h, w int, c InputConfig) []float32 {
 	} else {
 		centerMass(out, tmp, h, w)
 	}
-	if c.Upright == UprightVertical {
+	if c.Upright == UprightVertical && !noisy {
 		if deg, ok := uprightAngle(out, h, w); ok {
 			datasets.Perturbation{Kind: datasets.Rotate, Level: deg}.Apply(tmp, out, h, w, 0)
 			copy(out, tmp)

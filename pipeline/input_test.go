@@ -410,3 +410,21 @@ func axisFromVertical(img []float32, h, w int) float64 {
 	phi := 0.5 * math.Atan2(2*m11, m20-m02) * 180 / math.Pi
 	return 90 - math.Abs(phi)
 }
+
+// TestUprightSkipsNoisyImages: an image in which the auto denoiser finds
+// noise is not turned (its moments are not to be trusted), a clean tilted
+// one is.
+func TestUprightSkipsNoisyImages(t *testing.T) {
+	up := InputConfig{Normalize: NormalizeMinMax, Denoise: DenoiseAuto, Center: CenterMass, Deskew: DeskewNone, Upright: UprightVertical}
+	flat := up
+	flat.Upright = UprightNone
+	img := blob(25, 2)
+	if slices.Equal(normalizeInput(nil, img, 28, 28, up), normalizeInput(nil, img, 28, 28, flat)) {
+		t.Error("a clean blob tilted 25° was not turned")
+	}
+	noisy := make([]float32, len(img))
+	datasets.Perturbation{Kind: datasets.Noise, Level: 0.5}.Apply(noisy, img, 28, 28, 1)
+	if !slices.Equal(normalizeInput(nil, noisy, 28, 28, up), normalizeInput(nil, noisy, 28, 28, flat)) {
+		t.Error("a noisy image (σ 0.5) was turned")
+	}
+}

@@ -20,10 +20,11 @@ var presets = map[string]struct {
 		c.Input.Deskew = DeskewShear
 		return c
 	}},
-	"garments": {"garments, shoes, bags: mirror images in training and prediction (mirror), square-root pooled maps (pool.sqrt)", func() Config {
+	"garments": {"garments, shoes, bags: mirror images in training and prediction (mirror), square-root pooled maps (pool.sqrt), tilted upright shapes turned upright (input.upright \"vertical\")", func() Config {
 		c := DefaultConfig()
 		c.Mirror = true
 		c.Pool.Sqrt = true
+		c.Input.Upright = UprightVertical
 		return c
 	}},
 }
@@ -35,9 +36,11 @@ var presets = map[string]struct {
 //	          writer's habit, not the class); on MNIST validation images
 //	          99.28% → 99.33% with all labels, 98.52% → 98.80% with 1,000
 //	          per class
-//	garments  DefaultConfig with Mirror and Pool.Sqrt (a garment, shoe or
-//	          bag is the same item mirrored; square roots of the pooled
-//	          energies); on Fashion-MNIST validation images 91.83% → 92.38%
+//	garments  DefaultConfig with Mirror, Pool.Sqrt and Input.Upright =
+//	          "vertical" (a garment, shoe or bag is the same item mirrored;
+//	          square roots of the pooled energies; a garment tilted on the
+//	          belt is turned upright); on Fashion-MNIST validation images
+//	          clean 91.83% → 92.27%, rotated ±30° 23% → 71%
 //
 // An unknown name is an error that lists the known ones.
 func Preset(name string) (Config, error) {

@@ -98,3 +98,19 @@ func ExampleLoadFile() {
 	// feature length: 710 true
 	// digit: 7 (p = 0.99)
 }
+
+// A preset is the default pipeline with the settings that depend on what
+// the images show; start from one and change what you need.
+func ExamplePreset() {
+	cfg, err := pipeline.Preset("garments")
+	if err != nil {
+		fmt.Println(err)
+		return
+	}
+	fmt.Println(pipeline.PresetNames())
+	fmt.Println(cfg.Mirror, cfg.Pool.Sqrt, cfg.Input.Upright)
+	cfg.Seed = 42 // then pipeline.Fit(cfg, trainingSet, pipeline.FitOptions{Workers: 2})
+	// Output:
+	// [default digits garments]
+	// true true vertical
+}

@@ -19,6 +19,11 @@ func init() {
 		min2To, min3To, esq2To, esq3To, sqrtsOf = min2SIMD, min3SIMD, esq2SIMD, esq3SIMD, sqrtsSIMD
 		build = "simd (GOEXPERIMENT=simd, AVX2+FMA, 8 float32 lanes)"
 	}
+	if archsimd.X86.AVX512() {
+		hsum, vsum, vsum2 = hsum16, vsum16, vsum2x16
+		bulkOf = bulkOf16
+		build = "simd (GOEXPERIMENT=simd, AVX-512, 16 float32 lanes)"
+	}
 }
 
 func ld(p unsafe.Pointer) archsimd.Float32x8 { return archsimd.LoadFloat32x8((*[8]float32)(p)) }
@@ -90,7 +95,7 @@ func blk6(d unsafe.Pointer, srcs [][]float32, taps []filt, off int, rs uintptr) 
 			a4 = ld(unsafe.Add(p, 128)).MulAdd(c, a4)
 			a5 = ld(unsafe.Add(p, 160)).MulAdd(c, a5)
 			p = unsafe.Add(p, rs)
-			cp = unsafe.Add(cp, 32)
+			cp = unsafe.Add(cp, 64)
 		}
 		c := ld(cp)
 		a0 = ld(unsafe.Add(p, 0)).MulAdd(c, a0)
@@ -126,7 +131,7 @@ func blk4(d unsafe.Pointer, srcs [][]float32, taps []filt, off int, rs uintptr) 
 			a2 = ld(unsafe.Add(p, 64)).MulAdd(c, a2)
 			a3 = ld(unsafe.Add(p, 96)).MulAdd(c, a3)
 			p = unsafe.Add(p, rs)
-			cp = unsafe.Add(cp, 32)
+			cp = unsafe.Add(cp, 64)
 		}
 		c := ld(cp)
 		a0 = ld(unsafe.Add(p, 0)).MulAdd(c, a0)
@@ -156,7 +161,7 @@ func blk2(d unsafe.Pointer, srcs [][]float32, taps []filt, off int, rs uintptr) 
 			a0 = ld(unsafe.Add(p, 0)).MulAdd(c, a0)
 			a1 = ld(unsafe.Add(p, 32)).MulAdd(c, a1)
 			p = unsafe.Add(p, rs)
-			cp = unsafe.Add(cp, 32)
+			cp = unsafe.Add(cp, 64)
 		}
 		c := ld(cp)
 		a0 = ld(unsafe.Add(p, 0)).MulAdd(c, a0)
@@ -181,7 +186,7 @@ func blk1(d unsafe.Pointer, srcs [][]float32, taps []filt, off int, rs uintptr) 
 			c := ld(cp)
 			a0 = ld(unsafe.Add(p, 0)).MulAdd(c, a0)
 			p = unsafe.Add(p, rs)
-			cp = unsafe.Add(cp, 32)
+			cp = unsafe.Add(cp, 64)
 		}
 		c := ld(cp)
 		a0 = ld(unsafe.Add(p, 0)).MulAdd(c, a0)
@@ -431,7 +436,7 @@ func blk3x2(d unsafe.Pointer, ds uintptr, srcs [][]float32, taps []filt, off int
 			p0 = unsafe.Add(p0, rs)
 			p1 = unsafe.Add(p1, rs)
 			p2 = unsafe.Add(p2, rs)
-			cp = unsafe.Add(cp, 32)
+			cp = unsafe.Add(cp, 64)
 		}
 		c := ld(cp)
 		a00 = ld(unsafe.Add(p0, 0)).MulAdd(c, a00)
@@ -473,7 +478,7 @@ func blk3x1(d unsafe.Pointer, ds uintptr, srcs [][]float32, taps []filt, off int
 			p0 = unsafe.Add(p0, rs)
 			p1 = unsafe.Add(p1, rs)
 			p2 = unsafe.Add(p2, rs)
-			cp = unsafe.Add(cp, 32)
+			cp = unsafe.Add(cp, 64)
 		}
 		c := ld(cp)
 		a00 = ld(unsafe.Add(p0, 0)).MulAdd(c, a00)

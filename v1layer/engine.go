@@ -21,6 +21,7 @@ type engineScratch struct {
 	planes       [][]float32
 	srcs         [][]float32
 	taps, full   []filt
+	taps2, full2 []filt
 }
 
 func newEngine(ks []Kernel, R int) *engine {
@@ -58,6 +59,8 @@ func (e *engine) scratchFor(s *engineScratch, h, w int) *engineScratch {
 	s.srcs = make([][]float32, maxTerms)
 	s.taps = make([]filt, maxTerms)
 	s.full = make([]filt, maxTerms)
+	s.taps2 = make([]filt, maxTerms)
+	s.full2 = make([]filt, maxTerms)
 	s.h, s.w, s.nx, s.pw = h, w, nx, pw
 	return s
 }
@@ -68,10 +71,11 @@ func (e *engine) responses(resp [][]float32, img []float32, h, w int, b Border, 
 	R, nx, pw := e.R, s.nx, s.pw
 	padImage(s.pad, img, h, w, R, pw, b)
 	p := e.p
+	pairs := vsum2 != nil && nx%16 == 0 && nx > 32
 	for g, grp := range p.groups {
 		fo := p.firstOf[g]
-		for slot, fi := range fo {
-			q := &p.first[fi]
+		for slot := 0; slot < len(fo); slot++ {
+			q := &p.first[fo[slot]]
 			pl := s.planes[slot]
 			taps := s.taps[:1]
 			taps[0] = q.taps
@@ -81,6 +85,14 @@ func (e *engine) responses(resp [][]float32, img []float32, h, w int, b Border, 
 				y0, y1 := R, R+h
 				if b == BorderReflect {
 					y0, y1 = R-q.r, R+h+q.r
+				}
+				// Two horizontal first passes in a row run as one (vsum2).
+				if q2 := slot + 1; pairs && q2 < len(fo) && !p.first[fo[q2]].vertical && p.first[fo[q2]].r == q.r {
+					taps2 := s.taps2[:1]
+					taps2[0] = p.first[fo[q2]].taps
+					hrows2(pl[R:], s.planes[q2][R:], pw, y0, y1, nx, srcs, taps, taps2, R-q.r, pw)
+					slot++
+					continue
 				}
 				hrows(pl[R:], pw, y0, y1, nx, srcs, taps, R-q.r, pw)
 			} else {
@@ -102,7 +114,21 @@ func (e *engine) responses(resp [][]float32, img []float32, h, w int, b Border, 
 			}
 			// Each row's overrun past w lands in the next row, which is
 			// written afterwards (see hrows and vrows).
-			if kp.vertical2 {
+			if kp.mated && pairs {
+				continue // run with its mate
+			}
+			if kp.mate >= 0 && pairs {
+				mp := &p.ks[kp.mate]
+				full2, taps2 := s.full2[:len(mp.terms)], s.taps2[:len(mp.terms)]
+				for t, tm := range mp.terms {
+					full2[t] = tm.taps
+				}
+				if kp.vertical2 {
+					vrows2(resp[ki], resp[kp.mate], w, h, nx, srcs, full, full2, taps, taps2, kp.r, R*pw+R, pw, b)
+				} else {
+					hrows2(resp[ki], resp[kp.mate], w, 0, h, nx, srcs, full, full2, R*pw+R-kp.r, pw)
+				}
+			} else if kp.vertical2 {
 				vrows(resp[ki], 0, w, h, nx, srcs, full, taps, kp.r, R*pw+R, pw, b, R)
 			} else {
 				hrows(resp[ki], w, 0, h, nx, srcs, full, R*pw+R-kp.r, pw)
@@ -130,7 +156,7 @@ func (e *engine) responses(resp [][]float32, img []float32, h, w int, b Border, 
 // time (48-wide SIMD blocks) and a tail [nb,n) of at most 32 run three
 // rows at a time (sum3), so that no part of a row runs with fewer than six
 // independent FMA chains; rows of at most 32 are all tail.
-func bulkOf(n int) int {
+func bulkOf8(n int) int {
 	if n <= 32 {
 		return 0
 	}
@@ -198,6 +224,29 @@ func vrows(dst []float32, d0, ds, h, n int, srcs [][]float32, full, taps []filt,
 	}
 	for ; y < h; y++ {
 		one(y, n)
+	}
+}
+
+// hrows2 is hrows for two filter sets over the same sources (row y
+// writes da[y·ds:] with taps ta and db[y·ds:] with tb), one row at a time.
+func hrows2(da, db []float32, ds, y0, y1, n int, srcs [][]float32, ta, tb []filt, off0, rstep int) {
+	for y := y0; y < y1; y++ {
+		vsum2(da[y*ds:], db[y*ds:], n, srcs, ta, tb, off0+y*rstep, 1)
+	}
+}
+
+// vrows2 is vrows (zero or reflect border, no three-row tails) for a
+// kernel pair over the same sources (plan.pairUp): full and full2 are the
+// two kernels' taps per term, da and db their outputs.
+func vrows2(da, db []float32, ds, h, n int, srcs [][]float32, full, full2, taps, taps2 []filt, r, src0, pw int, b Border) {
+	s0 := 2*r + 1
+	for y := 0; y < h; y++ {
+		k0, k1 := trim(y, h, r, s0, b)
+		for t := range full {
+			taps[t] = full[t].sub(k0, k1)
+			taps2[t] = full2[t].sub(k0, k1)
+		}
+		vsum2(da[y*ds:], db[y*ds:], n, srcs, taps, taps2, src0+(y-r+k0)*pw, pw)
 	}
 }
 
@@ -281,6 +330,12 @@ var (
 	hsum = hsumGo
 	vsum = vsumGo
 	sum3 = sum3Go
+
+	bulkOf = bulkOf8
+
+	// vsum2, when set, is two vsum calls over the same sources in one
+	// pass (dst da with taps ta, db with tb), for n a multiple of 16.
+	vsum2 func(da, db []float32, n int, srcs [][]float32, ta, tb []filt, off, stride int)
 )
 
 // sum3Go is three rows of a pass at once, row j writing dst[j·ds:] from

@@ -48,6 +48,22 @@ func TestSIMDMatchesPortable(t *testing.T) {
 			vsum(a, n, srcs, taps, 3, stride)
 			vsumGo(b, n, srcs, taps, 3, stride)
 			check("vsum", a, b, scale)
+			if vsum2 != nil && n%16 == 0 {
+				// Two filter sets over the same sources: each output
+				// equals its own single pass.
+				tb := make([]filt, nt)
+				for t := range tb {
+					tb[t] = mkFilt(rnd(s))
+				}
+				a2, b2 := make([]float32, n), make([]float32, n)
+				for _, step := range []int{1, stride} {
+					vsum2(a, a2, n, srcs, taps, tb, 3, step)
+					vsumGo(b, n, srcs, taps, 3, step)
+					vsumGo(b2, n, srcs, tb, 3, step)
+					check("vsum2 first", a, b, scale)
+					check("vsum2 second", a2, b2, scale)
+				}
+			}
 			if n <= 32 {
 				const ds = 40
 				a3, b3 := make([]float32, 2*ds+n), make([]float32, 2*ds+n)
@@ -105,7 +121,7 @@ func TestSIMDMatchesPortable(t *testing.T) {
 func TestApplyShapes(t *testing.T) {
 	ks, sizes, _ := loadBenchKernels(t)
 	rng := rand.New(rand.NewPCG(11, 12))
-	shapes := [][2]int{{15, 15}, {16, 17}, {29, 31}, {31, 33}, {17, 63}, {40, 65}, {21, 97}}
+	shapes := [][2]int{{15, 15}, {16, 17}, {29, 31}, {31, 33}, {17, 63}, {40, 65}, {21, 97}, {37, 256}}
 	if testing.Short() {
 		shapes = shapes[:3]
 	}
@@ -126,6 +142,48 @@ func TestApplyShapes(t *testing.T) {
 			}
 			if worst > 1e-5 {
 				t.Errorf("%s %dx%d: max |Δ| = %.3g vs float64 reference, want ≤ 1e-5", b, h, w, worst)
+			}
+		}
+	}
+}
+
+// The paired passes (plan.pairUp, vsum2: two kernels or two first passes
+// over the same planes in one pass) give bit for bit the maps of the
+// single passes they replace: each output is the same sequence of fused
+// multiply-adds. Widths that take the paired path (a multiple of 16 above
+// 32) and one that does not; both borders.
+func TestPairedPassesMatchSingle(t *testing.T) {
+	if vsum2 == nil {
+		t.Skip("no paired loops in this build (" + Build() + ")")
+	}
+	rng := rand.New(rand.NewPCG(15, 16))
+	for _, b := range []Border{BorderZero, BorderReflect} {
+		f, err := New(Config{Border: b})
+		if err != nil {
+			t.Fatal(err)
+		}
+		npair := 0
+		for _, k := range f.eng.p.ks {
+			if k.mate >= 0 {
+				npair++
+			}
+		}
+		if npair != 8 { // DoG: none; per Gabor size: 0°, 90°, 45°/135° even, 45°/135° odd
+			t.Fatalf("%d kernel pairs planned, want 8", npair)
+		}
+		for _, hw := range [][2]int{{40, 48}, {33, 256}, {31, 64}, {30, 40}} {
+			h, w := hw[0], hw[1]
+			img, _ := randImage(rng, h, w)
+			var got, want Maps
+			f.Apply(&got, img, h, w)
+			saved := vsum2
+			vsum2 = nil
+			f.Apply(&want, img, h, w)
+			vsum2 = saved
+			for i := range want.Pix {
+				if got.Pix[i] != want.Pix[i] {
+					t.Fatalf("%s %dx%d: element %d = %g paired, %g single", b, h, w, i, got.Pix[i], want.Pix[i])
+				}
 			}
 		}
 	}

@@ -111,6 +111,8 @@ type kplan struct {
 	vertical2 bool   // second pass is vertical (the first passes were horizontal)
 	terms     []term
 	r         int
+	mate      int // ≥ 0: a later kernel of the group whose second pass reads the same planes the same way (see pairUp)
+	mated     bool
 }
 
 type plan struct {
@@ -126,6 +128,9 @@ type plan struct {
 // separable cost 2·rank·s not cheaper than s² are run directly.
 func makePlan(kernels []Kernel) *plan {
 	p := &plan{ks: make([]kplan, len(kernels))}
+	for i := range p.ks {
+		p.ks[i].mate = -1
+	}
 	facs := make([][]factor, len(kernels))
 	bySize := map[int][]int{}
 	var sizes []int
@@ -155,6 +160,7 @@ func makePlan(kernels []Kernel) *plan {
 			p.order = append(p.order, ki)
 		}
 		p.groups = append(p.groups, [2]int{start, len(p.order)})
+		p.pairUp(p.order[start:])
 		var fo []int
 		for i := f0; i < len(p.first); i++ {
 			fo = append(fo, i)
@@ -266,6 +272,42 @@ func (p *plan) addKernel(ki int, fs []factor, colFirst bool) {
 	}
 }
 
+// pairUp pairs the kernels of one size group whose second passes run in
+// the same direction and read the same set of first-pass planes (the even
+// and odd Gabors at 0° and at 90°, the 45° and 135° even ones, the 45° and
+// 135° odd ones): such a pair can run as one pass in which each loaded
+// plane value feeds both sums (vsum2). The later kernel's terms are put in the
+// earlier one's plane order.
+func (p *plan) pairUp(idx []int) {
+	for i, a := range idx {
+		ka := &p.ks[a]
+		if ka.mate >= 0 || ka.mated {
+			continue
+		}
+		for _, b := range idx[i+1:] {
+			kb := &p.ks[b]
+			if kb.vertical2 != ka.vertical2 || kb.mated || kb.mate >= 0 || len(kb.terms) != len(ka.terms) || kb.r != ka.r {
+				continue
+			}
+			perm := make([]term, 0, len(ka.terms))
+			for _, ta := range ka.terms {
+				for _, tb := range kb.terms {
+					if tb.src == ta.src {
+						perm = append(perm, tb)
+						break
+					}
+				}
+			}
+			if len(perm) != len(ka.terms) {
+				continue
+			}
+			kb.terms = perm
+			ka.mate, kb.mated = b, true
+			break
+		}
+	}
+}
+
 func f32s(x []float64, scale float64) []float32 {
 	out := make([]float32, len(x))
 	for i, v := range x {
@@ -278,11 +320,11 @@ func f32s(x []float64, scale float64) []float32 {
 // the SIMD loops (which then load a tap vector instead of broadcasting).
 type filt struct {
 	w  []float32
-	wb [][8]float32
+	wb [][16]float32
 }
 
 func mkFilt(w []float32) filt {
-	f := filt{w: w, wb: make([][8]float32, len(w))}
+	f := filt{w: w, wb: make([][16]float32, len(w))}
 	for i, v := range w {
 		for j := range f.wb[i] {
 			f.wb[i][j] = v

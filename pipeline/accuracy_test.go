@@ -177,14 +177,21 @@ func checkTargets(t *testing.T, name string, got map[string]float64, conds []con
 	} else {
 		floor(t, name+" shift-4", got["shift-4"], 0.80)
 	}
-	// Heavy noise is where the input stage's adaptive median filter must
-	// hold: with it the demo-sized head reached 75.6% (MNIST noise 0.5) and
-	// 67.4% (Fashion noise 0.3), without it 47.3% and 47.5%, so floors
-	// halfway above the unfiltered figures catch the filter going missing.
+	// Heavy noise is where the input stage's adaptive median filter and its
+	// grey-level coring must hold: with both the presets reached 85.2%
+	// (MNIST noise 0.5) and 68.8-70% (Fashion noise 0.3); without the filter
+	// the default pipeline had 47.3% and 47.5%, without the coring 77.3% and
+	// 65.7%. The MNIST floor catches either going missing, the Fashion floor
+	// the filter.
 	if fashion {
-		floor(t, name+" noise-0.3", got["noise-0.3"], 0.60)
+		floor(t, name+" noise-0.3", got["noise-0.3"], 0.64)
 	} else {
-		floor(t, name+" noise-0.5", got["noise-0.5"], 0.65)
+		floor(t, name+" noise-0.5", got["noise-0.5"], 0.80)
+	}
+	// Rotation on Fashion-MNIST is where the garments preset's upright
+	// turning must hold: 70.5% with it, 26.2% without.
+	if fashion {
+		floor(t, name+" rot-30", got["rot-30"], 0.50)
 	}
 }
 

@@ -68,78 +68,106 @@ func (e *engine) scratchFor(s *engineScratch, h, w int) *engineScratch {
 // responses writes the h×w correlation of img with kernel i to resp[i]
 // (each of length ≥ respLen(h, w)).
 func (e *engine) responses(resp [][]float32, img []float32, h, w int, b Border, s *engineScratch) {
+	padImage(s.pad, img, h, w, e.R, s.pw, b)
+	for g := range e.p.groups {
+		e.firstPasses(g, h, w, b, s)
+		e.secondPasses(g, resp, 0, 0, h, h, w, b, s)
+	}
+	e.directPasses(resp, h, w, s)
+}
+
+// pairsFor reports whether the paired loops (vsum2) run for rows of nx.
+func pairsFor(nx int) bool { return vsum2 != nil && nx%16 == 0 && nx > 32 }
+
+// firstPasses runs size group g's first passes over the padded image
+// (s.pad, written by padImage) into s.planes.
+func (e *engine) firstPasses(g, h, w int, b Border, s *engineScratch) {
 	R, nx, pw := e.R, s.nx, s.pw
-	padImage(s.pad, img, h, w, R, pw, b)
 	p := e.p
-	pairs := vsum2 != nil && nx%16 == 0 && nx > 32
-	for g, grp := range p.groups {
-		fo := p.firstOf[g]
-		for slot := 0; slot < len(fo); slot++ {
-			q := &p.first[fo[slot]]
-			pl := s.planes[slot]
-			taps := s.taps[:1]
-			taps[0] = q.taps
-			srcs := s.srcs[:1]
-			srcs[0] = s.pad
-			if !q.vertical {
-				y0, y1 := R, R+h
-				if b == BorderReflect {
-					y0, y1 = R-q.r, R+h+q.r
-				}
-				// Two horizontal first passes in a row run as one (vsum2).
-				if q2 := slot + 1; pairs && q2 < len(fo) && !p.first[fo[q2]].vertical && p.first[fo[q2]].r == q.r {
-					taps2 := s.taps2[:1]
-					taps2[0] = p.first[fo[q2]].taps
-					hrows2(pl[R:], s.planes[q2][R:], pw, y0, y1, nx, srcs, taps, taps2, R-q.r, pw)
-					slot++
-					continue
-				}
-				hrows(pl[R:], pw, y0, y1, nx, srcs, taps, R-q.r, pw)
-			} else {
-				c0, nc := R, nx
-				if b == BorderReflect {
-					c0, nc = R-q.r, roundUp(w+2*q.r, 8)
-				}
-				full := s.full[:1]
-				full[0] = q.taps
-				vrows(pl, R*pw+c0, pw, h, nc, srcs, full, taps, q.r, R*pw+c0, pw, b, R)
+	pairs := pairsFor(nx)
+	fo := p.firstOf[g]
+	for slot := 0; slot < len(fo); slot++ {
+		q := &p.first[fo[slot]]
+		pl := s.planes[slot]
+		taps := s.taps[:1]
+		taps[0] = q.taps
+		srcs := s.srcs[:1]
+		srcs[0] = s.pad
+		if !q.vertical {
+			y0, y1 := R, R+h
+			if b == BorderReflect {
+				y0, y1 = R-q.r, R+h+q.r
 			}
-		}
-		for _, ki := range p.order[grp[0]:grp[1]] {
-			kp := &p.ks[ki]
-			srcs, taps, full := s.srcs[:len(kp.terms)], s.taps[:len(kp.terms)], s.full[:len(kp.terms)]
-			for t, tm := range kp.terms {
-				srcs[t] = s.planes[slotIn(fo, tm.src)]
-				full[t] = tm.taps
+			// Two horizontal first passes in a row run as one (vsum2).
+			if q2 := slot + 1; pairs && q2 < len(fo) && !p.first[fo[q2]].vertical && p.first[fo[q2]].r == q.r {
+				taps2 := s.taps2[:1]
+				taps2[0] = p.first[fo[q2]].taps
+				hrows2(pl, s.planes[q2], R, pw, y0, y1, nx, srcs, taps, taps2, R-q.r, pw)
+				slot++
+				continue
 			}
-			// Each row's overrun past w lands in the next row, which is
-			// written afterwards (see hrows and vrows).
-			if kp.mated && pairs {
-				continue // run with its mate
+			hrows(pl, R, pw, y0, y1, nx, srcs, taps, R-q.r, pw)
+		} else {
+			c0, nc := R, nx
+			if b == BorderReflect {
+				c0, nc = R-q.r, roundUp(w+2*q.r, 8)
 			}
-			if kp.mate >= 0 && pairs {
-				mp := &p.ks[kp.mate]
-				full2, taps2 := s.full2[:len(mp.terms)], s.taps2[:len(mp.terms)]
-				for t, tm := range mp.terms {
-					full2[t] = tm.taps
-				}
-				if kp.vertical2 {
-					vrows2(resp[ki], resp[kp.mate], w, h, nx, srcs, full, full2, taps, taps2, kp.r, R*pw+R, pw, b)
-				} else {
-					hrows2(resp[ki], resp[kp.mate], w, 0, h, nx, srcs, full, full2, R*pw+R-kp.r, pw)
-				}
-			} else if kp.vertical2 {
-				vrows(resp[ki], 0, w, h, nx, srcs, full, taps, kp.r, R*pw+R, pw, b, R)
-			} else {
-				hrows(resp[ki], w, 0, h, nx, srcs, full, R*pw+R-kp.r, pw)
-			}
+			full := s.full[:1]
+			full[0] = q.taps
+			vrows(pl, R*pw+c0, pw, 0, h, h, nc, srcs, full, taps, q.r, R*pw+c0, pw, b, R)
 		}
 	}
-	// Kernels without a separable plan: the 2-D correlation as a sum of
-	// horizontal passes, one per kernel row v, over the padded rows
-	// starting v rows further down (srcs[v] = pad[v·pw:]).
-	for ki := range p.ks {
+}
+
+// secondPasses writes rows [y0,y1) of the responses of size group g's
+// kernels, from the planes firstPasses wrote: row y of kernel i goes to
+// resp[i][d0 + y·w:] (d0 = 0 for whole maps; a band buffer whose row 0 is
+// image row y0 − 1 has d0 = (1 − y0)·w). Each row's overrun past w lands
+// in the next row, which is written afterwards (see hrows and vrows), or
+// in the buffer's slack after the last.
+func (e *engine) secondPasses(g int, resp [][]float32, d0, y0, y1, h, w int, b Border, s *engineScratch) {
+	R, nx, pw := e.R, s.nx, s.pw
+	p := e.p
+	pairs := pairsFor(nx)
+	fo := p.firstOf[g]
+	grp := p.groups[g]
+	for _, ki := range p.order[grp[0]:grp[1]] {
 		kp := &p.ks[ki]
+		if kp.mated && pairs {
+			continue // runs with its mate
+		}
+		srcs, taps, full := s.srcs[:len(kp.terms)], s.taps[:len(kp.terms)], s.full[:len(kp.terms)]
+		for t, tm := range kp.terms {
+			srcs[t] = s.planes[slotIn(fo, tm.src)]
+			full[t] = tm.taps
+		}
+		if kp.mate >= 0 && pairs {
+			mp := &p.ks[kp.mate]
+			full2, taps2 := s.full2[:len(mp.terms)], s.taps2[:len(mp.terms)]
+			for t, tm := range mp.terms {
+				full2[t] = tm.taps
+			}
+			if kp.vertical2 {
+				vrows2(resp[ki], resp[kp.mate], d0, w, y0, y1, h, nx, srcs, full, full2, taps, taps2, kp.r, R*pw+R, pw, b)
+			} else {
+				hrows2(resp[ki], resp[kp.mate], d0, w, y0, y1, nx, srcs, full, full2, R*pw+R-kp.r, pw)
+			}
+		} else if kp.vertical2 {
+			vrows(resp[ki], d0, w, y0, y1, h, nx, srcs, full, taps, kp.r, R*pw+R, pw, b, R)
+		} else {
+			hrows(resp[ki], d0, w, y0, y1, nx, srcs, full, R*pw+R-kp.r, pw)
+		}
+	}
+}
+
+// directPasses writes the responses of the kernels without a separable
+// plan: the 2-D correlation as a sum of horizontal passes, one per kernel
+// row v, over the padded rows starting v rows further down
+// (srcs[v] = pad[v·pw:]).
+func (e *engine) directPasses(resp [][]float32, h, w int, s *engineScratch) {
+	R, nx, pw := e.R, s.nx, s.pw
+	for ki := range e.p.ks {
+		kp := &e.p.ks[ki]
 		if !kp.direct {
 			continue
 		}
@@ -148,7 +176,7 @@ func (e *engine) responses(resp [][]float32, img []float32, h, w int, b Border, 
 		for v := range srcs {
 			srcs[v] = s.pad[v*pw:]
 		}
-		hrows(resp[ki], w, 0, h, nx, srcs, kp.rows, (R-r)*pw+R-r, pw)
+		hrows(resp[ki], 0, w, 0, h, nx, srcs, kp.rows, (R-r)*pw+R-r, pw)
 	}
 }
 
@@ -168,27 +196,27 @@ func bulkOf8(n int) int {
 }
 
 // hrows runs a horizontal pass over rows [y0,y1): row y writes n values
-// to dst[y·ds:] from sources at off0 + y·rstep. Rows go in increasing
+// to dst[d0 + y·ds:] from sources at off0 + y·rstep. Rows go in increasing
 // order (each row's overrun past its width is rewritten by the next) in
 // threes: the three tails first (sum3; only a tail overruns), then the
 // bulks.
-func hrows(dst []float32, ds, y0, y1, n int, srcs [][]float32, taps []filt, off0, rstep int) {
+func hrows(dst []float32, d0, ds, y0, y1, n int, srcs [][]float32, taps []filt, off0, rstep int) {
 	y := y0
 	if nb := bulkOf(n); nb < n {
 		for ; y+3 <= y1; y += 3 {
-			sum3(dst[y*ds+nb:], ds, n-nb, srcs, taps, off0+y*rstep+nb, 1, rstep)
+			sum3(dst[d0+y*ds+nb:], ds, n-nb, srcs, taps, off0+y*rstep+nb, 1, rstep)
 			for j := y; j < y+3 && nb > 0; j++ {
-				hsum(dst[j*ds:], nb, srcs, taps, off0+j*rstep)
+				hsum(dst[d0+j*ds:], nb, srcs, taps, off0+j*rstep)
 			}
 		}
 	}
 	for ; y < y1; y++ {
-		hsum(dst[y*ds:], n, srcs, taps, off0+y*rstep)
+		hsum(dst[d0+y*ds:], n, srcs, taps, off0+y*rstep)
 	}
 }
 
 // vrows runs a vertical pass of radius r (taps full, per term) for output
-// rows [0,h): row y writes n values to dst[d0 + y·ds:] from source rows
+// rows [y0,y1) of h: row y writes n values to dst[d0 + y·ds:] from source rows
 // starting (y − r + k0)·pw after src0, where [k0,k1) is trim's tap range.
 // Rows go as in hrows; the three-row tails run over the union of the
 // three rows' tap ranges: the extra taps read rows outside the image,
@@ -198,7 +226,7 @@ func hrows(dst []float32, ds, y0, y1, n int, srcs [][]float32, taps []filt, off0
 // (Column strips sized to keep a strip's source rows in L1 were tried and
 // measured ~30% slower at 256×256: whole rows stream from L3 in order and
 // are then reused from L2 by the next 2r output rows.)
-func vrows(dst []float32, d0, ds, h, n int, srcs [][]float32, full, taps []filt, r, src0, pw int, b Border, R int) {
+func vrows(dst []float32, d0, ds, y0, y1, h, n int, srcs [][]float32, full, taps []filt, r, src0, pw int, b Border, R int) {
 	s0 := 2*r + 1
 	taps = taps[:len(full)]
 	one := func(y, nn int) {
@@ -208,9 +236,9 @@ func vrows(dst []float32, d0, ds, h, n int, srcs [][]float32, full, taps []filt,
 		}
 		vsum(dst[d0+y*ds:], nn, srcs, taps, src0+(y-r+k0)*pw, pw)
 	}
-	y := 0
+	y := y0
 	if nb := bulkOf(n); nb < n && R >= 2 {
-		for ; y+3 <= h; y += 3 {
+		for ; y+3 <= y1; y += 3 {
 			k0, _ := trim(y+2, h, r, s0, b)
 			_, k1 := trim(y, h, r, s0, b)
 			for t, f := range full {
@@ -222,31 +250,32 @@ func vrows(dst []float32, d0, ds, h, n int, srcs [][]float32, full, taps []filt,
 			}
 		}
 	}
-	for ; y < h; y++ {
+	for ; y < y1; y++ {
 		one(y, n)
 	}
 }
 
 // hrows2 is hrows for two filter sets over the same sources (row y
-// writes da[y·ds:] with taps ta and db[y·ds:] with tb), one row at a time.
-func hrows2(da, db []float32, ds, y0, y1, n int, srcs [][]float32, ta, tb []filt, off0, rstep int) {
+// writes da[d0 + y·ds:] with taps ta and db[d0 + y·ds:] with tb), one row
+// at a time.
+func hrows2(da, db []float32, d0, ds, y0, y1, n int, srcs [][]float32, ta, tb []filt, off0, rstep int) {
 	for y := y0; y < y1; y++ {
-		vsum2(da[y*ds:], db[y*ds:], n, srcs, ta, tb, off0+y*rstep, 1)
+		vsum2(da[d0+y*ds:], db[d0+y*ds:], n, srcs, ta, tb, off0+y*rstep, 1)
 	}
 }
 
 // vrows2 is vrows (zero or reflect border, no three-row tails) for a
 // kernel pair over the same sources (plan.pairUp): full and full2 are the
 // two kernels' taps per term, da and db their outputs.
-func vrows2(da, db []float32, ds, h, n int, srcs [][]float32, full, full2, taps, taps2 []filt, r, src0, pw int, b Border) {
+func vrows2(da, db []float32, d0, ds, y0, y1, h, n int, srcs [][]float32, full, full2, taps, taps2 []filt, r, src0, pw int, b Border) {
 	s0 := 2*r + 1
-	for y := 0; y < h; y++ {
+	for y := y0; y < y1; y++ {
 		k0, k1 := trim(y, h, r, s0, b)
 		for t := range full {
 			taps[t] = full[t].sub(k0, k1)
 			taps2[t] = full2[t].sub(k0, k1)
 		}
-		vsum2(da[y*ds:], db[y*ds:], n, srcs, taps, taps2, src0+(y-r+k0)*pw, pw)
+		vsum2(da[d0+y*ds:], db[d0+y*ds:], n, srcs, taps, taps2, src0+(y-r+k0)*pw, pw)
 	}
 }
 

@@ -23,7 +23,8 @@ type FrontEnd struct {
 	norm    [][]int     // divisive-normalisation pools (stage indices)
 	lcnG    []float32
 	eng     *engine
-	fused   bool // post takes the fused pooling path (poolfused.go)
+	fused   bool          // post takes the fused pooling path (poolfused.go)
+	bands   [][]bandStage // per size group, the stages pooled band by band (band.go); nil: no band path
 	scratch sync.Pool
 }
 
@@ -90,6 +91,7 @@ func New(cfg Config) (*FrontEnd, error) {
 	}
 	f.eng = newEngine(f.kernels, f.maxR)
 	f.fused = f.fusable()
+	f.planBands()
 	return f, nil
 }
 
@@ -250,6 +252,7 @@ type scratch struct {
 	maps   [][]float32 // per stage channel, h×w
 	tmp    []float32
 	pooled []float32
+	band   [][]float32 // per kernel, bandRows+1 rows (band path only)
 	es     *engineScratch
 }
 
@@ -280,6 +283,14 @@ func (f *FrontEnd) getScratch(h, w int) *scratch {
 		}
 		s.tmp = grow(s.tmp, 3*n)
 		s.pooled = grow(s.pooled, n)
+		if f.banded(h) {
+			if len(s.band) != len(f.kernels) {
+				s.band = make([][]float32, len(f.kernels))
+			}
+			for i := range s.band {
+				s.band[i] = grow(s.band[i], respLen(bandRows+1, w))
+			}
+		}
 		s.es = f.eng.scratchFor(s.es, h, w)
 		s.h, s.w = h, w
 	}
@@ -306,6 +317,10 @@ func (f *FrontEnd) Apply(dst *Maps, img []float32, h, w int) {
 }
 
 func (f *FrontEnd) apply(dst *Maps, img []float32, h, w int, s *scratch) {
+	if f.banded(h) {
+		f.applyBands(dst, img, h, w, s)
+		return
+	}
 	cfg := &f.cfg
 	f.eng.responses(s.resp, img, h, w, cfg.Border, s.es)
 	f.post(dst, h, w, s)

@@ -57,7 +57,14 @@ func (f *FrontEnd) poolStage(out []float32, sc *stageChan, h, w int, s *scratch)
 // responses a (and b, the odd response, for opEnergy) to dst. h, w ≥ 2;
 // tmp holds 2w+2 values.
 func pool3s2Op(dst, a, b []float32, h, w int, op chanOp, tmp []float32) {
-	ow, oh := poolOut(w, 2), poolOut(h, 2)
+	pool3s2Rows(dst, a, b, h, w, 0, poolOut(h, 2), 0, op, tmp)
+}
+
+// pool3s2Rows is pool3s2Op for output rows [i0,i1) only, reading row y of
+// the responses at a[(y − yOrg)·w:] (and b likewise): a band buffer whose
+// first row is image row yOrg.
+func pool3s2Rows(dst, a, b []float32, h, w, i0, i1, yOrg int, op chanOp, tmp []float32) {
+	ow := poolOut(w, 2)
 	t := tmp[:w+2]
 	hm := tmp[w+2 : 2*w+2]
 	guard := float32(math.Inf(-1))
@@ -65,8 +72,8 @@ func pool3s2Op(dst, a, b []float32, h, w int, op chanOp, tmp []float32) {
 		guard = float32(math.Inf(1))
 	}
 	t[0], t[w+1] = guard, guard
-	row := func(m []float32, y int) []float32 { return m[y*w:][:w] }
-	for i := 0; i < oh; i++ {
+	row := func(m []float32, y int) []float32 { return m[(y-yOrg)*w:][:w] }
+	for i := i0; i < i1; i++ {
 		c := 2 * i
 		lo, hi := max(c-1, 0), min(c+1, h-1)
 		col := t[1 : w+1]

@@ -116,8 +116,14 @@
 // (six independent accumulators, enough to hide the FMA latency and the
 // most Go's register allocation keeps without spilling), then 32, 16, 8;
 // images at most 32 wide (MNIST) run three rows × 16 at once for the same
-// six chains. Taps are stored pre-broadcast to 8 lanes and walked by
-// pointer, so every load has a constant offset. With a zero border, vertical taps that would read only rows
+// six chains. On CPUs with AVX-512 the single-row blocks run 16 lanes
+// (96 outputs, then 64, 32, 16). The loops are bound by loads more than by
+// multiply-adds, so two passes that read the same planes the same way (two
+// horizontal first passes over the image; the 0° or 90° even/odd pair,
+// the 45°/135° even pair and the odd pair in their second passes) run as
+// one pass in which each loaded vector feeds both sums, bit for bit the
+// result of the two passes. Taps are stored pre-broadcast to 16 lanes and
+// walked by pointer, so every load has a constant offset. With a zero border, vertical taps that would read only rows
 // outside the image are skipped (about a quarter of the vertical work of
 // the 29-tap kernels at 28×28). After AVX code the loops clear the upper
 // halves of the Y registers: Go 1.26 does not, and the SSE moves it uses
@@ -128,13 +134,18 @@
 // end-stopping), rectification and energy are fused into the pooling
 // (poolfused.go): max commutes with max(0,·), negation and sqrt, so each
 // output map is pooled straight from the responses, bit for bit the same.
+// Then, for images taller than 30 rows, each kernel size's second passes
+// run 30 rows at a time into band buffers that are pooled at once
+// (band.go), so that the responses stay in the core's caches instead of
+// streaming 18 maps of 256 KB (at 256×256) out to memory and back.
 //
 // # Builds
 //
 // The plain build runs portable Go loops. Built with Go 1.26's
 // GOEXPERIMENT=simd on amd64, the package uses simd/archsimd (AVX2 + FMA,
-// 8 float32 lanes) for the 1-D passes, energy and pooling, when the CPU has
-// them (checked at start-up; Build reports which loops run):
+// 8 float32 lanes, and AVX-512 with 16 lanes for the wide 1-D passes) for
+// the 1-D passes, energy and pooling, when the CPU has them (checked at
+// start-up; Build reports which loops run):
 //
 //	GOEXPERIMENT=simd go build ./cmd/striate
 //	GOEXPERIMENT=simd go test -bench FrontEnd ./v1layer
@@ -142,14 +153,14 @@
 // Both builds give the same results to float32 rounding
 // (TestSIMDMatchesPortable); `striate bench` prints which build timed the
 // figures it shows. On the reference work (`striate bench`, 5 repeats,
-// median; 2-core AMD EPYC with AVX2 + FMA, 2 December 2026, run under the
-// project's heavy-work lock while other jobs compiled; four runs) the SIMD
-// build ran MNIST at 9,391–11,304 img/s on one thread and 19,876–29,130 on
-// two, 256×256 crops at 97.4–121.5 and 190.6–258.4 img/s (peers: 6,486 /
-// 10,124 and 108 / 135); the plain build at 1,608 / 3,521 and 21.7 / 46.3
-// img/s, five to six times slower. Before the 48-wide blocks, the cleared
-// Y registers, the fused pooling and the three-row blocks the SIMD build
-// measured 6,029 and 87.5 img/s on one thread (idle machine).
+// median; 2-core AMD EPYC with AVX-512, 2 December 2026, under the
+// project's heavy-work lock, three runs alternating with the previous
+// build) the SIMD build ran MNIST at 16,939–17,231 img/s on one thread
+// and 36,565–37,732 on two, 256×256 crops at 303.7–324.7 and 540.0–697.3
+// img/s (peers: 6,486 / 10,124 and 108 / 135); the build before the
+// paired passes and bands measured 175.8–177.4 and 282.3–391.0 img/s at
+// 256×256 in the same runs. (Plain build, before these changes: 1,608 /
+// 3,521 and 21.7 / 46.3 img/s.)
 //
 // # Concurrency
 //

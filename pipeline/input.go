@@ -184,28 +184,11 @@ const (
 // moments: its angle from the x axis is φ = ½·atan2(2μ11, μ20 − μ02) (Hu
 // 1962; common practice in shape analysis), with y pointing down.
 func uprightAngle(img []float32, h, w int) (deg float64, ok bool) {
-	var m, my, mx float64
-	for y := 0; y < h; y++ {
-		for x, v := range img[y*w : (y+1)*w] {
-			m += float64(v)
-			my += float64(v) * float64(y)
-			mx += float64(v) * float64(x)
-		}
-	}
-	if m <= 0 {
+	mo := momentsOf(img, h, w)
+	if mo.m <= 0 {
 		return 0, false
 	}
-	cy, cx := my/m, mx/m
-	var m20, m02, m11 float64
-	for y := 0; y < h; y++ {
-		dy := float64(y) - cy
-		for x, v := range img[y*w : (y+1)*w] {
-			dx := float64(x) - cx
-			m20 += float64(v) * dx * dx
-			m02 += float64(v) * dy * dy
-			m11 += float64(v) * dx * dy
-		}
-	}
+	m20, m02, m11 := mo.m20, mo.m02, mo.m11
 	a, b := (m20+m02)/2, math.Hypot((m20-m02)/2, m11)
 	if a+b <= 0 || (a-b)/(a+b) > uprightMaxRatio {
 		return 0, false
@@ -216,6 +199,38 @@ func uprightAngle(img []float32, h, w int) (deg float64, ok bool) {
 		return 0, false
 	}
 	return d * 180 / math.Pi, true
+}
+
+// moments are the grey mass of an image, its centre (cy, cx) and its
+// second central moments μ20 = Σ v·(x − x̄)², μ02 = Σ v·(y − ȳ)²,
+// μ11 = Σ v·(x − x̄)(y − ȳ) (y pointing down), shared by deskew and
+// uprightAngle.
+type moments struct{ m, cy, cx, m20, m02, m11 float64 }
+
+func momentsOf(img []float32, h, w int) moments {
+	var mo moments
+	var my, mx float64
+	for y := 0; y < h; y++ {
+		for x, v := range img[y*w : (y+1)*w] {
+			mo.m += float64(v)
+			my += float64(v) * float64(y)
+			mx += float64(v) * float64(x)
+		}
+	}
+	if mo.m <= 0 {
+		return mo
+	}
+	mo.cy, mo.cx = my/mo.m, mx/mo.m
+	for y := 0; y < h; y++ {
+		dy := float64(y) - mo.cy
+		for x, v := range img[y*w : (y+1)*w] {
+			dx := float64(x) - mo.cx
+			mo.m20 += float64(v) * dx * dx
+			mo.m02 += float64(v) * dy * dy
+			mo.m11 += float64(v) * dx * dy
+		}
+	}
+	return mo
 }
 
 // maxSkew bounds the shear of DeskewShear (|α| ≤ 1, a slant of 45°), so a
@@ -232,31 +247,12 @@ const maxSkew = 1
 // moment form is common practice). An image with no mass, or with all its
 // mass on one row, is copied unchanged.
 func deskew(dst, src []float32, h, w int) {
-	var m, my, mx float64
-	for y := 0; y < h; y++ {
-		for x, v := range src[y*w : (y+1)*w] {
-			m += float64(v)
-			my += float64(v) * float64(y)
-			mx += float64(v) * float64(x)
-		}
-	}
-	if m <= 0 {
+	mo := momentsOf(src, h, w)
+	if mo.m <= 0 || mo.m02 <= 1e-12*mo.m {
 		copy(dst, src[:h*w])
 		return
 	}
-	cy, cx := my/m, mx/m
-	var m11, m02 float64
-	for y := 0; y < h; y++ {
-		dy := float64(y) - cy
-		for x, v := range src[y*w : (y+1)*w] {
-			m11 += float64(v) * (float64(x) - cx) * dy
-			m02 += float64(v) * dy * dy
-		}
-	}
-	if m02 <= 1e-12*m {
-		copy(dst, src[:h*w])
-		return
-	}
+	cy, m11, m02 := mo.cy, mo.m11, mo.m02
 	a := max(-maxSkew, min(maxSkew, m11/m02))
 	for y := 0; y < h; y++ {
 		row, out := src[y*w:(y+1)*w], dst[y*w:(y+1)*w]

@@ -138,7 +138,7 @@ func zeroCodeObjective(x []float32) float64 {
 // README's zero-code baseline on the held-out patches (78.84; the photo
 // order is explained at benchPhotos).
 func TestProtocolData(t *testing.T) {
-	if os.Getenv("STRIATE_LONG") == "" {
+	if os.Getenv("STRIATE_LONG") != "1" {
 		t.Skip("STRIATE_LONG not set (whitening 100,000 patches takes ~15 s)")
 	}
 	pd := loadProtocol(t)

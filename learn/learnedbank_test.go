@@ -269,7 +269,7 @@ func TestNaturalImageAtoms(t *testing.T) {
 		t.Skip("-short")
 	}
 	ns := naturalQuick
-	if os.Getenv("STRIATE_LONG") != "" {
+	if os.Getenv("STRIATE_LONG") == "1" {
 		ns = naturalLong
 	}
 	r := runNatural(t, ns)

@@ -1,0 +1,59 @@
+package datasets
+
+import (
+	"math"
+	"math/rand/v2"
+)
+
+// plasmaSize returns the side M of the fog's fractal map for an h×w image:
+// 256 at 28 px (MNIST-C), times the power of two nearest to side/28, and at
+// least the image side, so the fog's structure grows with the image.
+func plasmaSize(h, w int) int {
+	side := max(h, w)
+	k := math.Round(math.Log2(float64(side) / 28))
+	n := int(math.Round(256 * math.Pow(2, k)))
+	for n < side {
+		n *= 2
+	}
+	return max(n, 2)
+}
+
+// plasmaFractal fills a (n×n, n a power of two, row-major, wrapping at the
+// edges) with a diamond-square fractal of decay w, scaled to [0,1]; the
+// construction is described under CorruptionKind.
+func plasmaFractal(a []float64, n int, decay float64, r *rand.Rand) {
+	a[0] = 0
+	at := func(y, x int) float64 { return a[(y%n)*n+x%n] }
+	spread := 1.0
+	for step := n; step >= 2; step /= 2 {
+		half := step / 2
+		jitter := func() float64 { return spread * (2*r.Float64() - 1) }
+		for y := 0; y < n; y += step {
+			for x := 0; x < n; x += step {
+				s := at(y, x) + at(y, x+step) + at(y+step, x) + at(y+step, x+step)
+				a[(y+half)*n+x+half] = s/4 + jitter()
+			}
+		}
+		for y := 0; y < n; y += step {
+			for x := 0; x < n; x += step {
+				// (y, x+half): left and right corners, centres above and below.
+				s := at(y, x) + at(y, x+step) + at(y+n-half, x+half) + at(y+half, x+half)
+				a[y*n+x+half] = s/4 + jitter()
+				// (y+half, x): corners above and below, centres left and right.
+				s = at(y, x) + at(y+step, x) + at(y+half, x+n-half) + at(y+half, x+half)
+				a[(y+half)*n+x] = s/4 + jitter()
+			}
+		}
+		spread /= decay * decay
+	}
+	lo, hi := math.Inf(1), math.Inf(-1)
+	for _, v := range a[:n*n] {
+		lo, hi = math.Min(lo, v), math.Max(hi, v)
+	}
+	for i, v := range a[:n*n] {
+		a[i] = 0
+		if hi > lo {
+			a[i] = (v - lo) / (hi - lo)
+		}
+	}
+}

@@ -50,8 +50,8 @@ import (
 //	               (clipped to [0,1]), columns in odd runs of
 //	               round(2·w/28) blanked; y = min(x + max I, 1)
 //	zigzag         n zig-zag polylines from column c0 = round(2·w/28) to   (n, ρ) as dotted_line; a = b = 2·f
-//	               w−1−c0, start row r0 ~ U{0…h−1}, end row r0 +
-//	               round(U{−5…4}·h/28) (clipped to the image), vertices
+//	               w−1−c0, start row r0 ~ U{t…h−1}, t = round(b), end row
+//	               r0 + round(U{−5…4}·h/28) (clipped to t…h−1), vertices
 //	               every a px along that direction, every second one
 //	               lifted by b px across it; each segment drawn with I(d),
 //	               unbroken; y = min(x + max I, 1)
@@ -249,10 +249,17 @@ func (c Corruption) Apply(dst, src []float32, h, w int, seed uint64) {
 		return
 	}
 	y := make([]float64, h*w)
-	c.render(y, src, h, w, newRand(seed, tagCorrupt+uint64(c.Kind)))
+	c.render(y, src, h, w, corruptRand(seed, c.Kind))
 	for i, v := range y {
 		dst[i] = quantise(v)
 	}
+}
+
+// corruptRand returns the stream of kind k for seed. The seed goes through
+// ImageSeed's mixing first: PCG's first outputs for nearby seeds share their
+// top bits, which the random signs use.
+func corruptRand(seed uint64, k CorruptionKind) *rand.Rand {
+	return newRand(ImageSeed(seed, int(k)), tagCorrupt)
 }
 
 // quantise clips v to [0,1] and rounds it to the nearest k/255, computed as
@@ -272,7 +279,7 @@ func (c Corruption) render(y []float64, src []float32, h, w int, r *rand.Rand) {
 		x[i] = math.Min(1, math.Max(0, float64(v)))
 	}
 	sign := func() float64 {
-		if r.Uint64()&1 == 0 {
+		if r.Uint64()>>63 == 0 {
 			return -1
 		}
 		return 1
@@ -288,7 +295,7 @@ func (c Corruption) render(y []float64, src []float32, h, w int, r *rand.Rand) {
 		for i, v := range x {
 			y[i] = v
 			if r.Float64() < p {
-				y[i] = float64(r.Uint64() & 1)
+				y[i] = float64(r.Uint64() >> 63)
 			}
 		}
 	case CorruptGlassBlur:
@@ -411,7 +418,7 @@ func glassBlur(y, x []float64, h, w int, sigma float64, delta, iters int, r *ran
 	for range iters {
 		for row := h - delta; row > delta; row-- {
 			for col := w - delta; col > delta; col-- {
-				if r.Uint64()&1 == 0 {
+				if r.Uint64()>>63 == 0 {
 					continue
 				}
 				dx := r.IntN(2*delta) - delta

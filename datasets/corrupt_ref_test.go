@@ -100,7 +100,7 @@ func TestWarpCorruptionsMatchSciPy(t *testing.T) {
 				signs := map[float64]bool{}
 				for seed := uint64(0); seed < 8; seed++ {
 					y := make([]float64, len(src))
-					c.render(y, src, im.H, im.W, newRand(seed, tagCorrupt+uint64(k)))
+					c.render(y, src, im.H, im.W, corruptRand(seed, k))
 					matched := false
 					for _, sg := range []float64{1, -1} {
 						if k == CorruptScale && sg < 0 {

@@ -51,9 +51,10 @@ func zigzag(dst []float64, h, w int, rho float64, r *rand.Rand) {
 	f := float64(min(h, w)) / 28
 	c0 := math.Round(2 * float64(w) / 28)
 	c1 := float64(w-1) - c0
-	r0 := float64(r.IntN(h))
+	top := math.Min(float64(h-1), math.Round(zigzagTooth*f)) // keep the lifted teeth inside
+	r0 := top + float64(r.IntN(h-int(top)))
 	r1 := r0 + math.Round(float64(r.IntN(10)-5)*float64(h)/28)
-	r1 = math.Min(float64(h-1), math.Max(0, r1))
+	r1 = math.Min(float64(h-1), math.Max(top, r1))
 	for _, s := range zigzagVertices(r0, c0, r1, c1, zigzagTooth*f, zigzagTooth*f) {
 		drawSegment(dst, h, w, s[0], s[1], s[2], s[3], rho, nil)
 	}

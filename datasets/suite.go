@@ -89,6 +89,11 @@ type SuiteCondition struct {
 	Op    ImageOp
 }
 
+// SuiteSeed is the run seed of the development suite's reference images:
+// striate's scores and the LeNet-5 peer's (testdata/peer/lenet5.py) are
+// taken on test.Perturbed(c.Op, SuiteSeed, …) for every condition c.
+const SuiteSeed uint64 = 12
+
 // Suite groups.
 const (
 	GroupMNISTC = "mnist-c"

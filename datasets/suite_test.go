@@ -146,6 +146,8 @@ func TestPerturbedIsPerImageAndWorkerFree(t *testing.T) {
 // (test-labels.idx.gz), the clean test images (clean.idx.gz), one
 // <condition>.idx.gz per DevelopmentSuite condition (test split, seed
 // SuiteSeed, or $STRIATE_SUITE_SEED), and suite.json listing them.
+// $STRIATE_SUITE_LIMIT=N keeps only the first N images of each split (a
+// smoke run).
 func TestWriteSuite(t *testing.T) {
 	dir := os.Getenv("STRIATE_SUITE_OUT")
 	if dir == "" {
@@ -174,6 +176,20 @@ func TestWriteSuite(t *testing.T) {
 		test, err := load(Test, "")
 		if err != nil {
 			t.Fatal(err)
+		}
+		if v := os.Getenv("STRIATE_SUITE_LIMIT"); v != "" { // a smoke run on the first images
+			n, err := strconv.Atoi(v)
+			if err != nil || n < 1 {
+				t.Fatalf("STRIATE_SUITE_LIMIT %q is not a positive number of images", v)
+			}
+			first := func(s *Set) *Set {
+				idx := make([]int, min(n, s.N))
+				for i := range idx {
+					idx[i] = i
+				}
+				return s.Subset(idx)
+			}
+			train, test = first(train), first(test)
 		}
 		out := filepath.Join(dir, name)
 		if err := os.MkdirAll(out, 0o755); err != nil {

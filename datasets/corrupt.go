@@ -183,7 +183,8 @@ func ParseCorruption(s string) (Corruption, error) {
 	name, sev, hasSev := strings.Cut(s, "-")
 	k, err := ParseCorruptionKind(name)
 	if err != nil {
-		return Corruption{}, err
+		return Corruption{}, fmt.Errorf("datasets: corruption %q: unknown name %q; valid names are %s, optionally followed by -%d…%d, the severity",
+			s, name, validCorruptions(), MinSeverity, MaxSeverity)
 	}
 	c := Corruption{Kind: k, Severity: PublishedSeverity}
 	if hasSev {

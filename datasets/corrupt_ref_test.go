@@ -54,25 +54,18 @@ func TestBlurNearestMatchesSciPy(t *testing.T) {
 	// Tolerance: the reference values are rounded to 1e-10 (the sums
 	// themselves agree to ~1e-16), so 1e-9 is ten times that rounding.
 	const tol = 1e-9
-	ref := loadCorruptRef(t)
 	n := 0
-	for name, im := range ref.Images {
-		x := bytesToFloat64(im.U8)
-		for key, want := range im.Outputs {
-			kind, s := refKey(t, key)
-			if kind != "blur_nearest" {
-				continue
+	eachRef(t, "blur_nearest", func(name string, h, w int, u8 []uint8, key string, s float64, want []float64) {
+		x := bytesToFloat64(u8)
+		got := make([]float64, len(x))
+		blurNearest(got, x, h, w, s)
+		for i := range got {
+			if d := math.Abs(got[i] - want[i]); d > tol {
+				t.Fatalf("%s %s: pixel (%d,%d) = %.12f, SciPy %.12f", name, key, i/w, i%w, got[i], want[i])
 			}
-			got := make([]float64, len(x))
-			blurNearest(got, x, im.H, im.W, s)
-			for i := range got {
-				if d := math.Abs(got[i] - want[i]); d > tol {
-					t.Fatalf("%s %s: pixel (%d,%d) = %.12f, SciPy %.12f", name, key, i/im.W, i%im.W, got[i], want[i])
-				}
-			}
-			n++
 		}
-	}
+		n++
+	})
 	if n != 15 {
 		t.Errorf("checked %d blurs, want 15", n)
 	}
@@ -140,36 +133,40 @@ func TestCannyMatchesSkimage(t *testing.T) {
 	// interpolated neighbour to the last bits, which these images do not
 	// hit: no pixel may differ.
 	const maxDiffering = 0
-	ref := loadCorruptRef(t)
 	checked, withEdges := 0, 0
-	for name, im := range ref.Images {
-		x := bytesToFloat64(im.U8)
-		for key, want := range im.Outputs {
-			kind, s := refKey(t, key)
-			if kind != "canny" {
-				continue
+	eachRef(t, "canny", func(name string, h, w int, u8 []uint8, key string, s float64, want []float64) {
+		got := cannyEdges(bytesToFloat64(u8), h, w, s, cannyLow, cannyHigh)
+		var differ, edges int
+		for i, g := range got {
+			if g != (want[i] == 1) {
+				differ++
 			}
-			got := cannyEdges(x, im.H, im.W, s, cannyLow, cannyHigh)
-			var differ, edges int
-			for i, g := range got {
-				if g != (want[i] == 1) {
-					differ++
-				}
-				if g {
-					edges++
-				}
+			if g {
+				edges++
 			}
-			if differ > maxDiffering {
-				t.Errorf("%s %s: %d of %d pixels differ from scikit-image (%d edge pixels)", name, key, differ, len(got), edges)
-			}
-			if edges > 0 {
-				withEdges++
-			}
-			checked++
 		}
-	}
+		if differ > maxDiffering {
+			t.Errorf("%s %s: %d of %d pixels differ from scikit-image (%d edge pixels)", name, key, differ, len(got), edges)
+		}
+		if edges > 0 {
+			withEdges++
+		}
+		checked++
+	})
 	if checked != 25 || withEdges < 20 {
 		t.Errorf("checked %d edge maps (want 25), %d with edges (want ≥ 20)", checked, withEdges)
+	}
+}
+
+// eachRef calls f for every reference output named kind-LEVEL.
+func eachRef(t *testing.T, kind string, f func(name string, h, w int, u8 []uint8, key string, level float64, want []float64)) {
+	t.Helper()
+	for name, im := range loadCorruptRef(t).Images {
+		for key, want := range im.Outputs {
+			if k, level := refKey(t, key); k == kind {
+				f(name, im.H, im.W, im.U8, key, level, want)
+			}
+		}
 	}
 }
 

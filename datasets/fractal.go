@@ -23,37 +23,43 @@ func plasmaSize(h, w int) int {
 // construction is described under CorruptionKind.
 func plasmaFractal(a []float64, n int, decay float64, r *rand.Rand) {
 	a[0] = 0
-	at := func(y, x int) float64 { return a[(y%n)*n+x%n] }
+	mask := n - 1 // n is a power of two: wrap by masking
+	at := func(y, x int) float64 { return a[(y&mask)*n+x&mask] }
 	spread := 1.0
 	for step := n; step >= 2; step /= 2 {
 		half := step / 2
-		jitter := func() float64 { return spread * (2*r.Float64() - 1) }
 		for y := 0; y < n; y += step {
 			for x := 0; x < n; x += step {
 				s := at(y, x) + at(y, x+step) + at(y+step, x) + at(y+step, x+step)
-				a[(y+half)*n+x+half] = s/4 + jitter()
+				a[(y+half)*n+x+half] = s/4 + spread*(2*r.Float64()-1)
 			}
 		}
 		for y := 0; y < n; y += step {
 			for x := 0; x < n; x += step {
 				// (y, x+half): left and right corners, centres above and below.
 				s := at(y, x) + at(y, x+step) + at(y+n-half, x+half) + at(y+half, x+half)
-				a[y*n+x+half] = s/4 + jitter()
+				a[y*n+x+half] = s/4 + spread*(2*r.Float64()-1)
 				// (y+half, x): corners above and below, centres left and right.
 				s = at(y, x) + at(y+step, x) + at(y+half, x+n-half) + at(y+half, x+half)
-				a[(y+half)*n+x] = s/4 + jitter()
+				a[(y+half)*n+x] = s/4 + spread*(2*r.Float64()-1)
 			}
 		}
 		spread /= decay * decay
 	}
-	lo, hi := math.Inf(1), math.Inf(-1)
+	lo, hi := a[0], a[0]
 	for _, v := range a[:n*n] {
-		lo, hi = math.Min(lo, v), math.Max(hi, v)
+		if v < lo {
+			lo = v
+		}
+		if v > hi {
+			hi = v
+		}
+	}
+	if hi == lo {
+		clear(a[:n*n])
+		return
 	}
 	for i, v := range a[:n*n] {
-		a[i] = 0
-		if hi > lo {
-			a[i] = (v - lo) / (hi - lo)
-		}
+		a[i] = (v - lo) / (hi - lo)
 	}
 }

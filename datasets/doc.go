@@ -123,6 +123,29 @@
 // String gives names such as "noise-0.3", "shift-4-ne", "rot-30";
 // ParsePerturbation reads them back.
 //
+// # Corruptions and the development suite
+//
+// Corruption{Kind, Severity} is one of the 15 corruptions of MNIST-C (Mu &
+// Gilmer 2019): shot_noise, impulse_noise, glass_blur, motion_blur, shear,
+// scale, rotate, brightness, translate, stripe, fog, spatter, dotted_line,
+// zigzag and canny_edges, each at severities 1…5 with the published
+// parameter at severity 3; CorruptionKind's documentation holds the
+// definitions and the severity table. Pixel constants scale with the image
+// side (side/28), randomness comes from the per-image seed, and outputs are
+// clipped to [0,1] and quantised to grey levels k/255 like the published
+// bytes. ParseCorruption reads "fog" or "fog-5" and names the valid kinds and
+// severities when it cannot. The blur, the warps and the Canny edge map are
+// checked against scipy.ndimage and skimage.feature.canny.
+//
+// A development suite is a list of named conditions (SuiteCondition):
+// MNISTCSuite lists the corruptions, GridSuite the six perturbation kinds on
+// a fine grid of levels (noise σ 0.05…0.6, blur σ 0.5…2.5 px, contrast
+// 0.1…0.9, shift 1…6 px, rotation 5…45°, scale 0.6…1.5), DevelopmentSuite
+// both. Set.Perturbed applies any ImageOp (a Perturbation or a Corruption)
+// to a whole set, image i with ImageSeed(seed, i), so the result does not
+// depend on the number of workers; SuiteSeed is the seed of the reference
+// suite that striate and the LeNet-5 peer are scored on.
+//
 // # Batches
 //
 // Set.Batches streams a Set as *Batch values laid out N×1×H×W:
@@ -134,9 +157,9 @@
 //
 // # Randomness
 //
-// Every random choice (splits, subsets, patch positions, noise) comes from
-// math/rand/v2's PCG generator seeded by the caller's seed and a per-purpose
-// tag, so results are reproducible across runs, platforms and Go releases.
+// Every random choice (splits, subsets, patch positions, noise,
+// corruptions) comes from math/rand/v2's PCG generator seeded by the
+// caller's seed and a per-purpose tag, so results are reproducible across runs, platforms and Go releases.
 // StratifiedSplit keeps each class's proportion (round(f·n_c) of class c go
 // to test); PerClass subsets are nested across sizes for one seed.
 //
@@ -152,6 +175,11 @@
 //
 // # References
 //
+//	J. Canny (1986), A computational approach to edge detection. IEEE TPAMI 8(6).
+//	A. Fournier, D. Fussell, L. Carpenter (1982), Computer rendering of stochastic models. Commun. ACM 25(6).
+//	D. E. Knuth (1997), The Art of Computer Programming, vol. 2, 3rd ed., §3.4.1 (Poisson deviates).
+//	N. Mu, J. Gilmer (2019), MNIST-C: A robustness benchmark for computer vision. arXiv:1906.02337.
+//	G. L. Steele, D. Lea, C. H. Flood (2014), Fast splittable pseudorandom number generators. OOPSLA (SplitMix64).
 //	A. J. Bell, T. J. Sejnowski (1997), The "independent components" of natural scenes are edge filters. Vision Research 37(23).
 //	A. Coates, H. Lee, A. Y. Ng (2011), An analysis of single-layer networks in unsupervised feature learning. AISTATS.
 //	ITU-R Recommendation BT.601-7 (2011), Studio encoding parameters of digital television.

@@ -288,8 +288,9 @@ func gaussKernel(sigma float64) []float64 {
 	return k
 }
 
-// blur convolves with a separable Gaussian of σ pixels, zero outside.
-func blur(dst, src []float32, h, w int, sigma float64) {
+// blur convolves with a separable Gaussian of σ pixels, zero outside (float32
+// for the perturbations, float64 for the corruptions' intermediate layers).
+func blur[T float32 | float64](dst, src []T, h, w int, sigma float64) {
 	if sigma == 0 {
 		copy(dst, src)
 		return
@@ -312,7 +313,7 @@ func blur(dst, src []float32, h, w int, sigma float64) {
 			for i := max(0, y-r); i <= min(h-1, y+r); i++ {
 				s += k[i-y+r] * tmp[i*w+x]
 			}
-			dst[y*w+x] = float32(s)
+			dst[y*w+x] = T(s)
 		}
 	}
 }

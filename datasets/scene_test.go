@@ -88,7 +88,7 @@ func sceneSet(t *testing.T) *Set {
 	return s
 }
 
-func mustBuilder(t *testing.T, set *Set, cfg SceneConfig) *SceneBuilder {
+func mustBuilder(t testing.TB, set *Set, cfg SceneConfig) *SceneBuilder {
 	t.Helper()
 	b, err := NewSceneBuilder(set, cfg)
 	if err != nil {

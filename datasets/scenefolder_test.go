@@ -18,7 +18,7 @@ const pngTol = 0.5/255 + 1e-6
 
 // writeTestFolder writes six scenes (textured, with lint, some empty) to a
 // new folder and returns it with the scenes.
-func writeTestFolder(t *testing.T) (string, []Scene, *Set) {
+func writeTestFolder(t testing.TB) (string, []Scene, *Set) {
 	t.Helper()
 	set := inkSet(60)
 	b := mustBuilder(t, set, SceneConfig{W: 90, H: 70, Background: Texture, Lint: 3, EmptyFrac: 0.3, Seed: 5})
@@ -219,4 +219,46 @@ func TestWriteSceneFolderChecks(t *testing.T) {
 			t.Errorf("%s: the folder was created", c.name)
 		}
 	}
+}
+
+// FuzzSceneIndex feeds arbitrary bytes as scenes.json to a folder holding
+// two real 90×70 frames: ReadSceneFolder must never panic, every failure must
+// be a *SceneFolderError, and every success must hold only boxes inside their
+// frames and classes that are listed.
+func FuzzSceneIndex(f *testing.F) {
+	dir, _, _ := writeTestFolder(f)
+	if good, err := os.ReadFile(filepath.Join(dir, SceneIndex)); err == nil {
+		f.Add(good)
+		f.Add(good[:len(good)/3])
+	}
+	f.Add([]byte(`{"layout":"striate scene folder","version":1,"classes":["a"],"frames":[{"file":"frame-000000.png","width":90,"height":70,"items":[{"class":"a","box":[0,0,90,70]}]}]}`))
+	f.Add([]byte(`{"layout":"striate scene folder","version":1,"classes":["a","a"],"frames":[]}`))
+	f.Add([]byte(`[]`))
+	f.Fuzz(func(t *testing.T, raw []byte) {
+		d := t.TempDir()
+		for i := range 2 {
+			b, err := os.ReadFile(filepath.Join(dir, FrameName(i)))
+			if err != nil {
+				t.Skip("seed folder unavailable")
+			}
+			os.WriteFile(filepath.Join(d, FrameName(i)), b, 0o644)
+		}
+		os.WriteFile(filepath.Join(d, SceneIndex), raw, 0o644)
+		sf, err := ReadSceneFolder(d)
+		if err != nil {
+			var fe *SceneFolderError
+			if !errors.As(err, &fe) {
+				t.Fatalf("error %v is not a *SceneFolderError", err)
+			}
+			return
+		}
+		for _, fr := range sf.Frames {
+			for _, it := range fr.Items {
+				b := it.Box
+				if it.Class < 0 || it.Class >= len(sf.Classes) || b[0] < 0 || b[1] < 0 || b[2] > fr.W || b[3] > fr.H || b[0] >= b[2] || b[1] >= b[3] {
+					t.Fatalf("accepted item %+v in a %d×%d frame with %d classes", it, fr.W, fr.H, len(sf.Classes))
+				}
+			}
+		}
+	})
 }

@@ -2,7 +2,6 @@ package datasets
 
 import (
 	"encoding/json"
-	"fmt"
 	"math"
 	"os"
 	"slices"
@@ -37,25 +36,31 @@ func TestScaleItemMatchesSkimage(t *testing.T) {
 		t.Fatalf("reference ink level %v, ours %v (%v)", ink, InkLevel, err)
 	}
 	set := &Set{Name: "ref", N: 1, H: 28, W: 28, Pix: bytes, Labels: []int{0}, Classes: []string{"a"}}
-	for _, n := range []int{22, 28, 31, 35, 45} {
+	for _, c := range []struct {
+		key  string
+		h, w int
+	}{{"22", 22, 22}, {"28", 28, 28}, {"31", 31, 31}, {"35", 35, 35}, {"45", 45, 45}, {"31x22", 31, 22}} {
 		var want []float64
 		var box [4]int
-		if err := json.Unmarshal(ref[fmt.Sprintf("resize-%d", n)], &want); err != nil {
+		if err := json.Unmarshal(ref["resize-"+c.key], &want); err != nil {
 			t.Fatal(err)
 		}
-		if err := json.Unmarshal(ref[fmt.Sprintf("box-%d", n)], &box); err != nil {
+		if err := json.Unmarshal(ref["box-"+c.key], &box); err != nil {
 			t.Fatal(err)
 		}
-		got := scaleItem(nil, set, 0, n)
+		got := scaleItem(nil, set, 0, c.h, c.w)
+		if len(got) != len(want) {
+			t.Fatalf("%s: %d pixels, skimage %d", c.key, len(got), len(want))
+		}
 		worst := 0.0
 		for i := range want {
 			worst = max(worst, math.Abs(float64(got[i])-want[i]))
 		}
 		if worst > resizeTol {
-			t.Errorf("side %d: max |ours − skimage| = %g > %g", n, worst, resizeTol)
+			t.Errorf("%s: max |ours − skimage| = %g > %g", c.key, worst, resizeTol)
 		}
-		if b, ok := inkBox(got, n); !ok || b != box {
-			t.Errorf("side %d: ink box %v, NumPy %v", n, b, box)
+		if b, ok := inkBox(got, c.h, c.w); !ok || b != box {
+			t.Errorf("%s: ink box %v, NumPy %v", c.key, b, box)
 		}
 	}
 }
@@ -128,7 +133,7 @@ func TestSceneBoxesHoldAllInk(t *testing.T) {
 			if it.Class != set.Labels[it.Source] {
 				t.Errorf("scene %d: class %d, source %d has label %d", k, it.Class, it.Source, set.Labels[it.Source])
 			}
-			src, _ := inkBox(scaleItem(nil, set, it.Source, 28), 28)
+			src, _ := inkBox(scaleItem(nil, set, it.Source, 28, 28), 28, 28)
 			for d, got := range []int{it.Width(), it.Height()} {
 				n := float64(src[d+2] - src[d])
 				if lo, hi := math.Floor(0.8*n)-2, math.Ceil(1.6*n)+2; float64(got) < lo || float64(got) > hi {
@@ -337,7 +342,7 @@ func TestClutterProtocol(t *testing.T) {
 			if s.W != c.Size || s.H != c.Size || len(s.Items) != 1 || s.Items[0].Class != set.Labels[k] {
 				t.Fatalf("%+v image %d: %d×%d with %v", c, k, s.W, s.H, s.Items)
 			}
-			src, _ := inkBox(scaleItem(nil, set, k, 28), 28)
+			src, _ := inkBox(scaleItem(nil, set, k, 28, 28), 28, 28)
 			box := s.Items[0].Box
 			ox, oy := box[0]-src[0], box[1]-src[1]
 			if box[2]-box[0] != src[2]-src[0] || box[3]-box[1] != src[3]-src[1] || ox < 0 || oy < 0 || ox+28 > c.Size || oy+28 > c.Size {
@@ -365,7 +370,7 @@ func TestClutterProtocol(t *testing.T) {
 		t.Fatal(err)
 	}
 	box := none.Items[0].Box
-	src, _ := inkBox(scaleItem(nil, set, 7, 28), 28)
+	src, _ := inkBox(scaleItem(nil, set, 7, 28, 28), 28, 28)
 	ox, oy := box[0]-src[0], box[1]-src[1]
 	for y := range 40 {
 		for x := range 40 {

@@ -17,6 +17,7 @@ Outputs, float64 rounded to 1e-10, for each side n in SIDES:
   resize-n:  skimage.transform.resize(x/255, (n, n), order=1, mode='edge',
              anti_aliasing=False, preserve_range=True)
              (pixel centres map as source = (dst + 1/2)*28/n - 1/2; edge pixels repeated)
+  resize-31x22, box-31x22: the same for a 31-row, 22-column output
   box-n:     the tight half-open box [x0, y0, x1, y1) of the pixels > 0.1 of resize-n,
              computed here with NumPy
 """
@@ -48,6 +49,11 @@ for n in SIDES:
     out["resize-%d" % n] = [round(float(v), 10) for v in r.flatten()]
     ys, xs = np.nonzero(r > INK)
     out["box-%d" % n] = [int(xs.min()), int(ys.min()), int(xs.max()) + 1, int(ys.max()) + 1]
+# One non-square output, so that swapped axes show.
+r = resize(x / 255.0, (31, 22), order=1, mode="edge", anti_aliasing=False, preserve_range=True)
+out["resize-31x22"] = [round(float(v), 10) for v in r.flatten()]
+ys, xs = np.nonzero(r > INK)
+out["box-31x22"] = [int(xs.min()), int(ys.min()), int(xs.max()) + 1, int(ys.max()) + 1]
 with open(os.path.join(here, "scene", "resize.json"), "w") as f:
     json.dump(out, f)
 print(out["generator"])

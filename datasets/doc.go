@@ -146,6 +146,43 @@
 // depend on the number of workers; SuiteSeed is the seed of the reference
 // suite that striate and the LeNet-5 peer are scored on.
 //
+// # Scenes
+//
+// A Scene is a grey frame (Pix[y*W+x] in [0,1]) with its ground truth: one
+// SceneItem per item, holding the class and the tight box of the item's ink
+// (pixels above InkLevel = 0.1 after scaling), in pixels, half-open:
+//
+//	Box = [x0, y0, x1, y1)   columns x0 … x1−1, rows y0 … y1−1   (VOC's inclusive [x0, x1] is [x0, x1+1))
+//
+// SceneBuilder draws seeded frames from one split of a Set: MinItems …
+// MaxItems items (default 1 … 5, or none with probability EmptyFrac), each a
+// random image of the split resampled bilinearly to s·28 px with s uniform in
+// [MinScale, MaxScale] (default 0.8 … 1.6; pixel centres map as in
+// scikit-image's resize, edges repeated), at a uniform random position where
+// its box overlaps every earlier box by at most MaxOverlap (intersection over
+// the smaller box, default 0.1; see Overlap). The belt is Flat (one grey) or
+// Texture (a crop of one of the BeltTextures photos stretched to
+// [0, TextureLevel]); lint is Lint squares of LintSize px cut from random
+// places of other images of the same split. Items and lint are composited
+// with max, v ← max(v, item): bright ink on a dark belt, never darkening
+// what lies beneath. The builder uses exactly the split it is given: build
+// training scenes from a training split and test scenes from a test split.
+// Scene k depends only on (Set, SceneConfig, k).
+//
+// Clutter builds the "cluttered translated MNIST" canvases of Mnih et al.
+// (2014): the image unscaled at a uniform random position of a black square
+// canvas and Fragments squares of FragmentSize px from random places of
+// other random images, by max (Clutter60: 60×60 with four 8×8 fragments;
+// Clutter100: 100×100 with eight).
+//
+// A scene folder holds the frames as image files and one index,
+// scenes.json, listing each frame's file, size and items (class by name, box
+// as above); WriteSceneFolder writes one and ReadSceneFolder reads and checks
+// it strictly, reporting a *SceneFolderError (kinds ErrSceneIndexMissing,
+// ErrSceneIndexMalformed, ErrSceneFrameMissing, ErrSceneFrameBad,
+// ErrSceneBoxOutside, ErrSceneUnknownClass) that names the file, the JSON
+// field and the fix. The layout is spelled out in SceneIndex's documentation.
+//
 // # Batches
 //
 // Set.Batches streams a Set as *Batch values laid out N×1×H×W:
@@ -185,5 +222,6 @@
 //	ITU-R Recommendation BT.601-7 (2011), Studio encoding parameters of digital television.
 //	Y. LeCun, C. Cortes, C. J. C. Burges, The MNIST database of handwritten digits.
 //	B. A. Olshausen, D. J. Field (1997), Sparse coding with an overcomplete basis set: a strategy employed by V1? Vision Research 37(23).
+//	V. Mnih, N. Heess, A. Graves, K. Kavukcuoglu (2014), Recurrent models of visual attention. NIPS 27.
 //	H. Xiao, K. Rasul, R. Vollgraf (2017), Fashion-MNIST: a novel image dataset for benchmarking machine learning algorithms. arXiv:1708.07747.
 package datasets

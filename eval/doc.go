@@ -72,6 +72,28 @@
 // bars and F1/F0, and the filter banks side by side (BankPanel, drawn with
 // AtomMosaic) with the Gabor-fit histograms of learned banks.
 //
+// # Scenes (ScoreScenes)
+//
+// A scanner's detections in whole frames (Detection: box [x0, y0, x1, y1)
+// in pixels, class, score) are scored against the frames' ground truth
+// (datasets.SceneItem) by the PASCAL VOC protocol (Everingham et al. 2010):
+//
+//	IoU(a, b) = area(a ∩ b) / area(a ∪ b),   a match needs IoU ≥ MatchIoU = 0.5
+//
+// Per class, detections are ranked by score and matched greedily, best
+// first, each to the item of its class it overlaps most in its frame if that
+// item is still free (a second detection of an item is a false positive).
+// Recall rₖ = TPₖ/items and precision pₖ = TPₖ/k after the k-th detection
+// give the precision-recall curve and the all-point interpolated AP of VOC
+// from 2010 (VOCAP: the area under p_interp(r) = max{p(r′): r′ ≥ r}), and
+// its mean over classes (mAP); StepAP is the non-interpolated Σ ΔR·P, which
+// equals scikit-learn's average_precision_score on the ranked detections
+// times matched/items (scikit-learn cannot see items that were never
+// detected). Beside them: pooled precision and recall, count accuracy
+// (frames with as many detections as items), recognition accuracy of the
+// items found (matching with classes ignored, then the share given the
+// right class) and false items per empty frame.
+//
 // # Checks against the outside world
 //
 // The Wilson interval and McNemar p-value equal SciPy 1.10.1's
@@ -82,8 +104,10 @@
 // label-efficiency sweeps against closed-form accuracies (Φ(δ√n/σ) for a
 // mean-threshold rule under Gaussian noise, the Bayes limit Φ(Δ/2) for
 // nearest-mean classification); the invariance probe against the known F1/F0
-// of rectified and energy cells. The generator script and its values are in
-// testdata/eval/.
+// of rectified and energy cells; IoU, the VOC matching, AP and mAP against a
+// NumPy port of the VOC2010 devkit (VOCevaldet, VOCap) and the step AP
+// against scikit-learn 1.2.1's average_precision_score, besides hand-worked
+// examples. The generator scripts and their values are in testdata/eval/.
 //
 // # Concurrency
 //

@@ -1,0 +1,635 @@
+package v1layer
+
+import (
+	"fmt"
+	"math"
+	"slices"
+	"sync"
+	"sync/atomic"
+)
+
+// SaliencyConfig sets up bottom-up saliency after Itti, Koch & Niebur
+// (1998, IEEE PAMI 20:1254-1259) on grey frames, built from this package's
+// own front end (see doc.go, "Saliency"). The zero value is the default;
+// each zero field means its own default, whatever else is set.
+type SaliencyConfig struct {
+	// Centres are the centre levels c of the frame's pyramid (level k has
+	// 2^−k of the frame's side). Default [1, 2, 3]: with the default
+	// kernels these see blobs and bars of about 4 to 45 px, the size of
+	// the project's items; the model's own [2, 3, 4] suits 640×480
+	// scenes with larger objects. Increasing, at most 4 levels, each in [0, 6].
+	Centres []int `json:"centres,omitempty"`
+	// Deltas δ set the surround levels s = c + δ. Default [3, 4], the
+	// model's. Increasing, at most 3, each in [1, 5].
+	Deltas []int `json:"deltas,omitempty"`
+	// Level is the pyramid level of the saliency map, where the
+	// across-scale addition lands. Default: the coarsest centre level (the
+	// model's choice, level 4 for its centres). Range [1, 8].
+	Level int `json:"level,omitempty"`
+	// DoGSigma is the centre σ of the on/off DoG at every level, in pixels
+	// of that level. Default 1 (the front end's finest DoG); range [0.5, 4].
+	DoGSigma float64 `json:"dog_sigma,omitempty"`
+	// Orientations of the complex cells (quadrature energy of a Gabor
+	// pair), θ_k = k·π/n. Default 4 (0°, 45°, 90°, 135°, as in the model);
+	// range [1, 16].
+	Orientations int `json:"orientations,omitempty"`
+	// Wavelength λ of the Gabor pairs at every level, in pixels of that
+	// level. Default 4 (the front end's finest); range [2, 16].
+	Wavelength float64 `json:"wavelength,omitempty"`
+	// MinPeak: local maxima below MinPeak·M do not count as "other local
+	// maxima" in N(·), so that the ripples of an empty background do not
+	// dilute the mean of the real peaks (common practice; the paper does
+	// not say). Default 0.1; range (0, 1).
+	MinPeak float64 `json:"min_peak,omitempty"`
+}
+
+// Limits on the pyramid levels a SaliencyConfig may name.
+const (
+	maxSalLevel   = 8 // the model's deepest level (1:256)
+	maxSalCentres = 4
+	maxSalDeltas  = 3
+)
+
+// Below these maxima a map is treated as empty: N(·) would otherwise
+// stretch float32 rounding to the full range. Feature maps are in the
+// front end's response units, where a step of one grey level (1/255)
+// gives about 1e-3 at the DoG and rounding on a uniform frame about 1e-7;
+// conspicuity maps are sums of N(·) outputs, dimensionless in [0, n].
+const (
+	salFeatureFloor = 1e-5
+	salMapFloor     = 1e-6
+)
+
+func (c SaliencyConfig) withDefaults() SaliencyConfig {
+	if len(c.Centres) == 0 {
+		c.Centres = []int{1, 2, 3}
+	} else {
+		c.Centres = slices.Clone(c.Centres)
+	}
+	if len(c.Deltas) == 0 {
+		c.Deltas = []int{3, 4}
+	} else {
+		c.Deltas = slices.Clone(c.Deltas)
+	}
+	if c.Level == 0 && len(c.Centres) > 0 {
+		c.Level = c.Centres[len(c.Centres)-1]
+	}
+	if c.DoGSigma == 0 {
+		c.DoGSigma = 1
+	}
+	if c.Orientations == 0 {
+		c.Orientations = 4
+	}
+	if c.Wavelength == 0 {
+		c.Wavelength = 4
+	}
+	if c.MinPeak == 0 {
+		c.MinPeak = 0.1
+	}
+	return c
+}
+
+func (c SaliencyConfig) validate() error {
+	if len(c.Centres) > maxSalCentres {
+		return fmt.Errorf("v1layer: SaliencyConfig.Centres has %d levels; at most %d (default [1 2 3])", len(c.Centres), maxSalCentres)
+	}
+	for i, v := range c.Centres {
+		if v < 0 || v > 6 || (i > 0 && v <= c.Centres[i-1]) {
+			return fmt.Errorf("v1layer: SaliencyConfig.Centres %v; want increasing levels in [0,6] (default [1 2 3])", c.Centres)
+		}
+	}
+	if len(c.Deltas) > maxSalDeltas {
+		return fmt.Errorf("v1layer: SaliencyConfig.Deltas has %d offsets; at most %d (default [3 4])", len(c.Deltas), maxSalDeltas)
+	}
+	for i, v := range c.Deltas {
+		if v < 1 || v > 5 || (i > 0 && v <= c.Deltas[i-1]) {
+			return fmt.Errorf("v1layer: SaliencyConfig.Deltas %v; want increasing offsets in [1,5] (default [3 4])", c.Deltas)
+		}
+	}
+	if c.Level < 1 || c.Level > maxSalLevel {
+		return fmt.Errorf("v1layer: SaliencyConfig.Level %d out of range [1,%d]; the default is the coarsest centre level", c.Level, maxSalLevel)
+	}
+	if !(c.DoGSigma >= 0.5 && c.DoGSigma <= 4) {
+		return fmt.Errorf("v1layer: SaliencyConfig.DoGSigma %g px out of range [0.5,4]; 1 is the default", c.DoGSigma)
+	}
+	if c.Orientations < 1 || c.Orientations > 16 {
+		return fmt.Errorf("v1layer: SaliencyConfig.Orientations %d out of range [1,16]; 4 is the default", c.Orientations)
+	}
+	if !(c.Wavelength >= 2 && c.Wavelength <= 16) {
+		return fmt.Errorf("v1layer: SaliencyConfig.Wavelength %g px out of range [2,16] (2 px is the Nyquist limit); 4 is the default", c.Wavelength)
+	}
+	if !(c.MinPeak > 0 && c.MinPeak < 1) {
+		return fmt.Errorf("v1layer: SaliencyConfig.MinPeak %g out of range (0,1); 0.1 is the default", c.MinPeak)
+	}
+	return nil
+}
+
+// Saliency is the immutable plan built by NewSaliency: one front end per
+// centre level (each keeps its own scratch for its level's size) and a
+// scratch pool. It is safe for concurrent use.
+type Saliency struct {
+	cfg     SaliencyConfig
+	fes     []*FrontEnd // per centre level
+	nDoG    int         // leading front-end channels that are DoG on/off
+	deep    int         // deepest pyramid level any map reaches
+	scratch sync.Pool
+}
+
+// NewSaliency validates cfg once and builds the saliency plan.
+func NewSaliency(cfg SaliencyConfig) (*Saliency, error) {
+	cfg = cfg.withDefaults()
+	if err := cfg.validate(); err != nil {
+		return nil, err
+	}
+	s := &Saliency{cfg: cfg}
+	fc := Config{
+		DoG:    DoGConfig{Sigmas: []float64{cfg.DoGSigma}},
+		Gabor:  GaborConfig{Orientations: cfg.Orientations, Wavelength: cfg.Wavelength, Scales: 1},
+		Pool:   PoolConfig{Size: 1, Stride: 1},
+		Border: BorderReflect,
+	}
+	for range cfg.Centres {
+		fe, err := New(fc)
+		if err != nil {
+			return nil, fmt.Errorf("v1layer: SaliencyConfig: %w", err)
+		}
+		s.fes = append(s.fes, fe)
+	}
+	for _, ch := range s.fes[0].Channels() {
+		if ch.Kind == KindDoG {
+			s.nDoG++
+		}
+	}
+	s.deep = max(cfg.Centres[len(cfg.Centres)-1]+cfg.Deltas[len(cfg.Deltas)-1], cfg.Level)
+	return s, nil
+}
+
+// Config returns the configuration with every default filled in.
+func (s *Saliency) Config() SaliencyConfig {
+	c := s.cfg
+	c.Centres, c.Deltas = slices.Clone(c.Centres), slices.Clone(c.Deltas)
+	return c
+}
+
+// halve is the side of the next pyramid level: ceil(n/2).
+func halve(n int) int { return (n + 1) / 2 }
+
+// levelSide returns the side of pyramid level k of an n-pixel side.
+func levelSide(n, k int) int {
+	for ; k > 0; k-- {
+		n = halve(n)
+	}
+	return n
+}
+
+// MinSide is the smallest frame side accepted: the coarsest centre level
+// must still hold the front end's largest kernel (FrontEnd.MinSide).
+func (s *Saliency) MinSide() int {
+	m := s.fes[0].MinSide()
+	c := s.cfg.Centres[len(s.cfg.Centres)-1]
+	return (m-1)<<c + 1
+}
+
+// Scale is the frame pixels per map pixel along each axis, 2^Level. Map
+// pixel (i, j) is centred on frame position x = (j+0.5)·Scale − 0.5,
+// y = (i+0.5)·Scale − 0.5 (pixel centres at integers).
+func (s *Saliency) Scale() int { return 1 << s.cfg.Level }
+
+// MapShape returns the saliency map's size for an h×w frame, or an error
+// if the frame is too small or too large.
+func (s *Saliency) MapShape(h, w int) (mh, mw int, err error) {
+	if m := s.MinSide(); h < m || w < m {
+		c := s.cfg.Centres[len(s.cfg.Centres)-1]
+		return 0, 0, fmt.Errorf("v1layer: saliency frame %d×%d is smaller than %d×%d, the minimum for centre level %d (its %d×%d image must hold the %d-px kernels); use a larger frame, or lower SaliencyConfig.Centres",
+			h, w, m, m, c, levelSide(h, c), levelSide(w, c), 2*s.fes[0].MinSide()-1)
+	}
+	if h > MaxSide || w > MaxSide {
+		return 0, 0, fmt.Errorf("v1layer: saliency frame %d×%d is larger than the %d px limit (MaxSide); downscale it first", h, w, MaxSide)
+	}
+	return levelSide(h, s.cfg.Level), levelSide(w, s.cfg.Level), nil
+}
+
+// salScratch holds one call's buffers for one frame size.
+type salScratch struct {
+	h, w    int
+	lh, lw  []int       // level sizes, levels 0..deep
+	pyr     [][]float32 // frame pyramid, levels 1..max centre (pyr[0] unused)
+	feat    []Maps      // front-end maps per centre
+	contrib [][]float32 // per (centre, channel): its map-level contribution
+	inten   []float32
+	orient  []float32
+	theta   []float32
+	sal     []float32
+	tmp     []float32
+	work    []*salWork
+}
+
+// salWork is one worker's buffers for the centre-surround stage.
+type salWork struct {
+	chain [][]float32 // a feature map's pyramid, levels c..deep
+	sur   []float32   // a surround expanded to level c
+	acc   []float32   // Σ over δ of N(|F ⊖ surround|) at level c
+	tmp   []float32
+	idx   []int32 // interpolation indices and weights (expand)
+	wt    []float32
+}
+
+func growF(b []float32, n int) []float32 {
+	if cap(b) < n {
+		return make([]float32, n)
+	}
+	return b[:n]
+}
+
+func (s *Saliency) getScratch(h, w, workers int) *salScratch {
+	sc, _ := s.scratch.Get().(*salScratch)
+	if sc == nil {
+		sc = &salScratch{}
+	}
+	cfg := &s.cfg
+	if sc.h != h || sc.w != w {
+		sc.lh, sc.lw = sc.lh[:0], sc.lw[:0]
+		for k := 0; k <= s.deep; k++ {
+			sc.lh, sc.lw = append(sc.lh, levelSide(h, k)), append(sc.lw, levelSide(w, k))
+		}
+		top := cfg.Centres[len(cfg.Centres)-1]
+		if len(sc.pyr) != top+1 {
+			sc.pyr = make([][]float32, top+1)
+		}
+		for k := 1; k <= top; k++ {
+			sc.pyr[k] = growF(sc.pyr[k], sc.lh[k]*sc.lw[k])
+		}
+		if len(sc.feat) != len(cfg.Centres) {
+			sc.feat = make([]Maps, len(cfg.Centres))
+		}
+		nc := len(s.fes[0].Channels())
+		if len(sc.contrib) != len(cfg.Centres)*nc {
+			sc.contrib = make([][]float32, len(cfg.Centres)*nc)
+		}
+		mn := sc.lh[cfg.Level] * sc.lw[cfg.Level]
+		for i := range sc.contrib {
+			sc.contrib[i] = growF(sc.contrib[i], mn)
+		}
+		sc.inten, sc.orient = growF(sc.inten, mn), growF(sc.orient, mn)
+		sc.theta, sc.sal = growF(sc.theta, mn), growF(sc.sal, mn)
+		sc.tmp = growF(sc.tmp, h*w)
+		for _, wk := range sc.work {
+			s.sizeWork(wk, sc)
+		}
+		sc.h, sc.w = h, w
+	}
+	for len(sc.work) < workers {
+		wk := &salWork{}
+		s.sizeWork(wk, sc)
+		sc.work = append(sc.work, wk)
+	}
+	return sc
+}
+
+// sizeWork sizes a worker's buffers for the finest level it works on: the
+// finest centre level or the map level, whichever is finer.
+func (s *Saliency) sizeWork(wk *salWork, sc *salScratch) {
+	c0 := min(s.cfg.Centres[0], s.cfg.Level)
+	n := sc.lh[c0] * sc.lw[c0]
+	if len(wk.chain) != s.deep+1 {
+		wk.chain = make([][]float32, s.deep+1)
+	}
+	for k := c0 + 1; k <= s.deep; k++ {
+		wk.chain[k] = growF(wk.chain[k], sc.lh[k]*sc.lw[k])
+	}
+	wk.sur, wk.acc, wk.tmp = growF(wk.sur, n), growF(wk.acc, n), growF(wk.tmp, n)
+	side := max(sc.lh[c0], sc.lw[c0])
+	if cap(wk.idx) < side {
+		wk.idx, wk.wt = make([]int32, side), make([]float32, side)
+	}
+	wk.idx, wk.wt = wk.idx[:side], wk.wt[:side]
+}
+
+// Map writes the saliency map of the h×w row-major grey frame img (values
+// in [0,1]) to dst as one channel of MapShape(h, w), resizing it:
+//
+//	S = (N(Ī) + N(Ō))/2
+//
+// (doc.go, "Saliency", gives Ī, Ō and N). The work is spread over workers
+// goroutines (≤ 0 means 1); the result is bit-identical for any number.
+// It returns an error, and leaves dst alone, if the frame is too small
+// or too large for MapShape or img holds fewer than h·w pixels. It is safe
+// for concurrent use and allocates nothing once scratch for the frame size
+// and worker count exists.
+func (s *Saliency) Map(dst *Maps, img []float32, h, w, workers int) error {
+	mh, mw, err := s.MapShape(h, w)
+	if err != nil {
+		return err
+	}
+	if len(img) < h*w {
+		return fmt.Errorf("v1layer: saliency frame has %d pixels, want %d×%d = %d; pass the whole row-major frame", len(img), h, w, h*w)
+	}
+	workers = max(1, workers)
+	cfg := &s.cfg
+	sc := s.getScratch(h, w, workers)
+	defer s.scratch.Put(sc)
+
+	// The frame's pyramid, up to the coarsest centre level.
+	prev := img[:h*w]
+	for k := 1; k < len(sc.pyr); k++ {
+		pyrReduce(sc.pyr[k], prev, sc.lh[k-1], sc.lw[k-1], sc.tmp)
+		prev = sc.pyr[k]
+	}
+	level := func(k int) []float32 {
+		if k == 0 {
+			return img[:h*w]
+		}
+		return sc.pyr[k]
+	}
+
+	// Front-end maps at each centre level, finest (largest) first.
+	run(workers, len(cfg.Centres), func(_, i int) {
+		c := cfg.Centres[i]
+		s.fes[i].Apply(&sc.feat[i], level(c), sc.lh[c], sc.lw[c])
+	})
+
+	// Centre-surround maps, N(·), across-scale addition: one job per
+	// (centre, channel), each writing its own contribution.
+	nc := sc.feat[0].C
+	run(workers, len(cfg.Centres)*nc, func(wi, j int) {
+		i, ch := j/nc, j%nc
+		s.centreSurround(sc.contrib[j], sc, sc.work[wi], i, ch)
+	})
+
+	// Conspicuity maps and their combination, in a fixed order.
+	mn := mh * mw
+	inten, orient, theta, sal := sc.inten[:mn], sc.orient[:mn], sc.theta[:mn], sc.sal[:mn]
+	clear(inten)
+	clear(orient)
+	for i := range cfg.Centres {
+		for ch := 0; ch < s.nDoG; ch++ {
+			addTo(inten, sc.contrib[i*nc+ch])
+		}
+	}
+	for ch := s.nDoG; ch < nc; ch++ {
+		clear(theta)
+		for i := range cfg.Centres {
+			addTo(theta, sc.contrib[i*nc+ch])
+		}
+		salNorm(theta, mh, mw, cfg.MinPeak, salMapFloor)
+		addTo(orient, theta)
+	}
+	salNorm(inten, mh, mw, cfg.MinPeak, salMapFloor)
+	salNorm(orient, mh, mw, cfg.MinPeak, salMapFloor)
+	for k := range sal {
+		sal[k] = (inten[k] + orient[k]) / 2
+	}
+	dst.Resize(1, mh, mw)
+	copy(dst.Pix, sal)
+	return nil
+}
+
+// centreSurround writes to out (map level) the across-scale sum over δ of
+// N(|F(c) ⊖ F(c+δ)|) for channel ch of centre i, where F(c+δ) is the
+// feature map reduced δ levels.
+func (s *Saliency) centreSurround(out []float32, sc *salScratch, wk *salWork, i, ch int) {
+	cfg := &s.cfg
+	c := cfg.Centres[i]
+	hc, wc := sc.lh[c], sc.lw[c]
+	n := hc * wc
+	f := sc.feat[i].Channel(ch)
+	last := c + cfg.Deltas[len(cfg.Deltas)-1]
+	for k, src := c+1, f; k <= last; k++ {
+		pyrReduce(wk.chain[k], src, sc.lh[k-1], sc.lw[k-1], wk.tmp)
+		src = wk.chain[k]
+	}
+	acc := wk.acc[:n]
+	clear(acc)
+	for _, d := range cfg.Deltas {
+		sur := wk.sur[:n]
+		pyrExpand(sur, hc, wc, wk.chain[c+d], sc.lh[c+d], sc.lw[c+d], d, wk)
+		for k, v := range f {
+			sur[k] = float32(math.Abs(float64(v - sur[k])))
+		}
+		salNorm(sur, hc, wc, cfg.MinPeak, salFeatureFloor)
+		addTo(acc, sur)
+	}
+	// Across-scale addition: bring the sum to the map level.
+	L := cfg.Level
+	switch {
+	case c == L:
+		copy(out, acc)
+	case c < L:
+		src := acc
+		for k := c + 1; k <= L; k++ {
+			dstk := wk.chain[k] // the chain's buffers are free again
+			if k == L {
+				dstk = out
+			}
+			pyrReduce(dstk, src, sc.lh[k-1], sc.lw[k-1], wk.tmp)
+			src = dstk
+		}
+	default:
+		pyrExpand(out, sc.lh[L], sc.lw[L], acc, hc, wc, c-L, wk)
+	}
+}
+
+func addTo(dst, src []float32) {
+	src = src[:len(dst)]
+	for k, v := range src {
+		dst[k] += v
+	}
+}
+
+// run calls job(worker, j) for j = 0..n−1 over up to workers goroutines.
+func run(workers, n int, job func(wi, j int)) {
+	workers = min(workers, n)
+	if workers <= 1 {
+		for j := 0; j < n; j++ {
+			job(0, j)
+		}
+		return
+	}
+	var next atomic.Int64
+	var wg sync.WaitGroup
+	for wi := 0; wi < workers; wi++ {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			for {
+				j := int(next.Add(1) - 1)
+				if j >= n {
+					return
+				}
+				job(wi, j)
+			}
+		}()
+	}
+	wg.Wait()
+}
+
+// pyrTaps is the 6-tap binomial [1 5 10 10 5 1]/32 of the pyramid, a
+// sampled Gaussian of variance 5/4 (px of the finer level).
+var pyrTaps = [6]float32{1. / 32, 5. / 32, 10. / 32, 10. / 32, 5. / 32, 1. / 32}
+
+// pyrReduce writes the next pyramid level of the h×w map src to dst
+// (halve(h)×halve(w)): the binomial pyrTaps centred between samples 2i and
+// 2i+1, so coarse sample i sits at fine position 2i+0.5, with half-sample
+// reflection at the edges. Every level then keeps the frame's mirror
+// symmetry (exactly when the sides are divisible by 2^level). tmp holds
+// h·halve(w) values.
+func pyrReduce(dst, src []float32, h, w int, tmp []float32) {
+	oh, ow := halve(h), halve(w)
+	t := tmp[:h*ow]
+	for y := 0; y < h; y++ {
+		row := src[y*w : y*w+w]
+		out := t[y*ow : y*ow+ow]
+		for j := range out {
+			x0 := 2*j - 2
+			var v float32
+			if x0 >= 0 && x0+5 < w {
+				r := row[x0 : x0+6]
+				v = pyrTaps[0]*r[0] + pyrTaps[1]*r[1] + pyrTaps[2]*r[2] + pyrTaps[3]*r[3] + pyrTaps[4]*r[4] + pyrTaps[5]*r[5]
+			} else {
+				for k, c := range pyrTaps {
+					v += c * row[reflectAny(x0+k, w)]
+				}
+			}
+			out[j] = v
+		}
+	}
+	for i := 0; i < oh; i++ {
+		out := dst[i*ow : i*ow+ow]
+		clear(out)
+		for k, c := range pyrTaps {
+			in := t[reflectAny(2*i-2+k, h)*ow:][:ow]
+			for j, v := range in {
+				out[j] += c * v
+			}
+		}
+	}
+}
+
+// pyrExpand writes to dst (h×w, level c) the bilinear interpolation of the
+// map src (sh×sw, level c+d): level-c pixel i sits at level-(c+d)
+// position (i+0.5)/2^d − 0.5, the grid of pyrReduce; beyond the outermost
+// samples the value is held, which is what half-sample reflection gives
+// for linear interpolation.
+func pyrExpand(dst []float32, h, w int, src []float32, sh, sw, d int, wk *salWork) {
+	f := float64(int(1) << d)
+	weights := func(n, sn int) {
+		for i := 0; i < n; i++ {
+			p := (float64(i)+0.5)/f - 0.5
+			i0 := int(math.Floor(p))
+			a := p - float64(i0)
+			if i0 < 0 {
+				i0, a = 0, 0
+			}
+			if i0 >= sn-1 {
+				i0, a = sn-1, 0
+			}
+			wk.idx[i], wk.wt[i] = int32(i0), float32(a)
+		}
+	}
+	// Along rows into tmp (sh×w), then along columns into dst.
+	t := wk.tmp[:sh*w]
+	weights(w, sw)
+	for y := 0; y < sh; y++ {
+		row := src[y*sw : y*sw+sw]
+		out := t[y*w : y*w+w]
+		for x := range out {
+			i0, a := wk.idx[x], wk.wt[x]
+			v := row[i0]
+			if a != 0 {
+				v += a * (row[i0+1] - v)
+			}
+			out[x] = v
+		}
+	}
+	weights(h, sh)
+	for y := 0; y < h; y++ {
+		i0, a := int(wk.idx[y]), wk.wt[y]
+		out := dst[y*w : y*w+w]
+		r0 := t[i0*w : i0*w+w]
+		if a == 0 {
+			copy(out, r0)
+			continue
+		}
+		r1 := t[(i0+1)*w : (i0+1)*w+w]
+		for x := range out {
+			out[x] = r0[x] + a*(r1[x]-r0[x])
+		}
+	}
+}
+
+// salNorm applies the normalisation operator N(·) of Itti, Koch & Niebur
+// (1998) in place to the h×w map m (values ≥ 0):
+//
+//  1. scale the map to the fixed range [0, M], M = 1 (m /= max m; zero
+//     stays zero, so the ratio of any two values is kept);
+//  2. find the global maximum M and the mean m̄ of the other local maxima,
+//     those at least minPeak·M (m̄ = 0 when there are none);
+//  3. multiply the map by (M − m̄)².
+//
+// A local maximum is a pixel greater than its 8-neighbours that come
+// before it in row-major order and not less than those after, so an
+// equal-valued pair or plateau counts once. A map whose maximum is at most
+// floor is cleared (it holds only rounding).
+func salNorm(m []float32, h, w int, minPeak, floor float64) {
+	m = m[:h*w]
+	var top float32
+	for _, v := range m {
+		top = max(top, v)
+	}
+	if !(float64(top) > floor) {
+		clear(m)
+		return
+	}
+	thr := float32(minPeak) * top
+	var sum float64
+	n := 0
+	seen := false
+	for y := 0; y < h; y++ {
+		for x := 0; x < w; x++ {
+			v := m[y*w+x]
+			if v < thr || !isLocalMax(m, h, w, y, x, v) {
+				continue
+			}
+			if v == top && !seen {
+				seen = true
+				continue
+			}
+			sum += float64(v)
+			n++
+		}
+	}
+	var mbar float64
+	if n > 0 {
+		mbar = sum / float64(n) / float64(top)
+	}
+	g := (1 - mbar) * (1 - mbar) / float64(top)
+	for k, v := range m {
+		m[k] = float32(float64(v) * g)
+	}
+}
+
+// isLocalMax reports whether v = m[y*w+x] is greater than its earlier and
+// not less than its later 8-neighbours (row-major order).
+func isLocalMax(m []float32, h, w, y, x int, v float32) bool {
+	for dy := -1; dy <= 1; dy++ {
+		yy := y + dy
+		if yy < 0 || yy >= h {
+			continue
+		}
+		for dx := -1; dx <= 1; dx++ {
+			xx := x + dx
+			if xx < 0 || xx >= w || (dx == 0 && dy == 0) {
+				continue
+			}
+			u := m[yy*w+xx]
+			if dy < 0 || (dy == 0 && dx < 0) {
+				if u >= v {
+					return false
+				}
+			} else if u > v {
+				return false
+			}
+		}
+	}
+	return true
+}

@@ -330,31 +330,16 @@ func (s *Saliency) Map(dst *Maps, img []float32, h, w, workers int) error {
 	defer s.scratch.Put(sc)
 
 	// The frame's pyramid, up to the coarsest centre level.
-	prev := img[:h*w]
+	sc.pyr[0] = img[:h*w]
+	defer func() { sc.pyr[0] = nil }() // keep no reference to the caller's frame
 	for k := 1; k < len(sc.pyr); k++ {
-		pyrReduce(sc.pyr[k], prev, sc.lh[k-1], sc.lw[k-1], sc.tmp)
-		prev = sc.pyr[k]
+		pyrReduce(sc.pyr[k], sc.pyr[k-1], sc.lh[k-1], sc.lw[k-1], sc.tmp)
 	}
-	level := func(k int) []float32 {
-		if k == 0 {
-			return img[:h*w]
-		}
-		return sc.pyr[k]
-	}
-
-	// Front-end maps at each centre level, finest (largest) first.
-	run(workers, len(cfg.Centres), func(_, i int) {
-		c := cfg.Centres[i]
-		s.fes[i].Apply(&sc.feat[i], level(c), sc.lh[c], sc.lw[c])
-	})
-
-	// Centre-surround maps, N(·), across-scale addition: one job per
-	// (centre, channel), each writing its own contribution.
+	// Front-end maps at each centre level, then the centre-surround maps,
+	// N(·) and across-scale addition, one job per (centre, channel).
+	s.spread(sc, stageFrontEnd, len(cfg.Centres), workers)
 	nc := sc.feat[0].C
-	run(workers, len(cfg.Centres)*nc, func(wi, j int) {
-		i, ch := j/nc, j%nc
-		s.centreSurround(sc.contrib[j], sc, sc.work[wi], i, ch)
-	})
+	s.spread(sc, stageCentreSurround, len(cfg.Centres)*nc, workers)
 
 	// Conspicuity maps and their combination, in a fixed order.
 	mn := mh * mw
@@ -436,12 +421,31 @@ func addTo(dst, src []float32) {
 	}
 }
 
-// run calls job(worker, j) for j = 0..n−1 over up to workers goroutines.
-func run(workers, n int, job func(wi, j int)) {
+// The stages Map spreads over workers.
+const (
+	stageFrontEnd       = iota // job i: the front end at centre level i
+	stageCentreSurround        // job j: centre j/C, channel j%C (centreSurround)
+)
+
+// do runs job j of a stage as worker wi. Every job writes only its own
+// buffers (its centre's maps, or its contribution), so the order in which
+// jobs run does not change any value.
+func (s *Saliency) do(sc *salScratch, stage, wi, j int) {
+	if stage == stageFrontEnd {
+		c := s.cfg.Centres[j]
+		s.fes[j].Apply(&sc.feat[j], sc.pyr[c], sc.lh[c], sc.lw[c])
+		return
+	}
+	nc := sc.feat[0].C
+	s.centreSurround(sc.contrib[j], sc, sc.work[wi], j/nc, j%nc)
+}
+
+// spread runs jobs 0..n−1 of a stage over up to workers goroutines.
+func (s *Saliency) spread(sc *salScratch, stage, n, workers int) {
 	workers = min(workers, n)
 	if workers <= 1 {
 		for j := 0; j < n; j++ {
-			job(0, j)
+			s.do(sc, stage, 0, j)
 		}
 		return
 	}
@@ -456,7 +460,7 @@ func run(workers, n int, job func(wi, j int)) {
 				if j >= n {
 					return
 				}
-				job(wi, j)
+				s.do(sc, stage, wi, j)
 			}
 		}()
 	}
@@ -568,15 +572,17 @@ func pyrExpand(dst []float32, h, w int, src []float32, sh, sw, d int, wk *salWor
 //
 // A local maximum is a pixel greater than its 8-neighbours that come
 // before it in row-major order and not less than those after, so an
-// equal-valued pair or plateau counts once. A map whose maximum is at most
-// floor is cleared (it holds only rounding).
+// equal-valued pair or plateau counts once. A constant map is cleared: its
+// maximum is everywhere, so every location is one of the "other" maxima
+// (and a map with ripples of rounding size has m̄ → M). A map whose
+// maximum is at most floor is cleared too (it holds only rounding).
 func salNorm(m []float32, h, w int, minPeak, floor float64) {
 	m = m[:h*w]
-	var top float32
+	top, low := m[0], m[0]
 	for _, v := range m {
-		top = max(top, v)
+		top, low = max(top, v), min(low, v)
 	}
-	if !(float64(top) > floor) {
+	if !(float64(top) > floor) || top == low {
 		clear(m)
 		return
 	}

@@ -60,6 +60,10 @@ const (
 	salMapFloor     = 1e-6
 )
 
+// salFlat is the relative spread below which N(·) treats a map as
+// constant: 100× the ~1e-6 relative rounding the float32 stages leave.
+const salFlat = 1e-4
+
 func (c SaliencyConfig) withDefaults() SaliencyConfig {
 	if len(c.Centres) == 0 {
 		c.Centres = []int{1, 2, 3}
@@ -388,11 +392,21 @@ func (s *Saliency) centreSurround(out []float32, sc *salScratch, wk *salWork, i,
 	for _, d := range cfg.Deltas {
 		sur := wk.sur[:n]
 		pyrExpand(sur, hc, wc, wk.chain[c+d], sc.lh[c+d], sc.lw[c+d], d, wk)
+		sur = sur[:len(f)]
+		top, low := float32(0), float32(math.Inf(1))
 		for k, v := range f {
-			sur[k] = float32(math.Abs(float64(v - sur[k])))
+			d := v - sur[k]
+			d = max(d, -d)
+			sur[k] = d
+			top, low = max(top, d), min(low, d)
 		}
-		salNorm(sur, hc, wc, cfg.MinPeak, salFeatureFloor)
-		addTo(acc, sur)
+		g := normGain(sur, hc, wc, top, low, cfg.MinPeak, salFeatureFloor)
+		if g == 0 {
+			continue
+		}
+		for k, v := range sur {
+			acc[k] += v * g
+		}
 	}
 	// Across-scale addition: bring the sum to the map level.
 	L := cfg.Level
@@ -480,31 +494,39 @@ var pyrTaps = [6]float32{1. / 32, 5. / 32, 10. / 32, 10. / 32, 5. / 32, 1. / 32}
 func pyrReduce(dst, src []float32, h, w int, tmp []float32) {
 	oh, ow := halve(h), halve(w)
 	t := tmp[:h*ow]
+	c0, c1, c2 := pyrTaps[0], pyrTaps[1], pyrTaps[2]
+	// Outputs j in [j0, j1) read 2j−2 .. 2j+3 inside the row.
+	j0, j1 := 1, max(1, (w-4)/2+1)
+	if w < 6 {
+		j0, j1 = ow, ow
+	}
 	for y := 0; y < h; y++ {
 		row := src[y*w : y*w+w]
 		out := t[y*ow : y*ow+ow]
+		for j := j0; j < j1; j++ {
+			r := row[2*j-2 : 2*j+4 : 2*j+4]
+			out[j] = c0*(r[0]+r[5]) + c1*(r[1]+r[4]) + c2*(r[2]+r[3])
+		}
 		for j := range out {
-			x0 := 2*j - 2
+			if j >= j0 && j < j1 {
+				continue
+			}
 			var v float32
-			if x0 >= 0 && x0+5 < w {
-				r := row[x0 : x0+6]
-				v = pyrTaps[0]*r[0] + pyrTaps[1]*r[1] + pyrTaps[2]*r[2] + pyrTaps[3]*r[3] + pyrTaps[4]*r[4] + pyrTaps[5]*r[5]
-			} else {
-				for k, c := range pyrTaps {
-					v += c * row[reflectAny(x0+k, w)]
-				}
+			for k, c := range pyrTaps {
+				v += c * row[reflectAny(2*j-2+k, w)]
 			}
 			out[j] = v
 		}
 	}
 	for i := 0; i < oh; i++ {
 		out := dst[i*ow : i*ow+ow]
-		clear(out)
-		for k, c := range pyrTaps {
-			in := t[reflectAny(2*i-2+k, h)*ow:][:ow]
-			for j, v := range in {
-				out[j] += c * v
-			}
+		var r [6][]float32
+		for k := range r {
+			r[k] = t[reflectAny(2*i-2+k, h)*ow:][:ow]
+		}
+		r0, r1, r2, r3, r4, r5 := r[0][:len(out)], r[1][:len(out)], r[2][:len(out)], r[3][:len(out)], r[4][:len(out)], r[5][:len(out)]
+		for j := range out {
+			out[j] = c0*(r0[j]+r5[j]) + c1*(r1[j]+r4[j]) + c2*(r2[j]+r3[j])
 		}
 	}
 }
@@ -572,28 +594,53 @@ func pyrExpand(dst []float32, h, w int, src []float32, sh, sw, d int, wk *salWor
 //
 // A local maximum is a pixel greater than its 8-neighbours that come
 // before it in row-major order and not less than those after, so an
-// equal-valued pair or plateau counts once. A constant map is cleared: its
-// maximum is everywhere, so every location is one of the "other" maxima
-// (and a map with ripples of rounding size has m̄ → M). A map whose
-// maximum is at most floor is cleared too (it holds only rounding).
+// equal-valued pair or plateau counts once. A flat map, one whose values
+// all lie within salFlat·M of M, is cleared: its maximum is everywhere, so
+// every location is one of the "other" maxima (m̄ = M), while counting
+// the maxima of its rounding ripples would give any factor at all. A map
+// whose maximum is at most floor is cleared too (it holds only rounding).
 func salNorm(m []float32, h, w int, minPeak, floor float64) {
 	m = m[:h*w]
 	top, low := m[0], m[0]
 	for _, v := range m {
 		top, low = max(top, v), min(low, v)
 	}
-	if !(float64(top) > floor) || top == low {
-		clear(m)
-		return
+	g := normGain(m, h, w, top, low, minPeak, floor)
+	for k, v := range m {
+		m[k] = v * g
+	}
+}
+
+// normGain returns the factor (M − m̄)²/max by which N(·) multiplies the
+// h×w map m, whose largest and smallest values are top and low; 0 for a
+// map N clears (see salNorm).
+func normGain(m []float32, h, w int, top, low float32, minPeak, floor float64) float32 {
+	if !(float64(top) > floor) || top-low <= salFlat*top {
+		return 0
 	}
 	thr := float32(minPeak) * top
 	var sum float64
 	n := 0
 	seen := false
 	for y := 0; y < h; y++ {
+		inner := y > 0 && y < h-1
 		for x := 0; x < w; x++ {
-			v := m[y*w+x]
-			if v < thr || !isLocalMax(m, h, w, y, x, v) {
+			i := y*w + x
+			v := m[i]
+			if v < thr {
+				continue
+			}
+			if inner && x > 0 && x < w-1 {
+				// The 8-neighbourhood inside the map: earlier ones must be
+				// lower, later ones not higher (isLocalMax, unrolled).
+				if m[i-1] >= v || m[i+1] > v {
+					continue
+				}
+				a, b := m[i-w-1:i-w+2], m[i+w-1:i+w+2]
+				if a[0] >= v || a[1] >= v || a[2] >= v || b[0] > v || b[1] > v || b[2] > v {
+					continue
+				}
+			} else if !isLocalMax(m, h, w, y, x, v) {
 				continue
 			}
 			if v == top && !seen {
@@ -608,10 +655,7 @@ func salNorm(m []float32, h, w int, minPeak, floor float64) {
 	if n > 0 {
 		mbar = sum / float64(n) / float64(top)
 	}
-	g := (1 - mbar) * (1 - mbar) / float64(top)
-	for k, v := range m {
-		m[k] = float32(float64(v) * g)
-	}
+	return float32((1 - mbar) * (1 - mbar) / float64(top))
 }
 
 // isLocalMax reports whether v = m[y*w+x] is greater than its earlier and

@@ -1,11 +1,13 @@
 package v1layer
 
 import (
+	"fmt"
 	"math"
 	"math/rand/v2"
 	"reflect"
 	"strings"
 	"testing"
+	"time"
 )
 
 // drawBar adds a bar of length l and width wd (px) centred on (cx, cy),
@@ -601,5 +603,34 @@ func TestSaliencyAllocatesNothing(t *testing.T) {
 	}
 	if n := testing.AllocsPerRun(5, func() { _ = s.Map(&m, img, 256, 256, 1) }); n != 0 {
 		t.Errorf("Map allocates %.0f times per frame, want 0", n)
+	}
+}
+
+// BenchmarkSaliency times Map with the default configuration on one
+// worker, on seeded busy frames (content does not change the work):
+//
+//	GOEXPERIMENT=simd go test -run XXX -bench Saliency ./v1layer
+func BenchmarkSaliency(b *testing.B) {
+	s, err := NewSaliency(SaliencyConfig{})
+	if err != nil {
+		b.Fatal(err)
+	}
+	for _, hw := range [][2]int{{256, 256}, {480, 640}} {
+		h, w := hw[0], hw[1]
+		img := busyFrame(rand.New(rand.NewPCG(9, 10)), h, w)
+		b.Run(fmt.Sprintf("%dx%d", w, h), func(b *testing.B) {
+			b.ReportAllocs()
+			var m Maps
+			if err := s.Map(&m, img, h, w, 1); err != nil {
+				b.Fatal(err)
+			}
+			b.ResetTimer()
+			start := time.Now()
+			for i := 0; i < b.N; i++ {
+				_ = s.Map(&m, img, h, w, 1)
+			}
+			b.ReportMetric(float64(time.Since(start).Microseconds())/1000/float64(b.N), "ms/frame")
+			sinkMaps = m
+		})
 	}
 }

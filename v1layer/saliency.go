@@ -10,7 +10,7 @@ import (
 
 // SaliencyConfig sets up bottom-up saliency after Itti, Koch & Niebur
 // (1998, IEEE PAMI 20:1254-1259) on grey frames, built from this package's
-// own front end (see doc.go, "Saliency"). The zero value is the default;
+// own front end (see Saliency for the method). The zero value is the default;
 // each zero field means its own default, whatever else is set.
 type SaliencyConfig struct {
 	// Centres are the centre levels c of the frame's pyramid (level k has
@@ -128,9 +128,82 @@ func (c SaliencyConfig) validate() error {
 	return nil
 }
 
-// Saliency is the immutable plan built by NewSaliency: one front end per
-// centre level (each keeps its own scratch for its level's size) and a
-// scratch pool. It is safe for concurrent use.
+// Saliency computes bottom-up saliency maps of grey frames after Itti,
+// Koch & Niebur (1998, "A model of saliency-based visual attention for
+// rapid scene analysis", IEEE PAMI 20:1254-1259) from this package's own
+// front end. Frames are grey, so the model's colour channel is left out
+// and its intensity and orientation channels remain.
+//
+// # Pyramid
+//
+// Level 0 is the frame; level k+1 is level k correlated along rows and
+// columns with the binomial [1 5 10 10 5 1]/32 and sampled every second
+// pixel, centred between samples 2i and 2i+1 (Burt & Adelson 1983's
+// Gaussian pyramid with an even kernel), half-sample reflection at the
+// edges. Level k is ceil(n/2^k) pixels a side and its pixel i lies at
+// frame position (i+0.5)·2^k − 0.5, so every level keeps the frame's
+// mirror symmetry.
+//
+// # Features
+//
+// At each centre level c the front end (New) runs on the level-c image
+// with a reflect border and no pooling, giving the intensity features —
+// the on- and off-centre DoG maps (σ_c = DoGSigma, σ_s = 1.6·σ_c, in
+// pixels of that level) — and the orientation features — the quadrature
+// energy of a Gabor pair (λ = Wavelength, 1 octave) at each of the
+// Orientations orientations. Call them F_c.
+//
+// # Centre-surround differences
+//
+//	F(c, s) = |F_c ⊖ R^(s−c) F_c|,  s = c + δ,  δ ∈ Deltas
+//
+// R is one pyramid step and ⊖ the model's across-scale difference: the
+// coarse map is interpolated (bilinearly, on the grid above) back to level
+// c and subtracted point by point. The model computes its surround
+// feature on the level-s image; here it is the centre's own feature map
+// reduced s−c levels, the local mean of the same feature over a region
+// 2^δ times wider. For the model's intensity channel the two are the same
+// thing (its intensity pyramid is the reduction), and this way the front
+// end's kernels never meet levels too small to hold them (level 7 of a
+// 256-px frame is 2 px wide).
+//
+// # Combination
+//
+// The model's conspicuity and saliency maps without colour, ⊕ being
+// across-scale addition (each map brought to the map level Level — pyramid steps down,
+// bilinear interpolation up — and added point by point):
+//
+//	Ī = ⊕_c ⊕_s [N(F_on(c,s)) + N(F_off(c,s))]
+//	Ō = Σ_θ N(⊕_c ⊕_s N(F_θ(c,s)))
+//	S = (N(Ī) + N(Ō)) / 2
+//
+// N is the model's normalisation operator: scale the map to [0, M],
+// M = 1, by its maximum (zero stays zero); find the global maximum M and
+// the mean m̄ of the other local maxima (those ≥ MinPeak·M); multiply by
+// (M − m̄)². One isolated peak keeps the range, many equal peaks cancel.
+// Maps of rounding size, and maps flat to 1e-4 of their maximum, are
+// cleared. S lies in [0, 1] and is 1 only where one location dominates
+// every map.
+//
+// # Properties
+//
+// A single bar of odd orientation among many pops out; a uniform texture
+// that continues across the frame's edges gives the zero map (every
+// centre-surround map is then periodic or constant, and N sends both to
+// zero); k equal items each hold 1/k of the saliency and pull the peak
+// down; a blank frame gives the zero map. A texture that does not
+// continue across an edge has a seam in its reflection there, which is
+// salient like any other discontinuity: frame edges of a textured belt
+// stand out.
+//
+// # Sizes
+//
+// With the defaults (Centres [1 2 3], Deltas [3 4], Level 3) the map has
+// one pixel per 8×8 frame pixels, and a frame must be at least 57 px a
+// side so that level 3 holds the 15-px Gabor kernels (MinSide).
+//
+// A Saliency is immutable and safe for concurrent use; Map spreads one
+// frame over any number of workers with bit-identical results.
 type Saliency struct {
 	cfg     SaliencyConfig
 	fes     []*FrontEnd // per centre level
@@ -314,7 +387,7 @@ func (s *Saliency) sizeWork(wk *salWork, sc *salScratch) {
 //
 //	S = (N(Ī) + N(Ō))/2
 //
-// (doc.go, "Saliency", gives Ī, Ō and N). The work is spread over workers
+// (Saliency gives Ī, Ō and N). The work is spread over workers
 // goroutines (≤ 0 means 1); the result is bit-identical for any number.
 // It returns an error, and leaves dst alone, if the frame is too small
 // or too large for MapShape or img holds fewer than h·w pixels. It is safe

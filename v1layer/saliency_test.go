@@ -105,7 +105,7 @@ func f32s64(x []float64) []float32 {
 }
 
 // N(·) on small maps, values worked by hand from the operator of Itti,
-// Koch & Niebur (1998, §2.2): scale to [0, M] (M = 1), m̄ = mean of the
+// Koch & Niebur (1998): scale to [0, M] (M = 1), m̄ = mean of the
 // local maxima other than the global one (those ≥ MinPeak·M), multiply by
 // (M − m̄)². One isolated peak keeps the whole range; equal peaks cancel.
 func TestSaliencyNormHandWorked(t *testing.T) {
@@ -187,8 +187,8 @@ func argmaxFrame(s *Saliency, m *Maps) (x, y float64) {
 }
 
 // A single bar of odd orientation among many pops out: the map's maximum
-// lies on it (Itti, Koch & Niebur 1998, Fig. 3 and §3: an orientation
-// singleton is found first whatever the number of distractors). Bars of
+// lies on it (Itti, Koch & Niebur 1998: an orientation singleton is
+// found first whatever the number of distractors). Bars of
 // 20×5 px on a jittered grid (seeded), the odd one at several places and
 // in several frame sizes; "on it" means within the bar's half-length plus
 // one map cell (half a cell of quantisation each side) of its centre.
@@ -276,8 +276,8 @@ func seamlessTextures() []texture {
 	}
 }
 
-// A uniform texture gives a flat map (Itti, Koch & Niebur 1998, §3: the
-// map of a homogeneous field has no peak). For a seamless periodic texture
+// A uniform texture gives a flat map (Itti, Koch & Niebur 1998: N(·)
+// suppresses maps with many comparable peaks, as a texture has). For a seamless periodic texture
 // (seamlessTextures) every map of the model is, in exact arithmetic,
 // periodic or constant: N(·) sends a periodic map to zero (its other
 // maxima equal M) and a constant one to zero (its maximum is everywhere),
@@ -368,8 +368,7 @@ func itemShares(s *Saliency, m *Maps, centres [][2]float64, r float64) (shares [
 // Equally salient items share the map: with k identical items each holds
 // 1/k of the items' saliency, so doubling k halves each one's share; and
 // N(·)'s (M − m̄)² factor keeps the range of a map with one isolated peak
-// while many near-equal peaks suppress it (Itti, Koch & Niebur 1998, §2.2
-// and Fig. 2). Items: 14×14 bright squares at fixed, unevenly spread
+// while many near-equal peaks suppress it (Itti, Koch & Niebur 1998). Items: 14×14 bright squares at fixed, unevenly spread
 // places at least 80 px apart in a 256×256 frame; an item's share is the
 // saliency within 32 px of its centre over the total. Bounds:
 //   - each share within ±shareTol·(T/k) of T/k, T the items' total share:

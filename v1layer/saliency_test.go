@@ -633,3 +633,58 @@ func BenchmarkSaliency(b *testing.B) {
 		})
 	}
 }
+
+// Other pyramid layouts run the same way: a map level finer than every
+// centre (interpolated up), coarser than every centre, centres from the
+// frame itself, and the model's own centres [2 3 4] (on a frame and bars
+// twice as large: at level 2 a 5-px bar is barely a pixel wide); the odd
+// bar still pops out and workers still agree.
+func TestSaliencyOtherLevels(t *testing.T) {
+	for _, c := range []struct {
+		cfg SaliencyConfig
+		f   float64 // frame and bar scale
+	}{
+		{SaliencyConfig{Level: 1}, 1},
+		{SaliencyConfig{Level: 5}, 1},
+		{SaliencyConfig{Centres: []int{0, 2}, Deltas: []int{2, 3, 4}}, 1},
+		{SaliencyConfig{Centres: []int{2, 3, 4}}, 2},
+	} {
+		h, w := int(256*c.f), int(256*c.f)
+		img := make([]float32, h*w)
+		var ox, oy float64
+		for i := 0; i < 6; i++ {
+			for j := 0; j < 6; j++ {
+				cx, cy := (21+42*float64(j))*c.f, (21+42*float64(i))*c.f
+				th := 0.0
+				if i == 4 && j == 1 {
+					th, ox, oy = math.Pi/2, cx, cy
+				}
+				drawBar(img, h, w, cx, cy, 20*c.f, 5*c.f, th, 1)
+			}
+		}
+		s, err := NewSaliency(c.cfg)
+		if err != nil {
+			t.Fatal(err)
+		}
+		var one, two Maps
+		if err := s.Map(&one, img, h, w, 1); err != nil {
+			t.Fatal(err)
+		}
+		if err := s.Map(&two, img, h, w, 2); err != nil {
+			t.Fatal(err)
+		}
+		mh, mw, _ := s.MapShape(h, w)
+		if one.H != mh || one.W != mw {
+			t.Errorf("%+v: map %d×%d, want %d×%d", c.cfg, one.W, one.H, mw, mh)
+		}
+		for i := range one.Pix {
+			if math.Float32bits(one.Pix[i]) != math.Float32bits(two.Pix[i]) {
+				t.Fatalf("%+v: workers 1 and 2 differ at %d: %g vs %g", c.cfg, i, one.Pix[i], two.Pix[i])
+			}
+		}
+		x, y := argmaxFrame(s, &one)
+		if d := math.Hypot(x-ox, y-oy); d > 10*c.f+float64(s.Scale()) {
+			t.Errorf("%+v: maximum at (%.0f,%.0f), %.1f px from the odd bar at (%.0f,%.0f)", c.cfg, x, y, d, ox, oy)
+		}
+	}
+}

@@ -53,7 +53,8 @@ const (
 // Below these maxima a map is treated as empty: N(·) would otherwise
 // stretch float32 rounding to the full range. Feature maps are in the
 // front end's response units, where a step of one grey level (1/255)
-// gives about 1e-3 at the DoG and rounding on a uniform frame about 1e-7;
+// gives 3e-3 at the σ_c = 1 DoG and rounding on a uniform frame ≤ 2.2e-7
+// (both builds); the centre-surround maps are differences of these;
 // conspicuity maps are sums of N(·) outputs, dimensionless in [0, n].
 const (
 	salFeatureFloor = 1e-5
@@ -390,7 +391,8 @@ func (s *Saliency) sizeWork(wk *salWork, sc *salScratch) {
 // (Saliency gives Ī, Ō and N). The work is spread over workers
 // goroutines (≤ 0 means 1); the result is bit-identical for any number.
 // It returns an error, and leaves dst alone, if the frame is too small
-// or too large for MapShape or img holds fewer than h·w pixels. It is safe
+// or too large for MapShape, img holds fewer than h·w pixels, or a pixel
+// is NaN or infinite. It is safe
 // for concurrent use and allocates nothing once scratch for the frame size
 // and worker count exists.
 func (s *Saliency) Map(dst *Maps, img []float32, h, w, workers int) error {
@@ -400,6 +402,11 @@ func (s *Saliency) Map(dst *Maps, img []float32, h, w, workers int) error {
 	}
 	if len(img) < h*w {
 		return fmt.Errorf("v1layer: saliency frame has %d pixels, want %d×%d = %d; pass the whole row-major frame", len(img), h, w, h*w)
+	}
+	for i, v := range img[:h*w] {
+		if math.IsNaN(float64(v)) || math.IsInf(float64(v), 0) {
+			return fmt.Errorf("v1layer: saliency frame pixel (row %d, column %d) is %v; want finite grey values in [0,1]", i/w, i%w, v)
+		}
 	}
 	workers = max(1, workers)
 	cfg := &s.cfg

@@ -501,8 +501,8 @@ func TestSaliencyBlankFrameIsZero(t *testing.T) {
 	}
 }
 
-// Frames too small or too large and short pixel slices give errors that
-// name the limit and the fix, and leave the destination alone; bad
+// Frames too small or too large, short pixel slices and NaN or infinite
+// pixels give errors that name the limit or the pixel and the fix, and leave the destination alone; bad
 // configurations give errors naming the field.
 func TestSaliencyBadInput(t *testing.T) {
 	s, err := NewSaliency(SaliencyConfig{})
@@ -526,8 +526,18 @@ func TestSaliencyBadInput(t *testing.T) {
 		{100, 28, 2800, "lower SaliencyConfig.Centres"},
 		{MaxSide + 1, 64, 0, "MaxSide"},
 		{64, 64, 64*64 - 1, "4095 pixels"},
+		{64, 64, -1, "(row 3, column 5) is NaN"},
+		{64, 64, -2, "(row 3, column 5) is +Inf"},
 	} {
-		err := s.Map(&dst, make([]float32, c.n), c.h, c.w, 1)
+		img := make([]float32, max(c.n, 0))
+		if c.n < 0 {
+			img = make([]float32, c.h*c.w)
+			img[3*c.w+5] = float32(math.NaN())
+			if c.n == -2 {
+				img[3*c.w+5] = float32(math.Inf(1))
+			}
+		}
+		err := s.Map(&dst, img, c.h, c.w, 1)
 		if err == nil || !strings.Contains(err.Error(), c.want) || !strings.HasPrefix(err.Error(), "v1layer: ") {
 			t.Errorf("%d×%d with %d pixels: error %v, want one containing %q", c.h, c.w, c.n, err, c.want)
 		}

@@ -15,9 +15,10 @@ import (
 type SaliencyConfig struct {
 	// Centres are the centre levels c of the frame's pyramid (level k has
 	// 2^−k of the frame's side). Default [1, 2, 3]: with the default
-	// kernels these see blobs and bars of about 4 to 45 px, the size of
-	// the project's items; the model's own [2, 3, 4] suits 640×480
-	// scenes with larger objects. Increasing, at most 4 levels, each in [0, 6].
+	// kernels, DoG centres of 2, 4 and 8 frame px and Gabor wavelengths
+	// of 8, 16 and 32 frame px, matched to the strokes, parts and
+	// outlines of items 20-45 px across; the model's own [2, 3, 4] suits
+	// larger objects. Increasing, at most 4 levels, each in [0, 6].
 	Centres []int `json:"centres,omitempty"`
 	// Deltas δ set the surround levels s = c + δ. Default [3, 4], the
 	// model's. Increasing, at most 3, each in [1, 5].
@@ -209,6 +210,7 @@ type Saliency struct {
 	cfg     SaliencyConfig
 	fes     []*FrontEnd // per centre level
 	nDoG    int         // leading front-end channels that are DoG on/off
+	nc      int         // front-end channels
 	deep    int         // deepest pyramid level any map reaches
 	scratch sync.Pool
 }
@@ -237,6 +239,7 @@ func NewSaliency(cfg SaliencyConfig) (*Saliency, error) {
 		if ch.Kind == KindDoG {
 			s.nDoG++
 		}
+		s.nc++
 	}
 	s.deep = max(cfg.Centres[len(cfg.Centres)-1]+cfg.Deltas[len(cfg.Deltas)-1], cfg.Level)
 	return s, nil
@@ -291,13 +294,12 @@ func (s *Saliency) MapShape(h, w int) (mh, mw int, err error) {
 type salScratch struct {
 	h, w    int
 	lh, lw  []int       // level sizes, levels 0..deep
-	pyr     [][]float32 // frame pyramid, levels 1..max centre (pyr[0] unused)
+	pyr     [][]float32 // frame pyramid, levels 0..max centre (pyr[0]: the frame, during a call)
 	feat    []Maps      // front-end maps per centre
 	contrib [][]float32 // per (centre, channel): its map-level contribution
 	inten   []float32
 	orient  []float32
 	theta   []float32
-	sal     []float32
 	tmp     []float32
 	work    []*salWork
 }
@@ -340,16 +342,15 @@ func (s *Saliency) getScratch(h, w, workers int) *salScratch {
 		if len(sc.feat) != len(cfg.Centres) {
 			sc.feat = make([]Maps, len(cfg.Centres))
 		}
-		nc := len(s.fes[0].Channels())
-		if len(sc.contrib) != len(cfg.Centres)*nc {
-			sc.contrib = make([][]float32, len(cfg.Centres)*nc)
+		if len(sc.contrib) != len(cfg.Centres)*s.nc {
+			sc.contrib = make([][]float32, len(cfg.Centres)*s.nc)
 		}
 		mn := sc.lh[cfg.Level] * sc.lw[cfg.Level]
 		for i := range sc.contrib {
 			sc.contrib[i] = growF(sc.contrib[i], mn)
 		}
 		sc.inten, sc.orient = growF(sc.inten, mn), growF(sc.orient, mn)
-		sc.theta, sc.sal = growF(sc.theta, mn), growF(sc.sal, mn)
+		sc.theta = growF(sc.theta, mn)
 		sc.tmp = growF(sc.tmp, h*w)
 		for _, wk := range sc.work {
 			s.sizeWork(wk, sc)
@@ -408,8 +409,8 @@ func (s *Saliency) Map(dst *Maps, img []float32, h, w, workers int) error {
 			return fmt.Errorf("v1layer: saliency frame pixel (row %d, column %d) is %v; want finite grey values in [0,1]", i/w, i%w, v)
 		}
 	}
-	workers = max(1, workers)
 	cfg := &s.cfg
+	workers = max(1, min(workers, len(cfg.Centres)*s.nc)) // no more than the jobs
 	sc := s.getScratch(h, w, workers)
 	defer s.scratch.Put(sc)
 
@@ -422,34 +423,32 @@ func (s *Saliency) Map(dst *Maps, img []float32, h, w, workers int) error {
 	// Front-end maps at each centre level, then the centre-surround maps,
 	// N(·) and across-scale addition, one job per (centre, channel).
 	s.spread(sc, stageFrontEnd, len(cfg.Centres), workers)
-	nc := sc.feat[0].C
-	s.spread(sc, stageCentreSurround, len(cfg.Centres)*nc, workers)
+	s.spread(sc, stageCentreSurround, len(cfg.Centres)*s.nc, workers)
 
 	// Conspicuity maps and their combination, in a fixed order.
 	mn := mh * mw
-	inten, orient, theta, sal := sc.inten[:mn], sc.orient[:mn], sc.theta[:mn], sc.sal[:mn]
+	inten, orient, theta := sc.inten[:mn], sc.orient[:mn], sc.theta[:mn]
 	clear(inten)
 	clear(orient)
 	for i := range cfg.Centres {
 		for ch := 0; ch < s.nDoG; ch++ {
-			addTo(inten, sc.contrib[i*nc+ch])
+			addTo(inten, sc.contrib[i*s.nc+ch])
 		}
 	}
-	for ch := s.nDoG; ch < nc; ch++ {
+	for ch := s.nDoG; ch < s.nc; ch++ {
 		clear(theta)
 		for i := range cfg.Centres {
-			addTo(theta, sc.contrib[i*nc+ch])
+			addTo(theta, sc.contrib[i*s.nc+ch])
 		}
 		salNorm(theta, mh, mw, cfg.MinPeak, salMapFloor)
 		addTo(orient, theta)
 	}
 	salNorm(inten, mh, mw, cfg.MinPeak, salMapFloor)
 	salNorm(orient, mh, mw, cfg.MinPeak, salMapFloor)
-	for k := range sal {
-		sal[k] = (inten[k] + orient[k]) / 2
-	}
 	dst.Resize(1, mh, mw)
-	copy(dst.Pix, sal)
+	for k, v := range inten {
+		dst.Pix[k] = (v + orient[k]) / 2
+	}
 	return nil
 }
 
@@ -530,8 +529,7 @@ func (s *Saliency) do(sc *salScratch, stage, wi, j int) {
 		s.fes[j].Apply(&sc.feat[j], sc.pyr[c], sc.lh[c], sc.lw[c])
 		return
 	}
-	nc := sc.feat[0].C
-	s.centreSurround(sc.contrib[j], sc, sc.work[wi], j/nc, j%nc)
+	s.centreSurround(sc.contrib[j], sc, sc.work[wi], j/s.nc, j%s.nc)
 }
 
 // spread runs jobs 0..n−1 of a stage over up to workers goroutines.

@@ -393,9 +393,9 @@ func (s *Saliency) sizeWork(wk *salWork, sc *salScratch) {
 // goroutines (≤ 0 means 1); the result is bit-identical for any number.
 // It returns an error, and leaves dst alone, if the frame is too small
 // or too large for MapShape, img holds fewer than h·w pixels, or a pixel
-// is NaN or infinite. It is safe
-// for concurrent use and allocates nothing once scratch for the frame size
-// and worker count exists.
+// is NaN or infinite. It is safe for concurrent use; on one worker it
+// allocates nothing once scratch for the frame size exists (more workers
+// start their goroutines on each call).
 func (s *Saliency) Map(dst *Maps, img []float32, h, w, workers int) error {
 	mh, mw, err := s.MapShape(h, w)
 	if err != nil {

@@ -203,8 +203,8 @@ func (c SaliencyConfig) validate() error {
 // With the defaults (Centres [1 2 3], Deltas [3 4], Level 3) the map has
 // one pixel per 8×8 frame pixels, and a frame must be at least 57 px a
 // side so that level 3 holds the 15-px Gabor kernels (MinSide). Scratch
-// takes about 60 bytes per frame pixel (17 MB at 640×480), per worker
-// count and frame size in use; the largest frame side is MaxSide.
+// takes about 60 bytes per frame pixel (17 MB at 640×480) for each frame
+// size in use; the largest frame side is MaxSide.
 //
 // A Saliency is immutable and safe for concurrent use; Map spreads one
 // frame over any number of workers with bit-identical results.

@@ -253,17 +253,19 @@ func checkTargets(t *testing.T, sc runScale, name string, got map[string]float64
 // of the presets at that scale (in the comment: the measured values, SIMD
 // build, 2-core machine) less a margin of about three standard errors.
 var reducedFloors = map[string]float64{
-	"mnist clean":       0, // filled below
-	"mnist shift-4":     0,
-	"mnist noise-0.5":   0,
-	"fashion clean":     0,
-	"fashion shift-4":   0,
-	"fashion noise-0.3": 0,
-	"fashion rot-30":    0,
-	"mnist learned":     0,
-	"fashion learned":   0,
-	"mnist 10 labels":   0,
-	"mnist 100 labels":  0,
+	// Measured 3 December 2026 (SIMD build, heavily shared 2-core machine);
+	// standard errors at 2,000 images in brackets.
+	"mnist clean":       0.975, // 98.50% (0.27)
+	"mnist shift-4":     0.975, // 98.65% (0.26)
+	"mnist noise-0.5":   0.760, // 79.45% (0.90)
+	"fashion clean":     0.880, // 90.05% (0.67)
+	"fashion shift-4":   0.795, // 82.30% (0.85)
+	"fashion noise-0.3": 0.655, // 68.85% (1.04)
+	"fashion rot-30":    0.670, // 70.40% (1.02)
+	"mnist learned":     0.970, // 98.35% (0.28)
+	"fashion learned":   0.880, // 90.55% (0.65)
+	"mnist 10 labels":   0.870, // 91.50% (0.62; the 100 labelled images add more)
+	"mnist 100 labels":  0.955, // 97.45% (0.35)
 }
 
 // target prints whether got reaches the target.

@@ -35,7 +35,8 @@ var packPool = sync.Pool{New: func() any { return new([]float32) }}
 
 // tile4x16 computes t_r = Σ_{q<p} a_r[q]·b_q[0..16) for the four rows
 // a_r = a + r·as of a and the rows b_q = b + q·bs of b (offsets in bytes),
-// and stores t_r at c + r·cs, or with sub subtracts it from what is there.
+// and stores t_r at c + r·cs, or with sub subtracts it from what is there;
+// p ≥ 1.
 func tile4x16(c unsafe.Pointer, cs uintptr, a unsafe.Pointer, as uintptr, b unsafe.Pointer, bs uintptr, p int, sub bool) {
 	a0 := a
 	a1 := unsafe.Add(a0, as)
@@ -43,10 +44,9 @@ func tile4x16(c unsafe.Pointer, cs uintptr, a unsafe.Pointer, as uintptr, b unsa
 	a3 := unsafe.Add(a2, as)
 	var c00, c01, c10, c11, c20, c21, c30, c31 archsimd.Float32x8
 	bp := b
-	for q := 0; q < p; q++ {
+	for q := 0; ; {
 		b0 := ld8(bp)
 		b1 := ld8(unsafe.Add(bp, 32))
-		bp = unsafe.Add(bp, bs)
 		off := uintptr(q) * 4
 		x0 := archsimd.BroadcastFloat32x8(*(*float32)(unsafe.Add(a0, off)))
 		c00 = x0.MulAdd(b0, c00)
@@ -60,6 +60,11 @@ func tile4x16(c unsafe.Pointer, cs uintptr, a unsafe.Pointer, as uintptr, b unsa
 		x3 := archsimd.BroadcastFloat32x8(*(*float32)(unsafe.Add(a3, off)))
 		c30 = x3.MulAdd(b0, c30)
 		c31 = x3.MulAdd(b1, c31)
+		// Stop before stepping past b's last row (checkptr rejects such a pointer).
+		if q++; q == p {
+			break
+		}
+		bp = unsafe.Add(bp, bs)
 	}
 	if sub {
 		c00, c01 = ld8(c).Sub(c00), ld8(unsafe.Add(c, 32)).Sub(c01)
@@ -80,14 +85,17 @@ func tile4x16(c unsafe.Pointer, cs uintptr, a unsafe.Pointer, as uintptr, b unsa
 	st8(unsafe.Add(c, 32), c31)
 }
 
-// tile1x16 is tile4x16 for one row of a.
+// tile1x16 is tile4x16 for one row of a; p ≥ 1.
 func tile1x16(c, a, b unsafe.Pointer, bs uintptr, p int, sub bool) {
 	var c0, c1 archsimd.Float32x8
 	bp := b
-	for q := 0; q < p; q++ {
+	for q := 0; ; {
 		x := archsimd.BroadcastFloat32x8(*(*float32)(unsafe.Add(a, uintptr(q)*4)))
 		c0 = x.MulAdd(ld8(bp), c0)
 		c1 = x.MulAdd(ld8(unsafe.Add(bp, 32)), c1)
+		if q++; q == p {
+			break
+		}
 		bp = unsafe.Add(bp, bs)
 	}
 	if sub {

@@ -28,11 +28,87 @@ func st8(p unsafe.Pointer, v archsimd.Float32x8) { v.Store((*[8]float32)(p)) }
 
 var packPool = sync.Pool{New: func() any { return new([]float32) }}
 
+// The two products share their micro-kernels: tile4x16 and tile1x16 hold
+// a 4×16 (or 1×16) tile of the result in 8 (or 2) registers and update it
+// by outer products, one element of each row of a broadcast against two
+// vectors of one row of b per step.
+
+// tile4x16 computes t_r = Σ_{q<p} a_r[q]·b_q[0..16) for the four rows
+// a_r = a + r·as of a and the rows b_q = b + q·bs of b (offsets in bytes),
+// and stores t_r at c + r·cs, or with sub subtracts it from what is there;
+// p ≥ 1.
+func tile4x16(c unsafe.Pointer, cs uintptr, a unsafe.Pointer, as uintptr, b unsafe.Pointer, bs uintptr, p int, sub bool) {
+	a0 := a
+	a1 := unsafe.Add(a0, as)
+	a2 := unsafe.Add(a1, as)
+	a3 := unsafe.Add(a2, as)
+	var c00, c01, c10, c11, c20, c21, c30, c31 archsimd.Float32x8
+	bp := b
+	for q := 0; ; {
+		b0 := ld8(bp)
+		b1 := ld8(unsafe.Add(bp, 32))
+		off := uintptr(q) * 4
+		x0 := archsimd.BroadcastFloat32x8(*(*float32)(unsafe.Add(a0, off)))
+		c00 = x0.MulAdd(b0, c00)
+		c01 = x0.MulAdd(b1, c01)
+		x1 := archsimd.BroadcastFloat32x8(*(*float32)(unsafe.Add(a1, off)))
+		c10 = x1.MulAdd(b0, c10)
+		c11 = x1.MulAdd(b1, c11)
+		x2 := archsimd.BroadcastFloat32x8(*(*float32)(unsafe.Add(a2, off)))
+		c20 = x2.MulAdd(b0, c20)
+		c21 = x2.MulAdd(b1, c21)
+		x3 := archsimd.BroadcastFloat32x8(*(*float32)(unsafe.Add(a3, off)))
+		c30 = x3.MulAdd(b0, c30)
+		c31 = x3.MulAdd(b1, c31)
+		// Stop before stepping past b's last row (checkptr rejects such a pointer).
+		if q++; q == p {
+			break
+		}
+		bp = unsafe.Add(bp, bs)
+	}
+	if sub {
+		c00, c01 = ld8(c).Sub(c00), ld8(unsafe.Add(c, 32)).Sub(c01)
+		c10, c11 = ld8(unsafe.Add(c, cs)).Sub(c10), ld8(unsafe.Add(c, cs+32)).Sub(c11)
+		c20, c21 = ld8(unsafe.Add(c, 2*cs)).Sub(c20), ld8(unsafe.Add(c, 2*cs+32)).Sub(c21)
+		c30, c31 = ld8(unsafe.Add(c, 3*cs)).Sub(c30), ld8(unsafe.Add(c, 3*cs+32)).Sub(c31)
+	}
+	st8(c, c00)
+	st8(unsafe.Add(c, 32), c01)
+	c = unsafe.Add(c, cs)
+	st8(c, c10)
+	st8(unsafe.Add(c, 32), c11)
+	c = unsafe.Add(c, cs)
+	st8(c, c20)
+	st8(unsafe.Add(c, 32), c21)
+	c = unsafe.Add(c, cs)
+	st8(c, c30)
+	st8(unsafe.Add(c, 32), c31)
+}
+
+// tile1x16 is tile4x16 for one row of a; p ≥ 1.
+func tile1x16(c, a, b unsafe.Pointer, bs uintptr, p int, sub bool) {
+	var c0, c1 archsimd.Float32x8
+	bp := b
+	for q := 0; ; {
+		x := archsimd.BroadcastFloat32x8(*(*float32)(unsafe.Add(a, uintptr(q)*4)))
+		c0 = x.MulAdd(ld8(bp), c0)
+		c1 = x.MulAdd(ld8(unsafe.Add(bp, 32)), c1)
+		if q++; q == p {
+			break
+		}
+		bp = unsafe.Add(bp, bs)
+	}
+	if sub {
+		c0, c1 = ld8(c).Sub(c0), ld8(unsafe.Add(c, 32)).Sub(c1)
+	}
+	st8(c, c0)
+	st8(unsafe.Add(c, 32), c1)
+}
+
 // gemmNTSIMD is gemmNTGonum. b is packed into panels of 16 rows stored
-// column-interleaved (panel[q*16+c] = b[(j0+c)*p+q], zero past n), so the
-// micro-kernel reads two vectors of b per step and broadcasts one value of
-// each of 4 rows of a: an outer-product update of a 4×16 tile of c held in
-// 8 registers.
+// column-interleaved (panel[q*16+c] = b[(j0+c)*p+q], zero past n), so that
+// the tile kernels read the panel's rows 64 bytes apart. Tiles that reach
+// past column n go through a 4×16 buffer.
 func gemmNTSIMD(c, a, b []float32, m, n, p int) {
 	if m == 0 || n == 0 {
 		return
@@ -67,77 +143,26 @@ func gemmNTSIMD(c, a, b []float32, m, n, p int) {
 		}
 	}
 	var tile [4 * 16]float32
+	tp := unsafe.Pointer(&tile[0])
+	as := uintptr(4 * p)
 	for jp := 0; jp < np; jp++ {
 		panel := unsafe.Pointer(unsafe.SliceData(pk[jp*16*p:]))
 		j0 := jp * 16
 		full := j0+16 <= n
 		i := 0
 		for ; i+4 <= m; i += 4 {
-			a0 := unsafe.Pointer(unsafe.SliceData(a[i*p:]))
-			a1 := unsafe.Add(a0, 4*p)
-			a2 := unsafe.Add(a1, 4*p)
-			a3 := unsafe.Add(a2, 4*p)
-			var c00, c01, c10, c11, c20, c21, c30, c31 archsimd.Float32x8
-			bp := panel
-			for q := 0; q < p; q++ {
-				b0 := ld8(bp)
-				b1 := ld8(unsafe.Add(bp, 32))
-				bp = unsafe.Add(bp, 64)
-				off := uintptr(q) * 4
-				x0 := archsimd.BroadcastFloat32x8(*(*float32)(unsafe.Add(a0, off)))
-				c00 = x0.MulAdd(b0, c00)
-				c01 = x0.MulAdd(b1, c01)
-				x1 := archsimd.BroadcastFloat32x8(*(*float32)(unsafe.Add(a1, off)))
-				c10 = x1.MulAdd(b0, c10)
-				c11 = x1.MulAdd(b1, c11)
-				x2 := archsimd.BroadcastFloat32x8(*(*float32)(unsafe.Add(a2, off)))
-				c20 = x2.MulAdd(b0, c20)
-				c21 = x2.MulAdd(b1, c21)
-				x3 := archsimd.BroadcastFloat32x8(*(*float32)(unsafe.Add(a3, off)))
-				c30 = x3.MulAdd(b0, c30)
-				c31 = x3.MulAdd(b1, c31)
-			}
+			ai := unsafe.Pointer(unsafe.SliceData(a[i*p:]))
 			if full {
-				cp := unsafe.Pointer(unsafe.SliceData(c[i*n+j0:]))
-				st8(cp, c00)
-				st8(unsafe.Add(cp, 32), c01)
-				cp = unsafe.Add(cp, 4*n)
-				st8(cp, c10)
-				st8(unsafe.Add(cp, 32), c11)
-				cp = unsafe.Add(cp, 4*n)
-				st8(cp, c20)
-				st8(unsafe.Add(cp, 32), c21)
-				cp = unsafe.Add(cp, 4*n)
-				st8(cp, c30)
-				st8(unsafe.Add(cp, 32), c31)
+				tile4x16(unsafe.Pointer(unsafe.SliceData(c[i*n+j0:])), uintptr(4*n), ai, as, panel, 64, p, false)
 				continue
 			}
-			tp := unsafe.Pointer(&tile[0])
-			st8(tp, c00)
-			st8(unsafe.Add(tp, 32), c01)
-			st8(unsafe.Add(tp, 64), c10)
-			st8(unsafe.Add(tp, 96), c11)
-			st8(unsafe.Add(tp, 128), c20)
-			st8(unsafe.Add(tp, 160), c21)
-			st8(unsafe.Add(tp, 192), c30)
-			st8(unsafe.Add(tp, 224), c31)
+			tile4x16(tp, 64, ai, as, panel, 64, p, false)
 			for r := 0; r < 4; r++ {
 				copy(c[(i+r)*n+j0:(i+r)*n+n], tile[r*16:r*16+n-j0])
 			}
 		}
 		for ; i < m; i++ { // remaining rows, one at a time
-			ar := unsafe.Pointer(unsafe.SliceData(a[i*p:]))
-			var c0, c1 archsimd.Float32x8
-			bp := panel
-			for q := 0; q < p; q++ {
-				x := archsimd.BroadcastFloat32x8(*(*float32)(unsafe.Add(ar, uintptr(q)*4)))
-				c0 = x.MulAdd(ld8(bp), c0)
-				c1 = x.MulAdd(ld8(unsafe.Add(bp, 32)), c1)
-				bp = unsafe.Add(bp, 64)
-			}
-			tp := unsafe.Pointer(&tile[0])
-			st8(tp, c0)
-			st8(unsafe.Add(tp, 32), c1)
+			tile1x16(tp, unsafe.Pointer(unsafe.SliceData(a[i*p:])), panel, 64, p, false)
 			copy(c[i*n+j0:i*n+min(n, j0+16)], tile[:min(16, n-j0)])
 		}
 	}
@@ -145,10 +170,9 @@ func gemmNTSIMD(c, a, b []float32, m, n, p int) {
 	packPool.Put(bufp)
 }
 
-// gemmNNSubSIMD is gemmNNSubGonum. b's rows are read in place: for 4 rows
-// of a and 16 columns of c, each step loads two vectors of one row of b and
-// broadcasts one value of each row of a. Columns past the last multiple of
-// 16 and rows past the last multiple of 4 take narrower loops.
+// gemmNNSubSIMD is gemmNNSubGonum. b's rows are read in place (row stride
+// 4n bytes) by the tile kernels, which subtract their tiles from c.
+// Columns past the last multiple of 16 go scalar.
 func gemmNNSubSIMD(c, a, b []float32, m, n, p int) {
 	if m == 0 || n == 0 || p == 0 {
 		return
@@ -158,62 +182,18 @@ func gemmNNSubSIMD(c, a, b []float32, m, n, p int) {
 	}
 	n16 := n &^ 15
 	rs := uintptr(4 * n) // row stride of b and c in bytes
+	as := uintptr(4 * p)
 	i := 0
 	for ; i+4 <= m; i += 4 {
-		a0 := unsafe.Pointer(unsafe.SliceData(a[i*p:]))
-		a1 := unsafe.Add(a0, 4*p)
-		a2 := unsafe.Add(a1, 4*p)
-		a3 := unsafe.Add(a2, 4*p)
+		ai := unsafe.Pointer(unsafe.SliceData(a[i*p:]))
 		for j := 0; j < n16; j += 16 {
-			var c00, c01, c10, c11, c20, c21, c30, c31 archsimd.Float32x8
-			bp := unsafe.Pointer(unsafe.SliceData(b[j:]))
-			for q := 0; q < p; q++ {
-				b0 := ld8(bp)
-				b1 := ld8(unsafe.Add(bp, 32))
-				bp = unsafe.Add(bp, rs)
-				off := uintptr(q) * 4
-				x0 := archsimd.BroadcastFloat32x8(*(*float32)(unsafe.Add(a0, off)))
-				c00 = x0.MulAdd(b0, c00)
-				c01 = x0.MulAdd(b1, c01)
-				x1 := archsimd.BroadcastFloat32x8(*(*float32)(unsafe.Add(a1, off)))
-				c10 = x1.MulAdd(b0, c10)
-				c11 = x1.MulAdd(b1, c11)
-				x2 := archsimd.BroadcastFloat32x8(*(*float32)(unsafe.Add(a2, off)))
-				c20 = x2.MulAdd(b0, c20)
-				c21 = x2.MulAdd(b1, c21)
-				x3 := archsimd.BroadcastFloat32x8(*(*float32)(unsafe.Add(a3, off)))
-				c30 = x3.MulAdd(b0, c30)
-				c31 = x3.MulAdd(b1, c31)
-			}
-			cp := unsafe.Pointer(unsafe.SliceData(c[i*n+j:]))
-			st8(cp, ld8(cp).Sub(c00))
-			st8(unsafe.Add(cp, 32), ld8(unsafe.Add(cp, 32)).Sub(c01))
-			cp = unsafe.Add(cp, rs)
-			st8(cp, ld8(cp).Sub(c10))
-			st8(unsafe.Add(cp, 32), ld8(unsafe.Add(cp, 32)).Sub(c11))
-			cp = unsafe.Add(cp, rs)
-			st8(cp, ld8(cp).Sub(c20))
-			st8(unsafe.Add(cp, 32), ld8(unsafe.Add(cp, 32)).Sub(c21))
-			cp = unsafe.Add(cp, rs)
-			st8(cp, ld8(cp).Sub(c30))
-			st8(unsafe.Add(cp, 32), ld8(unsafe.Add(cp, 32)).Sub(c31))
+			tile4x16(unsafe.Pointer(unsafe.SliceData(c[i*n+j:])), rs, ai, as, unsafe.Pointer(unsafe.SliceData(b[j:])), rs, p, true)
 		}
 	}
 	for ; i < m; i++ { // remaining rows: one row of a at a time
-		ar := a[i*p : (i+1)*p]
-		cr := c[i*n : (i+1)*n]
+		ai := unsafe.Pointer(unsafe.SliceData(a[i*p:]))
 		for j := 0; j < n16; j += 16 {
-			var c0, c1 archsimd.Float32x8
-			bp := unsafe.Pointer(unsafe.SliceData(b[j:]))
-			for q := 0; q < p; q++ {
-				x := archsimd.BroadcastFloat32x8(ar[q])
-				c0 = x.MulAdd(ld8(bp), c0)
-				c1 = x.MulAdd(ld8(unsafe.Add(bp, 32)), c1)
-				bp = unsafe.Add(bp, rs)
-			}
-			cp := unsafe.Pointer(unsafe.SliceData(cr[j:]))
-			st8(cp, ld8(cp).Sub(c0))
-			st8(unsafe.Add(cp, 32), ld8(unsafe.Add(cp, 32)).Sub(c1))
+			tile1x16(unsafe.Pointer(unsafe.SliceData(c[i*n+j:])), ai, unsafe.Pointer(unsafe.SliceData(b[j:])), rs, p, true)
 		}
 	}
 	archsimd.ClearAVXUpperBits()

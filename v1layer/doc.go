@@ -150,6 +150,20 @@
 //	GOEXPERIMENT=simd go build ./cmd/striate
 //	GOEXPERIMENT=simd go test -bench FrontEnd ./v1layer
 //
+// The SIMD loops that differ only in lane width (8 or 16), in the number
+// of vectors or rows per block, in the number of filter sets (the paired
+// passes) or in the element-wise operation are generated, not written by
+// hand: internal/simdgen holds the list of variants and one text/template
+// (simd.tmpl), and gen_simd.go writes conv_gen_amd64.go and
+// elementwise_gen_amd64.go, gofmt'ed and marked "DO NOT EDIT". Each
+// variant stays a separate concrete function, as archsimd needs for its
+// intrinsics. After editing the template or the list, regenerate with
+//
+//	go generate ./v1layer
+//
+// (plain Go; no GOEXPERIMENT needed); TestGeneratedSIMDCurrent fails
+// while the committed files differ from the generator's output.
+//
 // Both builds give the same results to float32 rounding
 // (TestSIMDMatchesPortable); `striate bench` prints which build timed the
 // figures it shows. On the reference work (`striate bench`, 5 repeats,
@@ -169,3 +183,5 @@
 // image size exists; ApplyBatch spreads images over a given number of
 // goroutines, each with its own scratch.
 package v1layer
+
+//go:generate go run gen_simd.go

@@ -8,12 +8,14 @@ import (
 	"math"
 	"os"
 	"path/filepath"
+	"reflect"
 	"regexp"
 	"strconv"
 	"strings"
 	"testing"
 	"time"
 
+	"github.com/striate/striate/datasets"
 	"github.com/striate/striate/v1layer"
 )
 
@@ -107,19 +109,42 @@ func sampleReport(t *testing.T) *Report {
 				Meta: v1layer.Channel{Kind: v1layer.KindLearned, Wavelength: lam, Pair: 2*i + 1 - j}})
 		}
 	}
+	suite, right := knownSuite()
+	st := indexedSet(40, 4, 4, 4)
+	s1, err := ScoreSuite("hand-set", subsetPredictor{4, right}, st, suite, SuiteConfig{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	right2 := map[int]int{}
+	for k, v := range right {
+		right2[k] = max(0, v-3*(k%3))
+	}
+	s2, err := ScoreSuite("learned", subsetPredictor{4, right2}, st, suite, SuiteConfig{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	peer, err := ParsePeer([]byte(peerJSON(suite, right, 40, datasets.SuiteSeed)), "testdata/peer/lenet5_indexed.json", "")
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := s1.SetPeer(peer); err != nil {
+		t.Fatal(err)
+	}
 	return &Report{
+		Suites: []*SuiteResult{s1, s2},
 		Banks:   []BankPanel{{Name: "hand-set", Bank: hand}, {Name: "learned", Bank: learned}},
 		Title:   "Sample report | garment-sorting station",
 		Created: time.Date(2026, 12, 1, 12, 0, 0, 0, time.UTC),
 		Summary: "A **synthetic** report built by the eval tests from `predictions.json` and test fakes.",
 		Command: "go test ./eval -run TestWriteReport",
 		Config:  map[string]any{"hand-set": map[string]int{"orientations": 4}, "learned": map[string]int{"atoms": 64}},
-		Data: []Provenance{{Name: "garments", Source: "testdata/eval/predictions.json", Train: 0, Test: len(p.Labels), H: 28, W: 28,
-			Classes: p.Classes, Note: "synthetic predictions"}},
+		Data: []Provenance{{Name: "garments", Source: "/srv/depot/intake/2026-11/garments-test-images-idx3-ubyte.gz + /srv/depot/intake/2026-11/garments-test-labels-idx1-ubyte.gz",
+			TrainName: "garments-train", Train: 6000, Test: len(p.Labels), H: 28, W: 28, Classes: p.Classes, Note: "synthetic predictions"}},
 		Models: []ModelResult{
 			{Name: "hand-set", Data: "garments", Description: "Gabor bank", TrainSeconds: 12.5, Metrics: m1,
 				Speed: &Speed{Images: 300, Workers: 2, ExtractPerSec: 4100, PredictPerSec: 3900, LatencyP50: 0.41, LatencyP99: 0.93, HeapPeak: 48 << 20, ModelBytes: 123456}},
 			{Name: "learned", Data: "garments", Metrics: m2},
+			{Name: "hand-set", Data: "garments-again", Description: "Gabor bank", Metrics: m1},
 		},
 		Comparisons: []*Comparison{cmp},
 		Robustness:  []*Robustness{r1, r2},
@@ -197,9 +222,9 @@ func TestWriteReport(t *testing.T) {
 			}
 		}
 	}
-	// per-class + reliability (1 data set), confusion ×2, robustness, labels, invariance, mosaics
-	if len(pngs) != 8 {
-		t.Errorf("%d figures: %v; want 8", len(pngs), pngs)
+	// per-class + reliability (2 data sets), confusion ×3, robustness, suite kinds and curves, labels, invariance, mosaics
+	if len(pngs) != 13 {
+		t.Errorf("%d figures: %v; want 13", len(pngs), pngs)
 	}
 
 	md, err := os.ReadFile(filepath.Join(dir, ReportMarkdown))
@@ -215,18 +240,82 @@ func TestWriteReport(t *testing.T) {
 	tables := parseMarkdownTables(string(md))
 	var acc [][]string
 	for _, tb := range tables {
-		if len(tb) > 0 && tb[0][0] == "model" && len(tb[0]) > 3 && tb[0][3] == "accuracy" {
+		if len(tb) > 0 && tb[0][0] == "model" && len(tb[0]) > 3 && tb[0][3] == "accuracy (%)" {
 			acc = tb
 		}
 	}
-	if len(acc) != 3 {
-		t.Fatalf("accuracy table %v; want header + 2 rows", acc)
+	if len(acc) != 4 {
+		t.Fatalf("accuracy table %v; want header + 3 rows", acc)
 	}
 	for i, m := range r.Models {
+		// Two decimals of a percentage: off by at most half a unit of the last digit.
 		got, err := strconv.ParseFloat(acc[i+1][3], 64)
-		if err != nil || math.Abs(got-m.Metrics.Accuracy) > 5e-5 {
-			t.Errorf("table accuracy of %s = %q; want %.4f", m.Name, acc[i+1][3], m.Metrics.Accuracy)
+		if err != nil || math.Abs(got-100*m.Metrics.Accuracy) > 0.005+1e-9 {
+			t.Errorf("table accuracy of %s = %q; want %.2f", m.Name, acc[i+1][3], 100*m.Metrics.Accuracy)
 		}
+	}
+	// Headings are words with units, never JSON keys, and the per-class
+	// tables use our own row names.
+	jsonKey := regexp.MustCompile(`^[a-z0-9]+(_[a-z0-9]+)+$`)
+	for _, tb := range tables {
+		for _, h := range tb[0] {
+			if jsonKey.MatchString(h) {
+				t.Errorf("table %q has the raw heading %q", tb[0][0], h)
+			}
+		}
+	}
+	for _, word := range []string{"support", "macro avg", "weighted avg", "macro_avg", "weighted_avg"} {
+		if strings.Contains(string(md), word) {
+			t.Errorf("report.md says %q", word)
+		}
+	}
+	if !strings.Contains(string(md), "| class mean | 300 |") || !strings.Contains(string(md), "| image-weighted mean | 300 |") {
+		t.Error("per-class table lacks the class-mean and image-weighted-mean rows")
+	}
+	if n := strings.Count(string(md), "**hand-set**: Gabor bank"); n != 1 {
+		t.Errorf("the description of hand-set is printed %d times; want once", n)
+	}
+	// The Data table names the training set, and shows file names, not paths.
+	for _, tb := range tables {
+		if tb[0][0] == "test set" {
+			if tb[0][1] != "trained on" || tb[1][1] != "garments-train" || tb[1][2] != "6000" {
+				t.Errorf("data table %v", tb)
+			}
+			if last := tb[1][len(tb[1])-1]; last != "garments-test-images-idx3-ubyte.gz + garments-test-labels-idx1-ubyte.gz" {
+				t.Errorf("data table files cell %q", last)
+			}
+		}
+	}
+	// The development suite: its figures sit in its section, and the
+	// condition table shows each model's and the peer's accuracy
+	// (alpha-2: 30/40 right, the second model 3·(2 mod 3) = 6 fewer, the peer 1 point below).
+	if h, f := strings.Index(string(md), "## Development suite"), strings.Index(string(md), "(figures/suite-kinds-"); h < 0 || f < h {
+		t.Error("the suite figures are not in the development-suite section")
+	}
+	found := false
+	for _, tb := range tables {
+		if tb[0][0] != "condition" {
+			continue
+		}
+		if !reflect.DeepEqual(tb[0][3:], []string{"hand-set (%)", "learned (%)", "LeNet-5 (peer) (%)", "hand-set 95% interval (%)", "learned 95% interval (%)"}) {
+			t.Errorf("condition table header %v", tb[0])
+		}
+		for _, row := range tb[1:] {
+			if row[0] == "alpha-2" {
+				found = true
+				if want := []string{"75.00", "60.00", "74.00", pctCI(Wilson(30, 40, 0.95)), pctCI(Wilson(24, 40, 0.95))}; !reflect.DeepEqual(row[3:], want) {
+					t.Errorf("alpha-2 row %v; want %v", row[3:], want)
+				}
+			}
+		}
+	}
+	if !found {
+		t.Error("no condition table with alpha-2")
+	}
+	// The opening key figures come before the data table.
+	if k, d := strings.Index(string(md), "## Key figures"), strings.Index(string(md), "## Data"); k < 0 || k > d ||
+		!strings.Contains(string(md), "- **hand-set** on garments: ") {
+		t.Error("report.md does not open with the key figures")
 	}
 	for _, tb := range tables {
 		for j, row := range tb {
@@ -245,8 +334,10 @@ func TestWriteReport(t *testing.T) {
 	if err := json.Unmarshal(js, &back); err != nil {
 		t.Fatalf("results.json: %v", err)
 	}
-	if len(back.Models) != 2 || back.Models[1].Metrics.Accuracy != r.Models[1].Metrics.Accuracy ||
-		len(back.Robustness) != 2 || back.Comparisons[0].PValue != r.Comparisons[0].PValue {
+	if len(back.Models) != 3 || back.Models[1].Metrics.Accuracy != r.Models[1].Metrics.Accuracy ||
+		len(back.Robustness) != 2 || back.Comparisons[0].PValue != r.Comparisons[0].PValue ||
+		len(back.Suites) != 2 || back.Suites[0].Peer == nil || back.Suites[0].Peer.MeanCorruption != r.Suites[0].Peer.MeanCorruption ||
+		back.Suites[1].Worst.Kind != r.Suites[1].Worst.Kind || back.Suites[1].Points[3].CI != r.Suites[1].Points[3].CI {
 		t.Errorf("results.json lost data: %+v", back.Models)
 	}
 
@@ -264,6 +355,9 @@ func TestWriteReport(t *testing.T) {
 	}
 	if !strings.Contains(hs, "Sample report | garment-sorting station") || !strings.Contains(hs, "<strong>synthetic</strong>") {
 		t.Error("report.html lacks the escaped title or the inline markup")
+	}
+	if !strings.Contains(hs, `title="`+r.Data[0].Source+`"`) {
+		t.Error("report.html has no tooltip with the full file paths")
 	}
 }
 

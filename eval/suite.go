@@ -205,15 +205,12 @@ func ScoreSuite(model string, p Predictor, test *datasets.Set, suite []datasets.
 			return nil, fmt.Errorf("eval: development suite condition %q has no Op; use a datasets.Corruption or datasets.Perturbation", c.Name)
 		}
 	}
-	if k := p.NumClasses(); k != len(test.Classes) {
-		return nil, fmt.Errorf("eval: model %s predicts %d classes but data %q has %d", model, k, test.Name, len(test.Classes))
+	if err := checkClassCount(model, p, test.Name, len(test.Classes)); err != nil {
+		return nil, err
 	}
-	conf := cfg.Confidence
-	if conf == 0 {
-		conf = 0.95
-	}
-	if !(conf > 0 && conf < 1) {
-		return nil, fmt.Errorf("eval: confidence %v outside (0,1); use e.g. 0.95", conf)
+	conf, err := confidenceLevel(cfg.Confidence)
+	if err != nil {
+		return nil, err
 	}
 	seed := cfg.Seed
 	if seed == 0 {
@@ -247,7 +244,6 @@ func ScoreSuite(model string, p Predictor, test *datasets.Set, suite []datasets.
 			Accuracy: float64(correct) / float64(test.N), CI: Wilson(correct, test.N, conf), Pred: pred}, nil
 	}
 	out := &SuiteResult{Model: model, Data: test.Name, Seed: seed}
-	var err error
 	if out.Clean, err = score(test, datasets.SuiteCondition{Name: "clean", Group: "clean", Kind: "clean"}); err != nil {
 		return nil, err
 	}

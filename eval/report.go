@@ -714,8 +714,11 @@ func renderHTML(title string, doc []block) string {
 			b.WriteString("<table>\n<thead><tr>")
 			for j, h := range v.header {
 				attr := ""
-				if len(v.rows) > 0 && j < len(v.rows[0]) && !numericCell.MatchString(v.rows[0][j]) {
-					attr = ` class="t"`
+				for _, row := range v.rows {
+					if j < len(row) && !numericCell.MatchString(row[j]) {
+						attr = ` class="t"` // a text column: its heading goes left too
+						break
+					}
 				}
 				fmt.Fprintf(&b, "<th%s>%s</th>", attr, html.EscapeString(h))
 			}

@@ -130,8 +130,26 @@ func sampleReport(t *testing.T) *Report {
 	if err := s1.SetPeer(peer); err != nil {
 		t.Fatal(err)
 	}
+	// The whole development suite on 28×28 quadrant images, with a peer
+	// made of a second recognizer's figures, as the report shows a real run.
+	qs := quadrantSet(32)
+	q1, err := ScoreSuite("hand-set", quadrantPredictor{}, qs, datasets.DevelopmentSuite(), SuiteConfig{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	q2, err := ScoreSuite("peer", blurredQuadrants{}, qs, datasets.DevelopmentSuite(), SuiteConfig{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	qp, err := ParsePeer(peerFileOf(q2), "testdata/peer/lenet5_quadrants.json", "")
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := q1.SetPeer(qp); err != nil {
+		t.Fatal(err)
+	}
 	return &Report{
-		Suites:  []*SuiteResult{s1, s2},
+		Suites: []*SuiteResult{s1, s2, q1},
 		Banks:   []BankPanel{{Name: "hand-set", Bank: hand}, {Name: "learned", Bank: learned}},
 		Title:   "Sample report | garment-sorting station",
 		Created: time.Date(2026, 12, 1, 12, 0, 0, 0, time.UTC),
@@ -152,6 +170,55 @@ func sampleReport(t *testing.T) *Report {
 		Invariance:  []InvarianceResult{{Model: "test cells", Channels: chans, Rows: inv}},
 		Notes:       []string{"Numbers here are synthetic.", "A `code` note."},
 	}
+}
+
+// blurredQuadrants is quadrantPredictor blind to a band across the middle,
+// a second recognizer that differs from the first under shifts and warps.
+type blurredQuadrants struct{}
+
+func (blurredQuadrants) NumClasses() int { return 4 }
+
+func (blurredQuadrants) PredictBatch(imgs [][]float32, h, w, workers int) ([][]float32, error) {
+	cut := make([][]float32, len(imgs))
+	for j, im := range imgs {
+		c := append([]float32(nil), im...)
+		for y := h/2 - 2; y < h/2+2; y++ {
+			for x := range w {
+				c[y*w+x] = 0
+			}
+		}
+		cut[j] = c
+	}
+	return quadrantPredictor{}.PredictBatch(cut, h, w, workers)
+}
+
+// peerFileOf writes r's accuracies in the layout of testdata/peer/lenet5.py
+// (one seed).
+func peerFileOf(r *SuiteResult) []byte {
+	type cond struct {
+		Name     string    `json:"name"`
+		Group    string    `json:"group"`
+		Kind     string    `json:"kind"`
+		Unit     string    `json:"unit"`
+		Level    float64   `json:"level"`
+		Accuracy []float64 `json:"accuracy"`
+		Mean     float64   `json:"mean"`
+	}
+	f := struct {
+		Generator  string `json:"generator"`
+		Dataset    string `json:"dataset"`
+		SuiteSeed  uint64 `json:"suite_seed"`
+		Seeds      []int  `json:"seeds"`
+		Conditions []cond `json:"conditions"`
+	}{"eval tests", r.Data, r.Seed, []int{0}, []cond{{Name: "clean", Group: "clean", Accuracy: []float64{r.Clean.Accuracy}, Mean: r.Clean.Accuracy}}}
+	for _, p := range r.Points {
+		f.Conditions = append(f.Conditions, cond{p.Name, p.Group, p.Kind, p.Unit, p.Level, []float64{p.Accuracy}, p.Accuracy})
+	}
+	b, err := json.Marshal(f)
+	if err != nil {
+		panic(err)
+	}
+	return b
 }
 
 // parseMarkdownTables returns every table in md as header + rows.
@@ -222,9 +289,9 @@ func TestWriteReport(t *testing.T) {
 			}
 		}
 	}
-	// per-class + reliability (2 data sets), confusion ×3, robustness, suite kinds and curves, labels, invariance, mosaics
-	if len(pngs) != 13 {
-		t.Errorf("%d figures: %v; want 13", len(pngs), pngs)
+	// per-class + reliability (2 data sets), confusion ×3, robustness, suite kinds and curves ×2, labels, invariance, mosaics
+	if len(pngs) != 15 {
+		t.Errorf("%d figures: %v; want 15", len(pngs), pngs)
 	}
 
 	md, err := os.ReadFile(filepath.Join(dir, ReportMarkdown))
@@ -294,8 +361,8 @@ func TestWriteReport(t *testing.T) {
 	}
 	found := false
 	for _, tb := range tables {
-		if tb[0][0] != "condition" {
-			continue
+		if tb[0][0] != "condition" || len(tb) < 3 || tb[2][0] != "alpha-1" {
+			continue // not the indexed-test table
 		}
 		if !reflect.DeepEqual(tb[0][3:], []string{"hand-set (%)", "learned (%)", "LeNet-5 (peer) (%)", "hand-set 95% interval (%)", "learned 95% interval (%)"}) {
 			t.Errorf("condition table header %v", tb[0])
@@ -336,7 +403,7 @@ func TestWriteReport(t *testing.T) {
 	}
 	if len(back.Models) != 3 || back.Models[1].Metrics.Accuracy != r.Models[1].Metrics.Accuracy ||
 		len(back.Robustness) != 2 || back.Comparisons[0].PValue != r.Comparisons[0].PValue ||
-		len(back.Suites) != 2 || back.Suites[0].Peer == nil || back.Suites[0].Peer.MeanCorruption != r.Suites[0].Peer.MeanCorruption ||
+		len(back.Suites) != 3 || back.Suites[0].Peer == nil || back.Suites[0].Peer.MeanCorruption != r.Suites[0].Peer.MeanCorruption ||
 		back.Suites[1].Worst.Kind != r.Suites[1].Worst.Kind || back.Suites[1].Points[3].CI != r.Suites[1].Points[3].CI {
 		t.Errorf("results.json lost data: %+v", back.Models)
 	}

@@ -149,7 +149,7 @@ func sampleReport(t *testing.T) *Report {
 		t.Fatal(err)
 	}
 	return &Report{
-		Suites: []*SuiteResult{s1, s2, q1},
+		Suites:  []*SuiteResult{s1, s2, q1},
 		Banks:   []BankPanel{{Name: "hand-set", Bank: hand}, {Name: "learned", Bank: learned}},
 		Title:   "Sample report | garment-sorting station",
 		Created: time.Date(2026, 12, 1, 12, 0, 0, 0, time.UTC),

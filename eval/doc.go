@@ -16,9 +16,10 @@
 //     centre (k + z²/2)/(n + z²), half-width z/(n + z²)·sqrt(k(n−k)/n + z²/4),
 //     z = Φ⁻¹((1+conf)/2). Unlike the Wald interval it stays inside [0,1] and
 //     keeps near-nominal coverage at accuracies close to 1.
-//   - Precision, recall, F1 per class, macro and support-weighted averages,
-//     defined as in scikit-learn's classification_report (0 for an empty
-//     denominator), and the confusion matrix C[true][predicted].
+//   - Precision TP/(TP+FP), recall TP/(TP+FN) and F1 = 2PR/(P+R) per
+//     class (0 for an empty denominator), their class mean (equal weight per
+//     class) and image-weighted mean (weight = the class's test images), and
+//     the confusion matrix C[true][predicted].
 //   - Top-k accuracy; log-loss in nats, −(1/N)·Σ ln p̂(yᵢ), probabilities
 //     clipped to [1e-15, 1−1e-15] as scikit-learn 1.2 does.
 //   - Expected calibration error over 15 equal-width confidence bins
@@ -52,6 +53,28 @@
 //     (Skottun et al. 1991: > 1 simple, < 1 complex; π/2 for a half-wave
 //     rectified linear cell).
 //
+// # Development suite (ScoreSuite)
+//
+// A model fitted on clean images is scored on the clean test set and on
+// test.Perturbed(c.Op, seed, workers) for each condition of a datasets
+// development suite: the 15 MNIST-C corruptions (Mu & Gilmer 2019, arXiv:1906.02337) at
+// severities 1…5 and the six perturbation kinds on a fine grid of levels.
+// The seed defaults to datasets.SuiteSeed, the images the LeNet-5 peer
+// script (testdata/peer/lenet5.py) is scored on, and the perturbed images
+// do not depend on the number of workers. Per condition c it reports the
+// accuracy a_c with its Wilson interval; per kind k (its severities or levels
+// L_k) the unweighted mean
+//
+//	A_k = (1/|L_k|) Σ_{c ∈ L_k} a_c,
+//
+// the mean corruption accuracy mCA = (1/|K|) Σ_{k ∈ K} A_k over the MNIST-C
+// kinds K, and the worst kind argmin_{k ∈ K} A_k (the first on ties). Grid
+// kinds give curves of accuracy against level, with the clean accuracy at
+// the level that leaves the image unchanged. ReadPeer reads the peer's
+// per-condition figures (the mean over its training seeds) and
+// SuiteResult.SetPeer aligns them with a result, after checking that the
+// peer saw the same seed and every condition.
+//
 // # Speed and memory (MeasureSpeed, ModelSize)
 //
 // Throughput in images per second of wall time (median of repeats after a
@@ -63,11 +86,16 @@
 //
 // A Report is plain data. WriteReport writes a folder with report.md (PNG
 // figures under figures/), one self-contained report.html with the same
-// figures embedded as data: URIs, and results.json. Tables are markdown
-// tables with a single header row; figures are drawn with gonum/plot, with
+// figures embedded as data: URIs, and results.json with the full precision
+// and the full file paths. The report opens with its key figures; tables
+// are markdown tables with a single header row, headings in words with
+// their units (accuracies in %, differences in percentage points, times in
+// seconds), files shown by name (report.html gives the full path as a
+// tooltip); figures are drawn with gonum/plot, with
 // labelled axes and units: confusion heat maps (row-normalised colour, raw
 // counts), per-class F1 bars, reliability diagrams, robustness panels (one
-// per perturbation, shared accuracy axis, Wilson error bars),
+// per perturbation, shared accuracy axis, Wilson error bars), the
+// development suite's per-kind bars and grid curves (a peer dashed),
 // label-efficiency curves (log axis of labels per class), grating-invariance
 // bars and F1/F0, and the filter banks side by side (BankPanel, drawn with
 // AtomMosaic) with the Gabor-fit histograms of learned banks.
@@ -107,7 +135,9 @@
 // of rectified and energy cells; IoU, the VOC matching, AP and mAP against a
 // NumPy port of the VOC2010 devkit (VOCevaldet, VOCap) and the step AP
 // against scikit-learn 1.2.1's average_precision_score, besides hand-worked
-// examples. The generator scripts and their values are in testdata/eval/.
+// examples; the development suite's figures against a predictor right on a
+// known subset of every condition's images and hand-worked per-kind means.
+// The generator scripts and their values are in testdata/eval/.
 //
 // # Concurrency
 //

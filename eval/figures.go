@@ -102,6 +102,12 @@ type pointsWithCI struct {
 }
 
 func addSeries(p *plot.Plot, i int, name string, pts pointsWithCI) error {
+	return addSeriesStyled(p, i, name, pts, false)
+}
+
+// addSeriesStyled adds series i; a dashed series (a peer's means, which have
+// no interval) is drawn without error bars.
+func addSeriesStyled(p *plot.Plot, i int, name string, pts pointsWithCI, dashed bool) error {
 	line, scatter, err := plotter.NewLinePoints(pts.XYs)
 	if err != nil {
 		return err
@@ -112,13 +118,18 @@ func addSeries(p *plot.Plot, i int, name string, pts pointsWithCI) error {
 	scatter.Color = c
 	scatter.Shape = seriesGlyphs[i%len(seriesGlyphs)]
 	scatter.Radius = vg.Points(2.5)
-	eb, err := plotter.NewYErrorBars(pts)
-	if err != nil {
-		return err
+	if dashed {
+		line.Dashes = []vg.Length{vg.Points(5), vg.Points(3)}
+		p.Add(line, scatter)
+	} else {
+		eb, err := plotter.NewYErrorBars(pts)
+		if err != nil {
+			return err
+		}
+		eb.Color = c
+		eb.CapWidth = vg.Points(4)
+		p.Add(eb, line, scatter)
 	}
-	eb.Color = c
-	eb.CapWidth = vg.Points(4)
-	p.Add(eb, line, scatter)
 	if name != "" {
 		p.Legend.Add(name, line, scatter)
 	}
@@ -250,6 +261,12 @@ func tiltTicks(a *plot.Axis) {
 // kind (titled by the kind), one line per model, with Wilson-interval error
 // bars.
 func RobustnessFigure(curves []*Robustness) ([]byte, error) {
+	return curvePanels(curves, 0)
+}
+
+// curvePanels draws RobustnessFigure's panels; the last dashed curves are
+// peers' means, drawn dashed and without intervals.
+func curvePanels(curves []*Robustness, dashed int) ([]byte, error) {
 	if len(curves) == 0 {
 		return nil, fmt.Errorf("eval: robustness figure with no curves")
 	}
@@ -292,7 +309,7 @@ func RobustnessFigure(curves []*Robustness) ([]byte, error) {
 			if ki == 0 {
 				name = c.Model
 			}
-			if err := addSeries(p, mi, name, pts); err != nil {
+			if err := addSeriesStyled(p, mi, name, pts, mi >= len(curves)-dashed); err != nil {
 				return nil, err
 			}
 		}
@@ -302,7 +319,7 @@ func RobustnessFigure(curves []*Robustness) ([]byte, error) {
 		p.Add(plotter.NewGrid())
 		grid[ki/cols] = append(grid[ki/cols], p)
 	}
-	return renderPNG(grid, vg.Length(cols)*2.6*vg.Inch, vg.Length(rows)*2.4*vg.Inch)
+	return renderPNG(grid, vg.Length(cols)*2.6*vg.Inch, vg.Length(rows)*2.6*vg.Inch)
 }
 
 // kindTitles are panel titles for the datasets perturbation names.
@@ -381,20 +398,28 @@ func PerClassFigure(names []string, ms []*Metrics, title string) ([]byte, error)
 		return nil, fmt.Errorf("eval: per-class figure with %d names for %d results", len(names), len(ms))
 	}
 	classes := ms[0].Classes
+	vals := make([]plotter.Values, len(ms))
 	for i, m := range ms {
 		if len(m.Classes) != len(classes) {
 			return nil, fmt.Errorf("eval: per-class figure: result %s has %d classes, %s has %d", names[i], len(m.Classes), names[0], len(classes))
 		}
-	}
-	p := newPlot(title, "class", "F1 score (%)")
-	groupW := vg.Points(36)
-	barW := groupW / vg.Length(len(ms))
-	for i, m := range ms {
-		vals := make(plotter.Values, len(classes))
+		vals[i] = make(plotter.Values, len(classes))
 		for c, s := range m.PerClass {
-			vals[c] = 100 * s.F1
+			vals[i][c] = 100 * s.F1
 		}
-		bars, err := plotter.NewBarChart(vals, barW)
+	}
+	return groupedBars(title, "class", "F1 score (%)", classes, names, vals)
+}
+
+// groupedBars draws percentages vals[series][group] as grouped bars, one
+// group per label and one bar per series, on a 0-100 axis with headroom for
+// the legend.
+func groupedBars(title, xlabel, ylabel string, groups, names []string, vals []plotter.Values) ([]byte, error) {
+	p := newPlot(title, xlabel, ylabel)
+	groupW := vg.Points(36)
+	barW := groupW / vg.Length(len(vals))
+	for i, v := range vals {
+		bars, err := plotter.NewBarChart(v, barW)
 		if err != nil {
 			return nil, err
 		}
@@ -405,22 +430,22 @@ func PerClassFigure(names []string, ms []*Metrics, title string) ([]byte, error)
 		p.Legend.Add(names[i], bars)
 	}
 	var ticks []plot.Tick
-	for c, name := range classes {
+	for c, name := range groups {
 		ticks = append(ticks, plot.Tick{Value: float64(c), Label: name})
 	}
 	p.X.Tick.Marker = plot.ConstantTicks(ticks)
 	tiltTicks(&p.X)
 	// Headroom above 100% holds the legend clear of the bars.
-	p.Y.Min, p.Y.Max = 0, 100+12*float64(len(ms))
+	p.Y.Min, p.Y.Max = 0, 100+12*float64(len(vals))
 	p.Y.Tick.Marker = plot.ConstantTicks(percentTicks{20}.Ticks(0, 100))
-	p.X.Min, p.X.Max = -0.7, float64(len(classes))-0.3
+	p.X.Min, p.X.Max = -0.7, float64(len(groups))-0.3
 	p.Legend.Top = true
 	p.Legend.Left = true
 	p.Legend.XOffs = vg.Points(6)
 	grid := plotter.NewGrid()
 	grid.Vertical.Width = 0
 	p.Add(grid)
-	w := vg.Length(len(classes))*groupW*1.3 + 1.5*vg.Inch
+	w := vg.Length(len(groups))*groupW*1.3 + 1.5*vg.Inch
 	return renderPNG([][]*plot.Plot{{p}}, max(w, 6*vg.Inch), 4*vg.Inch)
 }
 

@@ -67,12 +67,9 @@ func LabelEfficiency(model string, fit FitFunc, trainLabels []int, test *Data, c
 	if reps < 0 {
 		return nil, fmt.Errorf("eval: %d label-efficiency repeats; want ≥ 1", reps)
 	}
-	conf := cfg.Confidence
-	if conf == 0 {
-		conf = 0.95
-	}
-	if !(conf > 0 && conf < 1) {
-		return nil, fmt.Errorf("eval: confidence %v outside (0,1); use e.g. 0.95", conf)
+	conf, err := confidenceLevel(cfg.Confidence)
+	if err != nil {
+		return nil, err
 	}
 	run := cfg.Run
 	prog := run.Progress

@@ -37,19 +37,19 @@ func (c MetricsConfig) withDefaults(k int) MetricsConfig {
 	return c
 }
 
-// ClassScore is precision, recall and F1 of one class, as in
-// scikit-learn's classification_report: precision = TP/(TP+FP),
-// recall = TP/(TP+FN), F1 = 2PR/(P+R), each 0 when its denominator is 0
-// (scikit-learn's zero_division=0).
+// ClassScore is precision, recall and F1 of one class: precision =
+// TP/(TP+FP), recall = TP/(TP+FN), F1 = 2PR/(P+R), each 0 when its
+// denominator is 0 (the textbook definitions, checked against scikit-learn's
+// classification_report with zero_division=0, see testdata/eval).
 type ClassScore struct {
 	Class     string  `json:"class"`
 	Precision float64 `json:"precision"`
 	Recall    float64 `json:"recall"`
 	F1        float64 `json:"f1"`
-	Support   int     `json:"support"` // true samples of this class
+	Support   int     `json:"images"` // test images of this class
 }
 
-// Average is an average of per-class scores.
+// Average is a mean of per-class scores.
 type Average struct {
 	Precision float64 `json:"precision"`
 	Recall    float64 `json:"recall"`
@@ -72,8 +72,8 @@ type Metrics struct {
 	Classes   []string     `json:"classes"`
 	Confusion [][]int      `json:"confusion"` // Confusion[true][predicted] counts
 	PerClass  []ClassScore `json:"per_class"`
-	Macro     Average      `json:"macro_avg"`    // unweighted mean over classes
-	Weighted  Average      `json:"weighted_avg"` // mean weighted by support
+	Macro     Average      `json:"class_mean"`          // unweighted mean over classes
+	Weighted  Average      `json:"image_weighted_mean"` // mean weighted by each class's test images
 	TopK      []TopK       `json:"top_k"`
 	LogLoss   float64      `json:"log_loss"` // mean −ln p(true class), nats
 	ECE       float64      `json:"ece"`      // expected calibration error
@@ -85,8 +85,8 @@ type Metrics struct {
 // Predicted class = Argmax (lowest index on ties).
 //
 // Definitions (sources beside each): accuracy with a Wilson interval (see
-// Wilson); precision/recall/F1 per class and their macro and
-// support-weighted averages as in scikit-learn's classification_report;
+// Wilson); precision/recall/F1 per class, their class mean and their mean
+// weighted by each class's test images;
 // top-k accuracy; log-loss −(1/N) Σ ln p̂ᵢ(yᵢ) with each row clipped to
 // [Eps, 1−Eps] and renormalised (scikit-learn 1.2 log_loss); expected
 // calibration error over equal-width confidence bins (see Calibration).

@@ -54,7 +54,7 @@ func TestScoreMatchesSklearn(t *testing.T) {
 		near(cs.Class+" recall", cs.Recall, r["recall"])
 		near(cs.Class+" f1", cs.F1, r["f1-score"])
 		if cs.Support != int(r["support"]) {
-			t.Errorf("%s support %d; scikit-learn %g", cs.Class, cs.Support, r["support"])
+			t.Errorf("%s has %d test images; scikit-learn support %g", cs.Class, cs.Support, r["support"])
 		}
 	}
 	// The fixture has a never-predicted class, so zero_division matters.

@@ -8,6 +8,7 @@ import (
 	"math"
 	"os"
 	"path/filepath"
+	"regexp"
 	"strings"
 	"time"
 
@@ -30,6 +31,7 @@ type Report struct {
 	Models      []ModelResult      `json:"models,omitempty"`
 	Comparisons []*Comparison      `json:"comparisons,omitempty"`
 	Robustness  []*Robustness      `json:"robustness,omitempty"`
+	Suites      []*SuiteResult     `json:"suites,omitempty"` // development-suite scores (ScoreSuite)
 	Labels      []*LabelCurve      `json:"label_efficiency,omitempty"`
 	Invariance  []InvarianceResult `json:"invariance,omitempty"`
 	Banks       []BankPanel        `json:"banks,omitempty"`   // filter banks shown side by side as mosaics
@@ -37,16 +39,19 @@ type Report struct {
 	Notes       []string           `json:"notes,omitempty"`
 }
 
-// Provenance says where a data set came from.
+// Provenance says where a data set came from. Name is the test set the
+// models are scored on (ModelResult.Data refers to it); Train counts the
+// images the models were trained on, from the set TrainName when known.
 type Provenance struct {
-	Name    string   `json:"name"`
-	Source  string   `json:"source"`
-	Train   int      `json:"train"` // images used for training (0 if none)
-	Test    int      `json:"test"`  // images used for testing
-	H       int      `json:"h"`
-	W       int      `json:"w"`
-	Classes []string `json:"classes"`
-	Note    string   `json:"note,omitempty"`
+	Name      string   `json:"name"`
+	Source    string   `json:"source"` // full file paths or folder; the report shows the base names
+	TrainName string   `json:"train_name,omitempty"`
+	Train     int      `json:"train"` // images used for training (0 if none)
+	Test      int      `json:"test"`  // images used for testing
+	H         int      `json:"h"`
+	W         int      `json:"w"`
+	Classes   []string `json:"classes"`
+	Note      string   `json:"note,omitempty"`
 }
 
 // ModelResult is one fitted model's scores on one test set.
@@ -176,6 +181,7 @@ type codeBlock struct{ text string }
 type tableBlock struct {
 	header []string
 	rows   [][]string
+	tips   map[[2]int]string // (row, column) → tooltip shown in report.html
 }
 type figBlock struct {
 	file, title, caption string
@@ -245,14 +251,34 @@ func buildDoc(r *Report) ([]block, error) {
 		add(paraBlock{r.Summary})
 	}
 
+	if items := keyFigures(r); len(items) > 0 {
+		add(headBlock{2, "Key figures"})
+		add(listBlock{items})
+	}
+
 	if len(r.Data) > 0 {
 		add(headBlock{2, "Data"})
-		t := tableBlock{header: []string{"data", "source", "train images", "test images", "size (px)", "classes"}}
+		withTrainName := false
 		for _, d := range r.Data {
-			t.rows = append(t.rows, []string{d.Name, d.Source, fmt.Sprint(d.Train), fmt.Sprint(d.Test),
-				fmt.Sprintf("%d×%d", d.H, d.W), strings.Join(d.Classes, ", ")})
+			withTrainName = withTrainName || d.TrainName != ""
+		}
+		t := tableBlock{header: []string{"test set"}, tips: map[[2]int]string{}}
+		if withTrainName {
+			t.header = append(t.header, "trained on")
+		}
+		t.header = append(t.header, "training images", "test images", "image size (px)", "classes", "files")
+		for i, d := range r.Data {
+			row := []string{d.Name}
+			if withTrainName {
+				row = append(row, d.TrainName)
+			}
+			row = append(row, fmt.Sprint(d.Train), fmt.Sprint(d.Test), fmt.Sprintf("%d×%d", d.H, d.W),
+				fmt.Sprintf("%d: %s", len(d.Classes), strings.Join(d.Classes, ", ")), shortSource(d.Source))
+			t.tips[[2]int{i, len(row) - 1}] = d.Source
+			t.rows = append(t.rows, row)
 		}
 		add(t)
+		add(paraBlock{"Files are shown by name; results.json holds the full paths (and report.html shows them when the pointer rests on a name)."})
 		for _, d := range r.Data {
 			if d.Note != "" {
 				add(paraBlock{d.Name + ": " + d.Note})
@@ -262,9 +288,12 @@ func buildDoc(r *Report) ([]block, error) {
 
 	if len(r.Models) > 0 {
 		add(headBlock{2, "Accuracy"})
-		add(paraBlock{"Accuracy with its 95% Wilson score interval; macro F1 is the unweighted mean over classes; " +
-			"log-loss in nats; ECE is the expected calibration error over 15 equal-width confidence bins (Guo et al. 2017)."})
-		t := tableBlock{header: []string{"model", "data", "n", "accuracy", "ci_low", "ci_high", "macro_f1", "weighted_f1", "top2", "log_loss", "ece", "train_s"}}
+		add(paraBlock{"Accuracy with its 95% Wilson score interval, in %. F1 (the harmonic mean of a class's precision and recall) is averaged " +
+			"over classes with equal weight (class mean) and weighted by each class's test images (image-weighted mean); top-2 counts an image " +
+			"as right when its class is among the two most probable; log-loss is the mean −ln p(true class) in nats; ECE is the expected " +
+			"calibration error over 15 equal-width confidence bins (Guo et al. 2017), in percentage points."})
+		t := tableBlock{header: []string{"model", "test set", "test images", "accuracy (%)", "95% interval (%)", "class-mean F1 (%)",
+			"image-weighted F1 (%)", "top-2 accuracy (%)", "log-loss (nats)", "ECE (points)", "training time (s)"}}
 		for _, m := range r.Models {
 			if m.Metrics == nil {
 				return nil, fmt.Errorf("eval: report model %q has no metrics", m.Name)
@@ -273,15 +302,20 @@ func buildDoc(r *Report) ([]block, error) {
 			top2 := ""
 			for _, tk := range mm.TopK {
 				if tk.K == 2 {
-					top2 = f4(tk.Accuracy)
+					top2 = pct(tk.Accuracy)
 				}
 			}
-			t.rows = append(t.rows, []string{m.Name, m.Data, fmt.Sprint(mm.N), f4(mm.Accuracy), f4(mm.CI.Lo), f4(mm.CI.Hi),
-				f4(mm.Macro.F1), f4(mm.Weighted.F1), top2, f4(mm.LogLoss), f4(mm.ECE), secs(m.TrainSeconds)})
+			t.rows = append(t.rows, []string{m.Name, m.Data, fmt.Sprint(mm.N), pct(mm.Accuracy), pctCI(mm.CI),
+				pct(mm.Macro.F1), pct(mm.Weighted.F1), top2, f4(mm.LogLoss), pct(mm.ECE), secs(m.TrainSeconds)})
 		}
 		add(t)
+		// One line per model name: the same model trained on two data sets
+		// carries one description.
+		described := map[string]bool{}
 		for _, m := range r.Models {
-			if m.Description != "" {
+			key := m.Name + "\x00" + m.Description
+			if m.Description != "" && !described[key] {
+				described[key] = true
 				add(paraBlock{"**" + m.Name + "**: " + m.Description})
 			}
 		}
@@ -311,12 +345,14 @@ func buildDoc(r *Report) ([]block, error) {
 		for _, m := range r.Models {
 			mm := m.Metrics
 			add(headBlock{3, m.Name + " on " + m.Data})
-			t := tableBlock{header: []string{"class", "precision", "recall", "f1", "support"}}
+			add(paraBlock{"Recall is the fraction of a class's test images recognised as that class; precision the fraction of images " +
+				"recognised as the class that belong to it; the last two rows average the classes with equal weight and by test images."})
+			t := tableBlock{header: []string{"class", "test images", "recall (%)", "precision (%)", "F1 (%)"}}
 			for _, c := range mm.PerClass {
-				t.rows = append(t.rows, []string{c.Class, f4(c.Precision), f4(c.Recall), f4(c.F1), fmt.Sprint(c.Support)})
+				t.rows = append(t.rows, []string{c.Class, fmt.Sprint(c.Support), pct(c.Recall), pct(c.Precision), pct(c.F1)})
 			}
-			t.rows = append(t.rows, []string{"macro avg", f4(mm.Macro.Precision), f4(mm.Macro.Recall), f4(mm.Macro.F1), fmt.Sprint(mm.N)})
-			t.rows = append(t.rows, []string{"weighted avg", f4(mm.Weighted.Precision), f4(mm.Weighted.Recall), f4(mm.Weighted.F1), fmt.Sprint(mm.N)})
+			t.rows = append(t.rows, []string{"class mean", fmt.Sprint(mm.N), pct(mm.Macro.Recall), pct(mm.Macro.Precision), pct(mm.Macro.F1)})
+			t.rows = append(t.rows, []string{"image-weighted mean", fmt.Sprint(mm.N), pct(mm.Weighted.Recall), pct(mm.Weighted.Precision), pct(mm.Weighted.F1)})
 			add(t)
 			ct := tableBlock{header: append([]string{"true \\ predicted"}, mm.Classes...)}
 			for i, row := range mm.Confusion {
@@ -338,16 +374,17 @@ func buildDoc(r *Report) ([]block, error) {
 
 	if len(r.Comparisons) > 0 {
 		add(headBlock{2, "Paired comparisons"})
-		add(paraBlock{"Same test images for both models. only_a / only_b count the images only one of them gets right; " +
-			"p is the exact two-sided McNemar test on those discordant pairs; the difference (a − b) has a paired bootstrap percentile interval."})
-		t := tableBlock{header: []string{"a", "b", "condition", "n", "accuracy_a", "accuracy_b", "diff", "diff_ci_low", "diff_ci_high", "only_a", "only_b", "mcnemar_p", "resamples"}}
+		add(paraBlock{"Same test images for both models. \"Right only by a\" and \"right only by b\" count the images only one of them gets right; " +
+			"p is the exact two-sided McNemar test on those discordant pairs; the difference a − b, in percentage points, has a paired bootstrap percentile interval."})
+		t := tableBlock{header: []string{"a", "b", "condition", "test images", "accuracy a (%)", "accuracy b (%)", "a − b (points)", "95% interval (points)",
+			"right only by a", "right only by b", "McNemar p", "bootstrap resamples"}}
 		for _, c := range r.Comparisons {
 			cond := c.Condition
 			if cond == "" {
 				cond = "clean"
 			}
-			t.rows = append(t.rows, []string{c.NameA, c.NameB, cond, fmt.Sprint(c.N), f4(c.AccuracyA), f4(c.AccuracyB), f4(c.Diff),
-				f4(c.DiffCI.Lo), f4(c.DiffCI.Hi), fmt.Sprint(c.OnlyA), fmt.Sprint(c.OnlyB), fmt.Sprintf("%.4g", c.PValue), fmt.Sprint(c.Resamples)})
+			t.rows = append(t.rows, []string{c.NameA, c.NameB, cond, fmt.Sprint(c.N), pct(c.AccuracyA), pct(c.AccuracyB), signedPct(c.Diff),
+				signedPct(c.DiffCI.Lo) + " to " + signedPct(c.DiffCI.Hi), fmt.Sprint(c.OnlyA), fmt.Sprint(c.OnlyB), fmt.Sprintf("%.4g", c.PValue), fmt.Sprint(c.Resamples)})
 		}
 		add(t)
 	}
@@ -355,10 +392,10 @@ func buildDoc(r *Report) ([]block, error) {
 	if len(r.Robustness) > 0 {
 		add(headBlock{2, "Robustness"})
 		add(paraBlock{"Models trained on clean images, tested on perturbed copies of the test set (the same perturbed images for every model); accuracy with 95% Wilson interval."})
-		t := tableBlock{header: []string{"model", "data", "kind", "level", "unit", "perturbation", "accuracy", "ci_low", "ci_high"}}
+		t := tableBlock{header: []string{"model", "test set", "kind", "level", "unit", "perturbation", "accuracy (%)", "95% interval (%)"}}
 		for _, rb := range r.Robustness {
 			for _, p := range rb.Points {
-				t.rows = append(t.rows, []string{rb.Model, rb.Data, p.Kind, fmt.Sprintf("%g", p.Level), p.Unit, p.Label, f4(p.Accuracy), f4(p.CI.Lo), f4(p.CI.Hi)})
+				t.rows = append(t.rows, []string{rb.Model, rb.Data, p.Kind, fmt.Sprintf("%g", p.Level), p.Unit, p.Label, pct(p.Accuracy), pctCI(p.CI)})
 			}
 		}
 		add(t)
@@ -378,13 +415,19 @@ func buildDoc(r *Report) ([]block, error) {
 		}
 	}
 
+	if len(r.Suites) > 0 {
+		if err := suiteBlocks(r.Suites, add, fig); err != nil {
+			return nil, err
+		}
+	}
+
 	if len(r.Labels) > 0 {
 		add(headBlock{2, "Label efficiency"})
 		add(paraBlock{"Test accuracy after training on a class-balanced subset with the given number of labelled images per class (subsets nested across sizes)."})
-		t := tableBlock{header: []string{"model", "data", "per_class", "n_train", "repeat", "accuracy", "ci_low", "ci_high"}}
+		t := tableBlock{header: []string{"model", "test set", "labels per class", "training images", "repeat", "accuracy (%)", "95% interval (%)"}}
 		for _, lc := range r.Labels {
 			for _, p := range lc.Points {
-				t.rows = append(t.rows, []string{lc.Model, lc.Data, fmt.Sprint(p.PerClass), fmt.Sprint(p.NTrain), fmt.Sprint(p.Repeat), f4(p.Accuracy), f4(p.CI.Lo), f4(p.CI.Hi)})
+				t.rows = append(t.rows, []string{lc.Model, lc.Data, fmt.Sprint(p.PerClass), fmt.Sprint(p.NTrain), fmt.Sprint(p.Repeat), pct(p.Accuracy), pctCI(p.CI)})
 			}
 		}
 		add(t)
@@ -408,11 +451,12 @@ func buildDoc(r *Report) ([]block, error) {
 	if len(r.Invariance) > 0 {
 		add(headBlock{2, "Front-end invariance"})
 		add(paraBlock{"Each front-end channel probed with full-field sinusoidal gratings over orientation, wavelength and phase. " +
-			"phase_corr: correlation of the centre response a quarter cycle apart (1 = phase-invariant, 0 = linear); " +
-			"shift_corr: correlation of the whole map under a 1 px shift; F1/F0 at the preferred grating classifies simple (> 1) and complex (< 1) cells (Skottun et al. 1991)."})
+			"Phase correlation: correlation of the centre response a quarter cycle apart (1 = phase-invariant, 0 = linear); " +
+			"shift correlation: correlation of the whole map under a 1 px shift; F1/F0 at the preferred grating classifies simple (> 1) and complex (< 1) cells (Skottun et al. 1991)."})
 		for _, iv := range r.Invariance {
 			add(headBlock{3, iv.Model})
-			t := tableBlock{header: []string{"channel", "kind", "orientation_deg", "wavelength_px", "pref_orientation_deg", "pref_wavelength_px", "phase_corr", "shift_corr", "f1_f0"}}
+			t := tableBlock{header: []string{"channel", "kind", "orientation (°)", "wavelength (px)", "preferred orientation (°)", "preferred wavelength (px)",
+				"phase correlation", "shift correlation", "F1/F0"}}
 			var labels []string
 			for i, row := range iv.Rows {
 				kind, ori, wl := "", "", ""
@@ -450,7 +494,8 @@ func buildDoc(r *Report) ([]block, error) {
 		add(headBlock{2, "Speed and memory"})
 		add(paraBlock{"Throughput in images per second of wall time (median of repeats, batches over all workers); latency of single-image prediction on one worker; " +
 			"peak heap is the largest sampled live-heap size during the runs, in MiB; model size is the saved file in bytes."})
-		add(tableBlock{header: []string{"model", "images", "workers", "extract_img_per_s", "predict_img_per_s", "latency_p50_ms", "latency_p99_ms", "peak_heap_mib", "model_bytes"}, rows: speedRows})
+		add(tableBlock{header: []string{"model", "images", "workers", "extraction (images/s)", "prediction (images/s)", "latency, median (ms)",
+			"latency, 99th percentile (ms)", "peak heap (MiB)", "model file (bytes)"}, rows: speedRows})
 	}
 
 	if len(r.Banks) > 0 {
@@ -639,9 +684,11 @@ func inlineMD(s string) string {
 }
 
 const htmlStyle = `body{font-family:system-ui,-apple-system,"Segoe UI",Helvetica,Arial,sans-serif;max-width:1100px;margin:2em auto;padding:0 1em;color:#222;line-height:1.45}
-table{border-collapse:collapse;margin:1em 0;font-size:0.85em;display:block;overflow-x:auto}
+table{border-collapse:collapse;margin:1em 0;font-size:0.85em;display:block;max-width:100%;overflow-x:auto}
 th,td{border:1px solid #ccc;padding:3px 7px;text-align:right;white-space:nowrap}
-th{background:#f0f3f7}td:first-child,th:first-child{text-align:left}
+th{background:#f0f3f7;white-space:normal;vertical-align:bottom;min-width:4em;max-width:11em}
+th.t{text-align:left}td.t{white-space:normal;text-align:left;min-width:6em;max-width:26em;overflow-wrap:anywhere}
+td:first-child,th:first-child{text-align:left}
 figure{margin:1.5em 0}figure img{max-width:100%;border:1px solid #eee}figcaption{font-size:0.9em;color:#555}
 pre{background:#f6f8fa;padding:1em;overflow-x:auto;font-size:0.8em}code{background:#f6f8fa;padding:0 3px}`
 
@@ -665,14 +712,28 @@ func renderHTML(title string, doc []block) string {
 			b.WriteString("</ul>\n")
 		case tableBlock:
 			b.WriteString("<table>\n<thead><tr>")
-			for _, h := range v.header {
-				fmt.Fprintf(&b, "<th>%s</th>", html.EscapeString(h))
+			for j, h := range v.header {
+				attr := ""
+				for _, row := range v.rows {
+					if j < len(row) && !numericCell.MatchString(row[j]) {
+						attr = ` class="t"` // a text column: its heading goes left too
+						break
+					}
+				}
+				fmt.Fprintf(&b, "<th%s>%s</th>", attr, html.EscapeString(h))
 			}
 			b.WriteString("</tr></thead>\n<tbody>\n")
-			for _, row := range v.rows {
+			for i, row := range v.rows {
 				b.WriteString("<tr>")
-				for _, c := range row {
-					fmt.Fprintf(&b, "<td>%s</td>", html.EscapeString(c))
+				for j, c := range row {
+					attr := ""
+					if tip, ok := v.tips[[2]int{i, j}]; ok && tip != "" {
+						attr = ` title="` + html.EscapeString(tip) + `"`
+					}
+					if !numericCell.MatchString(c) {
+						attr += ` class="t"`
+					}
+					fmt.Fprintf(&b, "<td%s>%s</td>", attr, html.EscapeString(c))
 				}
 				b.WriteString("</tr>\n")
 			}
@@ -687,4 +748,63 @@ func renderHTML(title string, doc []block) string {
 	}
 	b.WriteString("</body>\n</html>\n")
 	return b.String()
+}
+
+// numericCell matches the table cells that are numbers, intervals or sizes
+// (kept on one line); other cells may wrap in report.html.
+var numericCell = regexp.MustCompile(`^[-+−]?[0-9.,]*[0-9]([–×][-+−]?[0-9.]+| to [-+−]?[0-9.]+)?%?$|^$|^—$`)
+
+// signedPct formats a difference of fractions in percentage points with its
+// sign.
+func signedPct(x float64) string { return fmt.Sprintf("%+.2f", 100*x) }
+
+// shortSource shortens a Provenance.Source for a table cell: each of the
+// paths joined by " + " becomes its base name.
+func shortSource(src string) string {
+	parts := strings.Split(src, " + ")
+	for i, p := range parts {
+		if b := filepath.Base(strings.TrimSpace(p)); b != "." && b != "/" {
+			parts[i] = b
+		}
+	}
+	return strings.Join(parts, " + ")
+}
+
+// keyFigures returns the opening list of the report: each model's accuracy,
+// each paired comparison, the lowest accuracy of each robustness sweep, the
+// development-suite figures and the prediction speed.
+func keyFigures(r *Report) []string {
+	var out []string
+	for _, m := range r.Models {
+		if m.Metrics == nil {
+			continue
+		}
+		mm := m.Metrics
+		s := fmt.Sprintf("**%s** on %s: %s%% accurate (95%% interval %s%%) on %d test images, class-mean F1 %s%%",
+			m.Name, m.Data, pct(mm.Accuracy), pctCI(mm.CI), mm.N, pct(mm.Macro.F1))
+		if m.Speed != nil && m.Speed.PredictPerSec > 0 {
+			s += fmt.Sprintf(", %.0f images/s on %d workers", m.Speed.PredictPerSec, m.Speed.Workers)
+		}
+		out = append(out, s+".")
+	}
+	for _, c := range r.Comparisons {
+		cond := c.Condition
+		if cond == "" {
+			cond = "clean"
+		}
+		out = append(out, fmt.Sprintf("%s − %s (%s): %s points (95%% interval %s to %s), McNemar p = %.3g.",
+			c.NameA, c.NameB, cond, signedPct(c.Diff), signedPct(c.DiffCI.Lo), signedPct(c.DiffCI.Hi), c.PValue))
+	}
+	for _, rb := range r.Robustness {
+		var low *RobustPoint
+		for i := range rb.Points {
+			if p := &rb.Points[i]; p.Label != "clean" && (low == nil || p.Accuracy < low.Accuracy) {
+				low = p
+			}
+		}
+		if low != nil {
+			out = append(out, fmt.Sprintf("%s on %s, perturbed: lowest accuracy %s%% (%s).", rb.Model, rb.Data, pct(low.Accuracy), low.Label))
+		}
+	}
+	return append(out, suiteKeyFigures(r.Suites)...)
 }

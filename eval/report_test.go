@@ -8,12 +8,14 @@ import (
 	"math"
 	"os"
 	"path/filepath"
+	"reflect"
 	"regexp"
 	"strconv"
 	"strings"
 	"testing"
 	"time"
 
+	"github.com/striate/striate/datasets"
 	"github.com/striate/striate/v1layer"
 )
 
@@ -107,19 +109,60 @@ func sampleReport(t *testing.T) *Report {
 				Meta: v1layer.Channel{Kind: v1layer.KindLearned, Wavelength: lam, Pair: 2*i + 1 - j}})
 		}
 	}
+	suite, right := knownSuite()
+	st := indexedSet(40, 4, 4, 4)
+	s1, err := ScoreSuite("hand-set", subsetPredictor{4, right}, st, suite, SuiteConfig{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	right2 := map[int]int{}
+	for k, v := range right {
+		right2[k] = max(0, v-3*(k%3))
+	}
+	s2, err := ScoreSuite("learned", subsetPredictor{4, right2}, st, suite, SuiteConfig{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	peer, err := ParsePeer([]byte(peerJSON(suite, right, 40, datasets.SuiteSeed)), "testdata/peer/lenet5_indexed.json", "")
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := s1.SetPeer(peer); err != nil {
+		t.Fatal(err)
+	}
+	// The whole development suite on 28×28 quadrant images, with a peer
+	// made of a second recognizer's figures, as the report shows a real run.
+	qs := quadrantSet(32)
+	q1, err := ScoreSuite("hand-set", quadrantPredictor{}, qs, datasets.DevelopmentSuite(), SuiteConfig{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	q2, err := ScoreSuite("peer", blurredQuadrants{}, qs, datasets.DevelopmentSuite(), SuiteConfig{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	qp, err := ParsePeer(peerFileOf(q2), "testdata/peer/lenet5_quadrants.json", "")
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := q1.SetPeer(qp); err != nil {
+		t.Fatal(err)
+	}
 	return &Report{
+		Suites:  []*SuiteResult{s1, s2, q1},
 		Banks:   []BankPanel{{Name: "hand-set", Bank: hand}, {Name: "learned", Bank: learned}},
 		Title:   "Sample report | garment-sorting station",
 		Created: time.Date(2026, 12, 1, 12, 0, 0, 0, time.UTC),
 		Summary: "A **synthetic** report built by the eval tests from `predictions.json` and test fakes.",
 		Command: "go test ./eval -run TestWriteReport",
 		Config:  map[string]any{"hand-set": map[string]int{"orientations": 4}, "learned": map[string]int{"atoms": 64}},
-		Data: []Provenance{{Name: "garments", Source: "testdata/eval/predictions.json", Train: 0, Test: len(p.Labels), H: 28, W: 28,
-			Classes: p.Classes, Note: "synthetic predictions"}},
+		Data: []Provenance{{Name: "garments", Source: "/srv/depot/intake/2026-11/garments-test-images-idx3-ubyte.gz + /srv/depot/intake/2026-11/garments-test-labels-idx1-ubyte.gz",
+			TrainName: "garments-train", Train: 6000, Test: len(p.Labels), H: 28, W: 28, Classes: p.Classes, Note: "synthetic predictions"}},
 		Models: []ModelResult{
 			{Name: "hand-set", Data: "garments", Description: "Gabor bank", TrainSeconds: 12.5, Metrics: m1,
 				Speed: &Speed{Images: 300, Workers: 2, ExtractPerSec: 4100, PredictPerSec: 3900, LatencyP50: 0.41, LatencyP99: 0.93, HeapPeak: 48 << 20, ModelBytes: 123456}},
 			{Name: "learned", Data: "garments", Metrics: m2},
+			{Name: "hand-set", Data: "garments-again", Description: "Gabor bank", Metrics: m1},
 		},
 		Comparisons: []*Comparison{cmp},
 		Robustness:  []*Robustness{r1, r2},
@@ -127,6 +170,55 @@ func sampleReport(t *testing.T) *Report {
 		Invariance:  []InvarianceResult{{Model: "test cells", Channels: chans, Rows: inv}},
 		Notes:       []string{"Numbers here are synthetic.", "A `code` note."},
 	}
+}
+
+// blurredQuadrants is quadrantPredictor blind to a band across the middle,
+// a second recognizer that differs from the first under shifts and warps.
+type blurredQuadrants struct{}
+
+func (blurredQuadrants) NumClasses() int { return 4 }
+
+func (blurredQuadrants) PredictBatch(imgs [][]float32, h, w, workers int) ([][]float32, error) {
+	cut := make([][]float32, len(imgs))
+	for j, im := range imgs {
+		c := append([]float32(nil), im...)
+		for y := h/2 - 2; y < h/2+2; y++ {
+			for x := range w {
+				c[y*w+x] = 0
+			}
+		}
+		cut[j] = c
+	}
+	return quadrantPredictor{}.PredictBatch(cut, h, w, workers)
+}
+
+// peerFileOf writes r's accuracies in the layout of testdata/peer/lenet5.py
+// (one seed).
+func peerFileOf(r *SuiteResult) []byte {
+	type cond struct {
+		Name     string    `json:"name"`
+		Group    string    `json:"group"`
+		Kind     string    `json:"kind"`
+		Unit     string    `json:"unit"`
+		Level    float64   `json:"level"`
+		Accuracy []float64 `json:"accuracy"`
+		Mean     float64   `json:"mean"`
+	}
+	f := struct {
+		Generator  string `json:"generator"`
+		Dataset    string `json:"dataset"`
+		SuiteSeed  uint64 `json:"suite_seed"`
+		Seeds      []int  `json:"seeds"`
+		Conditions []cond `json:"conditions"`
+	}{"eval tests", r.Data, r.Seed, []int{0}, []cond{{Name: "clean", Group: "clean", Accuracy: []float64{r.Clean.Accuracy}, Mean: r.Clean.Accuracy}}}
+	for _, p := range r.Points {
+		f.Conditions = append(f.Conditions, cond{p.Name, p.Group, p.Kind, p.Unit, p.Level, []float64{p.Accuracy}, p.Accuracy})
+	}
+	b, err := json.Marshal(f)
+	if err != nil {
+		panic(err)
+	}
+	return b
 }
 
 // parseMarkdownTables returns every table in md as header + rows.
@@ -197,9 +289,9 @@ func TestWriteReport(t *testing.T) {
 			}
 		}
 	}
-	// per-class + reliability (1 data set), confusion ×2, robustness, labels, invariance, mosaics
-	if len(pngs) != 8 {
-		t.Errorf("%d figures: %v; want 8", len(pngs), pngs)
+	// per-class + reliability (2 data sets), confusion ×3, robustness, suite kinds and curves ×2, labels, invariance, mosaics
+	if len(pngs) != 15 {
+		t.Errorf("%d figures: %v; want 15", len(pngs), pngs)
 	}
 
 	md, err := os.ReadFile(filepath.Join(dir, ReportMarkdown))
@@ -215,18 +307,82 @@ func TestWriteReport(t *testing.T) {
 	tables := parseMarkdownTables(string(md))
 	var acc [][]string
 	for _, tb := range tables {
-		if len(tb) > 0 && tb[0][0] == "model" && len(tb[0]) > 3 && tb[0][3] == "accuracy" {
+		if len(tb) > 0 && tb[0][0] == "model" && len(tb[0]) > 3 && tb[0][3] == "accuracy (%)" {
 			acc = tb
 		}
 	}
-	if len(acc) != 3 {
-		t.Fatalf("accuracy table %v; want header + 2 rows", acc)
+	if len(acc) != 4 {
+		t.Fatalf("accuracy table %v; want header + 3 rows", acc)
 	}
 	for i, m := range r.Models {
+		// Two decimals of a percentage: off by at most half a unit of the last digit.
 		got, err := strconv.ParseFloat(acc[i+1][3], 64)
-		if err != nil || math.Abs(got-m.Metrics.Accuracy) > 5e-5 {
-			t.Errorf("table accuracy of %s = %q; want %.4f", m.Name, acc[i+1][3], m.Metrics.Accuracy)
+		if err != nil || math.Abs(got-100*m.Metrics.Accuracy) > 0.005+1e-9 {
+			t.Errorf("table accuracy of %s = %q; want %.2f", m.Name, acc[i+1][3], 100*m.Metrics.Accuracy)
 		}
+	}
+	// Headings are words with units, never JSON keys, and the per-class
+	// tables use our own row names.
+	jsonKey := regexp.MustCompile(`^[a-z0-9]+(_[a-z0-9]+)+$`)
+	for _, tb := range tables {
+		for _, h := range tb[0] {
+			if jsonKey.MatchString(h) {
+				t.Errorf("table %q has the raw heading %q", tb[0][0], h)
+			}
+		}
+	}
+	for _, word := range []string{"support", "macro avg", "weighted avg", "macro_avg", "weighted_avg"} {
+		if strings.Contains(string(md), word) {
+			t.Errorf("report.md says %q", word)
+		}
+	}
+	if !strings.Contains(string(md), "| class mean | 300 |") || !strings.Contains(string(md), "| image-weighted mean | 300 |") {
+		t.Error("per-class table lacks the class-mean and image-weighted-mean rows")
+	}
+	if n := strings.Count(string(md), "**hand-set**: Gabor bank"); n != 1 {
+		t.Errorf("the description of hand-set is printed %d times; want once", n)
+	}
+	// The Data table names the training set, and shows file names, not paths.
+	for _, tb := range tables {
+		if tb[0][0] == "test set" {
+			if tb[0][1] != "trained on" || tb[1][1] != "garments-train" || tb[1][2] != "6000" {
+				t.Errorf("data table %v", tb)
+			}
+			if last := tb[1][len(tb[1])-1]; last != "garments-test-images-idx3-ubyte.gz + garments-test-labels-idx1-ubyte.gz" {
+				t.Errorf("data table files cell %q", last)
+			}
+		}
+	}
+	// The development suite: its figures sit in its section, and the
+	// condition table shows each model's and the peer's accuracy
+	// (alpha-2: 30/40 right, the second model 3·(2 mod 3) = 6 fewer, the peer 1 point below).
+	if h, f := strings.Index(string(md), "## Development suite"), strings.Index(string(md), "(figures/suite-kinds-"); h < 0 || f < h {
+		t.Error("the suite figures are not in the development-suite section")
+	}
+	found := false
+	for _, tb := range tables {
+		if tb[0][0] != "condition" || len(tb) < 3 || tb[2][0] != "alpha-1" {
+			continue // not the indexed-test table
+		}
+		if !reflect.DeepEqual(tb[0][3:], []string{"hand-set (%)", "learned (%)", "LeNet-5 (peer) (%)", "hand-set 95% interval (%)", "learned 95% interval (%)"}) {
+			t.Errorf("condition table header %v", tb[0])
+		}
+		for _, row := range tb[1:] {
+			if row[0] == "alpha-2" {
+				found = true
+				if want := []string{"75.00", "60.00", "74.00", pctCI(Wilson(30, 40, 0.95)), pctCI(Wilson(24, 40, 0.95))}; !reflect.DeepEqual(row[3:], want) {
+					t.Errorf("alpha-2 row %v; want %v", row[3:], want)
+				}
+			}
+		}
+	}
+	if !found {
+		t.Error("no condition table with alpha-2")
+	}
+	// The opening key figures come before the data table.
+	if k, d := strings.Index(string(md), "## Key figures"), strings.Index(string(md), "## Data"); k < 0 || k > d ||
+		!strings.Contains(string(md), "- **hand-set** on garments: ") {
+		t.Error("report.md does not open with the key figures")
 	}
 	for _, tb := range tables {
 		for j, row := range tb {
@@ -245,8 +401,10 @@ func TestWriteReport(t *testing.T) {
 	if err := json.Unmarshal(js, &back); err != nil {
 		t.Fatalf("results.json: %v", err)
 	}
-	if len(back.Models) != 2 || back.Models[1].Metrics.Accuracy != r.Models[1].Metrics.Accuracy ||
-		len(back.Robustness) != 2 || back.Comparisons[0].PValue != r.Comparisons[0].PValue {
+	if len(back.Models) != 3 || back.Models[1].Metrics.Accuracy != r.Models[1].Metrics.Accuracy ||
+		len(back.Robustness) != 2 || back.Comparisons[0].PValue != r.Comparisons[0].PValue ||
+		len(back.Suites) != 3 || back.Suites[0].Peer == nil || back.Suites[0].Peer.MeanCorruption != r.Suites[0].Peer.MeanCorruption ||
+		back.Suites[1].Worst.Kind != r.Suites[1].Worst.Kind || back.Suites[1].Points[3].CI != r.Suites[1].Points[3].CI {
 		t.Errorf("results.json lost data: %+v", back.Models)
 	}
 
@@ -264,6 +422,9 @@ func TestWriteReport(t *testing.T) {
 	}
 	if !strings.Contains(hs, "Sample report | garment-sorting station") || !strings.Contains(hs, "<strong>synthetic</strong>") {
 		t.Error("report.html lacks the escaped title or the inline markup")
+	}
+	if !strings.Contains(hs, `title="`+r.Data[0].Source+`"`) {
+		t.Error("report.html has no tooltip with the full file paths")
 	}
 }
 

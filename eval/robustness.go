@@ -99,15 +99,12 @@ func RobustnessSweep(model string, p Predictor, test *Data, conds []Condition, c
 	if len(conds) == 0 {
 		return nil, fmt.Errorf("eval: robustness sweep of %s with no conditions", model)
 	}
-	if k := p.NumClasses(); k != len(test.Classes) {
-		return nil, fmt.Errorf("eval: model %s predicts %d classes but data %q has %d", model, k, test.Name, len(test.Classes))
+	if err := checkClassCount(model, p, test.Name, len(test.Classes)); err != nil {
+		return nil, err
 	}
-	conf := cfg.Confidence
-	if conf == 0 {
-		conf = 0.95
-	}
-	if !(conf > 0 && conf < 1) {
-		return nil, fmt.Errorf("eval: confidence %v outside (0,1); use e.g. 0.95", conf)
+	conf, err := confidenceLevel(cfg.Confidence)
+	if err != nil {
+		return nil, err
 	}
 	n, hw := len(test.Images), test.H*test.W
 	buf := make([]float32, n*hw)

@@ -18,6 +18,27 @@ func (iv Interval) String() string {
 	return fmt.Sprintf("[%.4f, %.4f]", iv.Lo, iv.Hi)
 }
 
+// confidenceLevel returns the interval level c, 0.95 when c is 0, or an
+// error when it is outside (0,1).
+func confidenceLevel(c float64) (float64, error) {
+	if c == 0 {
+		return 0.95, nil
+	}
+	if !(c > 0 && c < 1) {
+		return 0, fmt.Errorf("eval: confidence %v outside (0,1); use e.g. 0.95", c)
+	}
+	return c, nil
+}
+
+// checkClassCount reports a predictor whose class count differs from the
+// data's.
+func checkClassCount(model string, p Predictor, data string, k int) error {
+	if n := p.NumClasses(); n != k {
+		return fmt.Errorf("eval: model %s predicts %d classes but data %q has %d", model, n, data, k)
+	}
+	return nil
+}
+
 // zQuantile returns the two-sided standard normal quantile for confidence
 // level conf, z = Φ⁻¹((1+conf)/2); 1.959964 for 0.95.
 func zQuantile(conf float64) float64 {

@@ -102,7 +102,7 @@ func BenchmarkHeadStep(b *testing.B) {
 				var e nn.Engine
 				var err error
 				if eng == EngineGo {
-					e, err = nn.NewPlain(sp, headGemm)
+					e, err = nn.NewPlain(sp, headKernel(), nil)
 				} else {
 					e, err = nn.New(sp)
 				}

@@ -203,7 +203,7 @@ func testPlainMatchesGraph(t *testing.T, kern GemmNTFunc) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		pl, err := NewPlain(sp, kern)
+		pl, err := NewPlain(sp, kern, nil)
 		if err != nil {
 			t.Fatal(err)
 		}

@@ -28,21 +28,53 @@ func GemmNTGonum(c, a, b []float32, m, n, p int) {
 // along rows), so a faster kernel (package learn's SIMD build) plugs in
 // through NewPlain; the weight gradients dW = dZᵀ·X are formed as
 // (dZᵀ)·(Xᵀ)ᵀ from transposed copies of the batch.
+//
+// The batch is split into Spec.Chunks row chunks (rows [c·B/C, (c+1)·B/C)),
+// each with its own activations and gradient buffers. Eval computes every
+// chunk's share of the gradient (the loss terms of its rows, already divided
+// by the whole batch size B), on the goroutines of a Team, and then sums the
+// shares in chunk order 0, 1, …, C−1, element by element, over fixed ranges
+// of the parameters. The arithmetic is thus fixed by the Spec alone: any
+// number of workers gives the same gradient bit for bit.
 type Plain struct {
 	spec   Spec
 	gemm   GemmNTFunc
+	team   *Team
 	params [][]float32
 	x, y   []float32
-	z      []float32 // B×K logits, then dZ
-	a, da  []float32 // B×H activations and their gradient (mlp)
-	// transposes: of the layer input (in×B), of the output gradient (out×B),
-	// and of W2 (H×K)
-	tin, tout, w2t []float32
+	w2t    []float32 // W2ᵀ (H×K), shared by the chunks (mlp)
+	chunks []plainChunk
+	ranges []paramRange // reduction units over the parameters
+	sq     []float64    // per range: Σ w² of its weights (L2 term)
+	grads  [][]float32  // the caller's gradients during Eval
+	// func values made once, so that Eval allocates nothing
+	chunkFn, reduceFn func(int)
 }
 
+// plainChunk is one row chunk's scratch.
+type plainChunk struct {
+	r0, r1 int       // rows [r0, r1) of the batch
+	z      []float32 // rows×K logits, then dZ
+	a, da  []float32 // rows×H activations and their gradient (mlp)
+	// transposes: of the layer input (in×rows) and of the output gradient (out×rows)
+	tin, tout []float32
+	g         [][]float32 // the chunk's gradient share (chunk 0 writes the caller's grads)
+	loss      float64     // Σ over its rows of −log p(y), not yet divided by B
+}
+
+// paramRange is elements [lo, hi) of parameter tensor i.
+type paramRange struct{ i, lo, hi int }
+
+// reduceRange is the length of one reduction unit: large enough that handing
+// out a unit costs nothing beside summing it, small enough that the units
+// spread over a handful of workers.
+const reduceRange = 1 << 14
+
 // NewPlain validates s (which must be float32) and allocates the engine.
-// gemm nil means GemmNTGonum.
-func NewPlain(s Spec, gemm GemmNTFunc) (*Plain, error) {
+// gemm nil means GemmNTGonum. team runs the chunks and may be nil (all on
+// the caller); Plain does not close it. With several workers gemm must be
+// safe for concurrent use.
+func NewPlain(s Spec, gemm GemmNTFunc, team *Team) (*Plain, error) {
 	if err := s.validate(); err != nil {
 		return nil, err
 	}
@@ -52,26 +84,43 @@ func NewPlain(s Spec, gemm GemmNTFunc) (*Plain, error) {
 	if gemm == nil {
 		gemm = GemmNTGonum
 	}
-	p := &Plain{spec: s, gemm: gemm,
+	p := &Plain{spec: s, gemm: gemm, team: team,
 		x: make([]float32, s.Batch*s.In),
 		y: make([]float32, s.Batch*s.Out),
-		z: make([]float32, s.Batch*s.Out),
 	}
-	for _, sh := range s.ParamShapes() {
+	for i, sh := range s.ParamShapes() {
 		n := 1
 		for _, v := range sh {
 			n *= v
 		}
 		p.params = append(p.params, make([]float32, n))
+		for lo := 0; lo < n; lo += reduceRange {
+			p.ranges = append(p.ranges, paramRange{i, lo, min(n, lo+reduceRange)})
+		}
 	}
-	wide := max(s.In, s.Hidden)
-	p.tin = make([]float32, wide*s.Batch)
-	p.tout = make([]float32, max(s.Hidden, s.Out)*s.Batch)
+	p.sq = make([]float64, len(p.ranges))
 	if s.Hidden > 0 {
-		p.a = make([]float32, s.Batch*s.Hidden)
-		p.da = make([]float32, s.Batch*s.Hidden)
 		p.w2t = make([]float32, s.Hidden*s.Out)
 	}
+	nc := s.chunks()
+	for c := 0; c < nc; c++ {
+		ch := plainChunk{r0: c * s.Batch / nc, r1: (c + 1) * s.Batch / nc}
+		rows := ch.r1 - ch.r0
+		ch.z = make([]float32, rows*s.Out)
+		ch.tin = make([]float32, max(s.In, s.Hidden)*rows)
+		ch.tout = make([]float32, max(s.Hidden, s.Out)*rows)
+		if s.Hidden > 0 {
+			ch.a = make([]float32, rows*s.Hidden)
+			ch.da = make([]float32, rows*s.Hidden)
+		}
+		if c > 0 {
+			for _, q := range p.params {
+				ch.g = append(ch.g, make([]float32, len(q)))
+			}
+		}
+		p.chunks = append(p.chunks, ch)
+	}
+	p.chunkFn, p.reduceFn = p.evalChunk, p.reduce
 	return p, nil
 }
 
@@ -110,8 +159,8 @@ func (p *Plain) forwardAffine(out, in, W, b []float32, B, n, m int) {
 }
 
 // backwardAffine sets dW (m×n) = dOutᵀ·in and db = column sums of dOut.
-func (p *Plain) backwardAffine(dW, db, dOut, in []float32, B, n, m int) {
-	tin, tout := p.tin[:n*B], p.tout[:m*B]
+func (p *Plain) backwardAffine(ch *plainChunk, dW, db, dOut, in []float32, B, n, m int) {
+	tin, tout := ch.tin[:n*B], ch.tout[:m*B]
 	transpose(tin, in, B, n)
 	transpose(tout, dOut, B, m)
 	p.gemm(dW, tout, tin, m, n, B)
@@ -136,46 +185,23 @@ func (p *Plain) Eval(grads any) (float64, error) {
 		}
 	}
 	s := p.spec
-	B, D, H, K := s.Batch, s.In, s.Hidden, s.Out
-	var loss float64
-	if H == 0 {
-		p.forwardAffine(p.z, p.x, p.params[0], p.params[1], B, D, K)
-		loss = softmaxCE(p.z, p.y, B, K)
-		p.backwardAffine(g[0], g[1], p.z, p.x, B, D, K)
-	} else {
-		p.forwardAffine(p.a, p.x, p.params[0], p.params[1], B, D, H)
-		for i, v := range p.a {
-			if v < 0 {
-				p.a[i] = 0
-			}
-		}
-		p.forwardAffine(p.z, p.a, p.params[2], p.params[3], B, H, K)
-		loss = softmaxCE(p.z, p.y, B, K)
-		p.backwardAffine(g[2], g[3], p.z, p.a, B, H, K)
-		// dA = dZ·W2 = dZ·(W2ᵀ)ᵀ, masked by the ReLU.
-		transpose(p.w2t, p.params[2], K, H)
-		p.gemm(p.da, p.z, p.w2t, B, H, K)
-		for i, v := range p.a {
-			if v <= 0 {
-				p.da[i] = 0
-			}
-		}
-		p.backwardAffine(g[0], g[1], p.da, p.x, B, D, H)
+	if s.Hidden > 0 {
+		transpose(p.w2t, p.params[2], s.Out, s.Hidden)
 	}
+	p.grads = g
+	p.team.Run(len(p.chunks), p.chunkFn)
+	p.team.Run(len(p.ranges), p.reduceFn)
+	p.grads = nil
+	var ce, sq float64
+	for _, ch := range p.chunks {
+		ce += ch.loss
+	}
+	for _, v := range p.sq {
+		sq += v
+	}
+	loss := ce / float64(s.Batch)
 	if s.L2 > 0 {
-		lam := float32(s.L2)
-		for _, wi := range []int{0, 2} {
-			if wi >= len(p.params) {
-				break
-			}
-			var sq float64
-			w, gw := p.params[wi], g[wi]
-			for j, v := range w {
-				sq += float64(v) * float64(v)
-				gw[j] += lam * v
-			}
-			loss += s.L2 / 2 * sq
-		}
+		loss += s.L2 / 2 * sq
 	}
 	if math.IsNaN(loss) || math.IsInf(loss, 0) {
 		return loss, ErrNonFinite
@@ -183,11 +209,70 @@ func (p *Plain) Eval(grads any) (float64, error) {
 	return loss, nil
 }
 
-// softmaxCE returns −(1/B) Σ_i Σ_k Y_ik log softmax(Z_i)_k and overwrites z
-// with dloss/dZ = (softmax(Z) − Y)/B. Sums run in float64.
-func softmaxCE(z, y []float32, B, K int) float64 {
+// evalChunk computes chunk c's loss terms and its share of the gradient.
+func (p *Plain) evalChunk(c int) {
+	s := p.spec
+	ch := &p.chunks[c]
+	g := ch.g
+	if c == 0 {
+		g = p.grads
+	}
+	B, D, H, K := ch.r1-ch.r0, s.In, s.Hidden, s.Out
+	x, y := p.x[ch.r0*D:ch.r1*D], p.y[ch.r0*K:ch.r1*K]
+	invB := 1 / float64(s.Batch)
+	if H == 0 {
+		p.forwardAffine(ch.z, x, p.params[0], p.params[1], B, D, K)
+		ch.loss = softmaxCE(ch.z, y, B, K, invB)
+		p.backwardAffine(ch, g[0], g[1], ch.z, x, B, D, K)
+		return
+	}
+	p.forwardAffine(ch.a, x, p.params[0], p.params[1], B, D, H)
+	for i, v := range ch.a {
+		if v < 0 {
+			ch.a[i] = 0
+		}
+	}
+	p.forwardAffine(ch.z, ch.a, p.params[2], p.params[3], B, H, K)
+	ch.loss = softmaxCE(ch.z, y, B, K, invB)
+	p.backwardAffine(ch, g[2], g[3], ch.z, ch.a, B, H, K)
+	// dA = dZ·W2 = dZ·(W2ᵀ)ᵀ, masked by the ReLU.
+	p.gemm(ch.da, ch.z, p.w2t, B, H, K)
+	for i, v := range ch.a {
+		if v <= 0 {
+			ch.da[i] = 0
+		}
+	}
+	p.backwardAffine(ch, g[0], g[1], ch.da, x, B, D, H)
+}
+
+// reduce sums the chunks' gradient shares over range u in chunk order, then
+// adds the L2 term's gradient λ·W (weight tensors 0 and 2 only) and records
+// the range's Σ w².
+func (p *Plain) reduce(u int) {
+	r := p.ranges[u]
+	dst := p.grads[r.i][r.lo:r.hi]
+	for _, ch := range p.chunks[1:] {
+		for j, v := range ch.g[r.i][r.lo:r.hi] {
+			dst[j] += v
+		}
+	}
+	p.sq[u] = 0
+	if p.spec.L2 > 0 && (r.i == 0 || r.i == 2) {
+		lam := float32(p.spec.L2)
+		var sq float64
+		for j, v := range p.params[r.i][r.lo:r.hi] {
+			sq += float64(v) * float64(v)
+			dst[j] += lam * v
+		}
+		p.sq[u] = sq
+	}
+}
+
+// softmaxCE returns −Σ_i Σ_k Y_ik log softmax(Z_i)_k over the B rows of z and
+// overwrites z with dloss/dZ = (softmax(Z) − Y)·invB, invB = 1/(whole batch
+// size). Sums run in float64.
+func softmaxCE(z, y []float32, B, K int, invB float64) float64 {
 	var loss float64
-	invB := 1 / float64(B)
 	for i := 0; i < B; i++ {
 		zr, yr := z[i*K:(i+1)*K], y[i*K:(i+1)*K]
 		mx := zr[0]
@@ -207,5 +292,5 @@ func softmaxCE(z, y []float32, B, K int) float64 {
 			zr[k] = float32((math.Exp(lp) - float64(yr[k])) * invB)
 		}
 	}
-	return loss * invB
+	return loss
 }

@@ -368,6 +368,7 @@ func (c HeadConfig) FitWith(X []float32, y []int, nClasses int, opt HeadFitOptio
 	for i, r := range val {
 		valY[i] = y[r]
 	}
+	var gradsAny any = grads // converted once: a conversion per step would allocate
 	stepper := newHeadStepper(team, X, y, d, nClasses, mean, std, net.X32(), net.Y32(), params, grads, st, cfg)
 	var probs, scratch []float32
 	for epoch := st.epoch; epoch < cfg.Epochs; epoch++ {
@@ -382,7 +383,7 @@ func (c HeadConfig) FitWith(X []float32, y []int, nClasses int, opt HeadFitOptio
 				stepper.rows[b] = train[order[s*batch+b]]
 			}
 			stepper.fillBatch()
-			loss, err := net.Eval(grads)
+			loss, err := net.Eval(gradsAny)
 			if err != nil {
 				return nil, rep, fmt.Errorf("learn: head fit: epoch %d step %d: %w (lower HeadConfig.LR)", epoch+1, s+1, err)
 			}

@@ -136,3 +136,39 @@ func BenchmarkHeadStep(b *testing.B) {
 	}
 	b.Logf("product kernel: %s", kernelBuild)
 }
+
+// BenchmarkHeadFit times a whole head fit of the pipeline's default kind (an
+// mlp of 512 hidden units, minibatches of 128, no validation) on random
+// features of the full-MNIST set's size, 60,000 × 1,085, for one epoch (468
+// steps), with 1 and 2 workers; the heads are bit-identical
+// (TestHeadWorkersBitIdentical). Run it alone:
+//
+//	GOEXPERIMENT=simd go test -run XXX -bench HeadFit -benchtime 1x ./learn
+func BenchmarkHeadFit(b *testing.B) {
+	n, d, k := benchRows, 1085, 10
+	rng := rand.New(rand.NewPCG(3, 3))
+	X := make([]float32, n*d)
+	for i := range X {
+		X[i] = float32(rng.NormFloat64())
+	}
+	y := make([]int, n)
+	for i := range y {
+		y[i] = rng.IntN(k)
+	}
+	cfg := HeadConfig{Kind: KindMLP, Hidden: 512, Epochs: 1, ValFrac: -1, Seed: 1}
+	for _, w := range []int{1, 2} {
+		b.Run(fmt.Sprintf("workers-%d/%dx%d-h512", w, n, d), func(b *testing.B) {
+			b.ReportAllocs()
+			steps := 0
+			for i := 0; i < b.N; i++ {
+				_, rep, err := cfg.FitWith(X, y, k, HeadFitOptions{Workers: w})
+				if err != nil {
+					b.Fatal(err)
+				}
+				steps += rep.Epochs * rep.StepsPerEpoch
+			}
+			b.ReportMetric(float64(steps)/b.Elapsed().Seconds(), "steps/s")
+		})
+	}
+	b.Logf("product kernel: %s", kernelBuild)
+}

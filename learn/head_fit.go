@@ -352,8 +352,13 @@ func (c HeadConfig) FitWith(X []float32, y []int, nClasses int, opt HeadFitOptio
 			st.opt2 = append(st.opt2, make([]float32, len(p)))
 		}
 	}
-	cfgJSON, _ := json.Marshal(cfg)
-	fp := headFingerprint(cfgJSON, X, y, nClasses)
+	// The fingerprint hashes all of X (a noticeable share of a short fit on
+	// a big set), so it is computed only when a checkpoint needs it.
+	var fp [32]byte
+	if opt.Resume != nil || (opt.CheckpointEvery > 0 && opt.Checkpoint != nil) {
+		cfgJSON, _ := json.Marshal(cfg)
+		fp = headFingerprint(cfgJSON, X, y, nClasses)
+	}
 	if opt.Resume != nil {
 		if err := opt.Resume.restore(st, params, fp); err != nil {
 			return nil, rep, err

@@ -357,10 +357,11 @@ func TestHeadEnginesAgree(t *testing.T) {
 	}
 }
 
-// TestHeadIndependentOfThreads: gonum's Sgemm splits large products over
-// GOMAXPROCS goroutines, one output block per goroutine with a fixed
-// summation order, so the trained weights must not depend on the thread
-// count (a model file is the same on a 2-core and a 1-core machine).
+// TestHeadIndependentOfThreads: the head's products run on its own workers
+// (gonum's Sgemm, which would split large products over GOMAXPROCS
+// goroutines, is called in tiles it keeps on one), so the trained weights
+// must not depend on the thread count (a model file is the same on a 2-core
+// and a 1-core machine).
 func TestHeadIndependentOfThreads(t *testing.T) {
 	X, y := blobs(640, 300, 4, 0.3, 12)
 	cfg := HeadConfig{Kind: KindMLP, Hidden: 130, Epochs: 2, Batch: 128, Seed: 2}

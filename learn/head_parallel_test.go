@@ -19,6 +19,7 @@ func TestHeadWorkersBitIdentical(t *testing.T) {
 		{Kind: KindMLP, Hidden: 48, Epochs: 3, Batch: 100, Seed: 5},
 		{Kind: KindSoftmax, Epochs: 3, Batch: 128, Seed: 6, ValFrac: -1},
 		{Kind: KindMLP, Hidden: 20, Epochs: 2, Batch: 250, Optimizer: OptSGD, Seed: 7, ValFrac: -1},
+		{Kind: KindMLP, Hidden: 200, Epochs: 1, Batch: 64, Seed: 8, ValFrac: -1}, // two hidden blocks
 	} {
 		var ref *Head
 		var refRep HeadReport

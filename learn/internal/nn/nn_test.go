@@ -276,6 +276,7 @@ func TestChunkedGradient(t *testing.T) {
 		{In: 37, Out: 5, Batch: 19, L2: 0.01, Chunks: 3},
 		{In: 130, Hidden: 70, Out: 10, Batch: 65, L2: 0.02, Chunks: 4},
 		{In: 30, Hidden: 23, Out: 4, Batch: 17, Chunks: 17},
+		{In: 50, Hidden: 300, Out: 6, Batch: 40, L2: 0.01, Chunks: 5}, // 3 hidden blocks, the last partial
 	} {
 		one := sp
 		one.Chunks = 1

@@ -304,7 +304,7 @@ func f32bytes(s []float32) []byte {
 
 func TestHeadConfigErrors(t *testing.T) {
 	X, y := blobs(50, 3, 2, 1, 7)
-	for _, c := range []HeadConfig{{Kind: "svm"}, {Optimizer: "lbfgs"}, {Epochs: -1}, {LR: -1}, {ValFrac: 0.95}, {Schedule: "step"}, {Kind: KindMLP, Hidden: -3}} {
+	for _, c := range []HeadConfig{{Kind: "svm"}, {Optimizer: "lbfgs"}, {Epochs: -1}, {LR: -1}, {ValFrac: 0.95}, {Schedule: "step"}, {Kind: KindMLP, Hidden: -3}, {ConvergeTol: -1e-3}, {ConvergeTol: 1}, {ConvergeTol: math.NaN()}, {ConvergeTol: 1e-3, ConvergeWindow: -2}} {
 		if _, _, err := c.Fit(X, y, 2, nil); err == nil {
 			t.Errorf("%+v accepted", c)
 		}

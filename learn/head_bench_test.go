@@ -15,15 +15,7 @@ import (
 //	flock /tmp/striate-heavy.lock go test -run XXX -bench HeadEpoch -benchtime 2x ./learn
 func BenchmarkHeadEpoch(b *testing.B) {
 	n, d, k := benchRows, 2000, 10
-	rng := rand.New(rand.NewPCG(1, 1))
-	X := make([]float32, n*d)
-	for i := range X {
-		X[i] = float32(rng.NormFloat64())
-	}
-	y := make([]int, n)
-	for i := range y {
-		y[i] = rng.IntN(k)
-	}
+	X, y := noiseRows(n, d, k, 1)
 	for _, cfg := range []HeadConfig{
 		{Kind: KindSoftmax, Batch: 128},
 		{Kind: KindSoftmax, Batch: 128, Engine: EngineGorgonia},
@@ -146,15 +138,7 @@ func BenchmarkHeadStep(b *testing.B) {
 //	GOEXPERIMENT=simd go test -run XXX -bench HeadFit -benchtime 1x ./learn
 func BenchmarkHeadFit(b *testing.B) {
 	n, d, k := benchRows, 1085, 10
-	rng := rand.New(rand.NewPCG(3, 3))
-	X := make([]float32, n*d)
-	for i := range X {
-		X[i] = float32(rng.NormFloat64())
-	}
-	y := make([]int, n)
-	for i := range y {
-		y[i] = rng.IntN(k)
-	}
+	X, y := noiseRows(n, d, k, 3)
 	cfg := HeadConfig{Kind: KindMLP, Hidden: 512, Epochs: 1, ValFrac: -1, Seed: 1}
 	for _, w := range []int{1, 2} {
 		b.Run(fmt.Sprintf("workers-%d/%dx%d-h512", w, n, d), func(b *testing.B) {
@@ -171,4 +155,19 @@ func BenchmarkHeadFit(b *testing.B) {
 		})
 	}
 	b.Logf("product kernel: %s", kernelBuild)
+}
+
+// noiseRows returns n rows of d standard-normal features and labels drawn
+// uniformly from k classes, independently of the features.
+func noiseRows(n, d, k int, seed uint64) ([]float32, []int) {
+	rng := rand.New(rand.NewPCG(seed, seed))
+	X := make([]float32, n*d)
+	for i := range X {
+		X[i] = float32(rng.NormFloat64())
+	}
+	y := make([]int, n)
+	for i := range y {
+		y[i] = rng.IntN(k)
+	}
+	return X, y
 }

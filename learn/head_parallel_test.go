@@ -2,7 +2,6 @@ package learn
 
 import (
 	"math"
-	"math/rand/v2"
 	"testing"
 
 	"github.com/striate/striate/learn/internal/nn"
@@ -135,16 +134,7 @@ func TestHeadConvergeStopsOnSeparable(t *testing.T) {
 // them, so its training loss keeps falling by more than the tolerance
 // every window: the run must last all its epochs.
 func TestHeadConvergeNotWhileFalling(t *testing.T) {
-	rng := rand.New(rand.NewPCG(8, 8))
-	n, d := 300, 20
-	X := make([]float32, n*d)
-	for i := range X {
-		X[i] = float32(rng.NormFloat64())
-	}
-	y := make([]int, n)
-	for i := range y {
-		y[i] = rng.IntN(2)
-	}
+	X, y := noiseRows(300, 20, 2, 8)
 	cfg := HeadConfig{Kind: KindMLP, Hidden: 64, Epochs: 60, Batch: 16, ValFrac: -1, Seed: 2, ConvergeTol: 1e-3}
 	_, rep, err := cfg.Fit(X, y, 2, nil)
 	if err != nil {

@@ -1,6 +1,7 @@
 package nn
 
 import (
+	"fmt"
 	"math"
 	"math/rand/v2"
 	"testing"
@@ -238,20 +239,7 @@ func testPlainMatchesGraph(t *testing.T, kern GemmNTFunc) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		if math.Abs(lg-lp) > plainTol*math.Abs(lg) {
-			t.Errorf("%+v: loss graph %.7g plain %.7g", sp, lg, lp)
-		}
-		for pi := range gg {
-			scale := 0.0
-			for _, v := range gg[pi] {
-				scale = math.Max(scale, math.Abs(float64(v)))
-			}
-			for j := range gg[pi] {
-				if d := math.Abs(float64(gg[pi][j] - gp[pi][j])); d > plainTol*scale {
-					t.Fatalf("%+v: grad %d[%d] graph %g plain %g", sp, pi, j, gg[pi][j], gp[pi][j])
-				}
-			}
-		}
+		checkGrads(t, fmt.Sprintf("%+v plain vs graph", sp), gg, gp, lg, lp, plainTol)
 		gr.Close()
 	}
 }
@@ -315,20 +303,7 @@ func TestChunkedGradient(t *testing.T) {
 			return g, l
 		}
 		compare := func(what string, ref, got [][]float32, lref, lgot, tol float64) {
-			if math.Abs(lref-lgot) > tol*math.Abs(lref) {
-				t.Errorf("%+v %s: loss %.8g, reference %.8g", sp, what, lgot, lref)
-			}
-			for pi := range ref {
-				scale := 0.0
-				for _, v := range ref[pi] {
-					scale = math.Max(scale, math.Abs(float64(v)))
-				}
-				for j := range ref[pi] {
-					if d := math.Abs(float64(ref[pi][j] - got[pi][j])); d > tol*scale {
-						t.Fatalf("%+v %s: grad %d[%d] %g, reference %g", sp, what, pi, j, got[pi][j], ref[pi][j])
-					}
-				}
-			}
+			checkGrads(t, fmt.Sprintf("%+v %s", sp, what), ref, got, lref, lgot, tol)
 		}
 		gGraph, lGraph := eval(gr)
 		single, err := NewPlain(one, nil, nil)
@@ -394,5 +369,26 @@ func TestPlainEvalAllocatesNothing(t *testing.T) {
 		}
 	}); n != 0 {
 		t.Errorf("Eval allocates %v times per call, want 0", n)
+	}
+}
+
+// checkGrads fails unless the losses agree within tol relative and every
+// gradient entry within tol times the largest magnitude of its reference
+// tensor.
+func checkGrads(t *testing.T, what string, ref, got [][]float32, lref, lgot, tol float64) {
+	t.Helper()
+	if math.Abs(lref-lgot) > tol*math.Abs(lref) {
+		t.Errorf("%s: loss %.8g, reference %.8g", what, lgot, lref)
+	}
+	for pi := range ref {
+		scale := 0.0
+		for _, v := range ref[pi] {
+			scale = math.Max(scale, math.Abs(float64(v)))
+		}
+		for j := range ref[pi] {
+			if d := math.Abs(float64(ref[pi][j] - got[pi][j])); d > tol*scale {
+				t.Fatalf("%s: grad %d[%d] %g, reference %g", what, pi, j, got[pi][j], ref[pi][j])
+			}
+		}
 	}
 }

@@ -192,31 +192,34 @@
 // zero for softmax, He-normal for the ReLU layer. The minibatch order of
 // epoch e is a permutation seeded by (Seed, e), so a HeadCheckpoint (weights,
 // optimiser moments, early-stopping state, history) is all a resumed run
-// needs to end bit-identical to an uninterrupted one. Results do not depend
-// on GOMAXPROCS.
+// needs to end bit-identical to an uninterrupted one. With ConvergeTol > 0
+// training also stops once the training loss has levelled off: the
+// relative-reduction test of L-BFGS-B (Byrd, Lu, Nocedal & Zhu 1995) on the
+// means of two consecutive windows of epoch-mean losses (see
+// HeadConfig.ConvergeTol); the report says which rule ended a run.
 //
 // Gradients come from learn/internal/nn, the only importer of gorgonia:
 // Engine "gorgonia" builds gorgonia's graph once per fit and differentiates
 // it symbolically (checked against central finite differences in float64);
-// Engine "go" (the default) is a hand-written backward pass on gonum's
-// float32 BLAS, checked against gorgonia's gradients, and is faster because
-// it skips the input gradient and gorgonia's per-op allocations. Measured
-// one epoch on 60,000 × 2,000 random features, 10 classes (BenchmarkHeadEpoch,
-// 2-core EPYC, load from other jobs 2-8, so ±30%):
+// Engine "go" (the default) is a hand-written backward pass on float32
+// products, checked against gorgonia's gradients, and is faster because it
+// skips the input gradient and gorgonia's per-op allocations. Every product
+// is one c = a·bᵀ call: the package's AVX2/FMA kernel in the
+// GOEXPERIMENT=simd build (except the thin class-dimension products, where
+// gonum is faster), gonum's blas32 elsewhere, always on the calling
+// goroutine.
 //
-//	                            go (portable)   go (GOEXPERIMENT=simd)   gorgonia
-//	softmax, batch 128          2.1-2.7 s       3.6 s                    9.5 s
-//	mlp 256 hidden, batch 128   19.7-27.5 s     11.6 s                   47.6 s
-//	mlp 256 hidden, batch 512   15.8-22.4 s     13.2 s
-//	mlp 1024 hidden, batch 256  58-60 s
-//
-// The MLP's cost is two GEMMs of 2·B·D·H flops per step at the ~11 GFLOP/s
-// gonum's pure-Go Sgemm reaches on 2 cores. Every product of the "go"
-// engine is one c = a·bᵀ call, so the GOEXPERIMENT=simd build runs them on
-// the package's AVX2/FMA kernel (except the thin class-dimension products,
-// where gonum is faster): one MLP step above (BenchmarkHeadStep, B = 128)
-// took 19-29 ms against 42-101 ms portable and 100-180 ms for gorgonia's
-// graph, interleaved runs on the same heavily loaded machine.
+// A step runs on HeadFitOptions.Workers goroutines. The work is cut into
+// units fixed by the data and the config, never by the worker count, and
+// every unit writes its own outputs: minibatch rows are standardised in
+// blocks of 16; the minibatch is split into ⌈B/32⌉ (at most 8) row chunks
+// that run the forward pass and back-propagate to the hidden layer; the
+// mlp's first-layer gradient is computed per block of 128 hidden units over
+// the whole batch; the other gradients are summed from the chunks' shares
+// in chunk order; the optimiser updates the parameters in fixed ranges. A
+// fit is therefore bit-identical for any Workers and any GOMAXPROCS, and a
+// step allocates nothing. BenchmarkHeadFit times a fit of the full-MNIST
+// head's size with 1 and 2 workers.
 //
 // A fitted *Head is immutable and safe for concurrent use. Inference does
 // not touch gorgonia: the standardisation is folded into the first layer and

@@ -15,15 +15,7 @@ import (
 //	flock /tmp/striate-heavy.lock go test -run XXX -bench HeadEpoch -benchtime 2x ./learn
 func BenchmarkHeadEpoch(b *testing.B) {
 	n, d, k := benchRows, 2000, 10
-	rng := rand.New(rand.NewPCG(1, 1))
-	X := make([]float32, n*d)
-	for i := range X {
-		X[i] = float32(rng.NormFloat64())
-	}
-	y := make([]int, n)
-	for i := range y {
-		y[i] = rng.IntN(k)
-	}
+	X, y := noiseRows(n, d, k, 1)
 	for _, cfg := range []HeadConfig{
 		{Kind: KindSoftmax, Batch: 128},
 		{Kind: KindSoftmax, Batch: 128, Engine: EngineGorgonia},
@@ -102,7 +94,7 @@ func BenchmarkHeadStep(b *testing.B) {
 				var e nn.Engine
 				var err error
 				if eng == EngineGo {
-					e, err = nn.NewPlain(sp, headGemm)
+					e, err = nn.NewPlain(sp, headKernel(), nil)
 				} else {
 					e, err = nn.New(sp)
 				}
@@ -135,4 +127,47 @@ func BenchmarkHeadStep(b *testing.B) {
 		}
 	}
 	b.Logf("product kernel: %s", kernelBuild)
+}
+
+// BenchmarkHeadFit times a whole head fit of the pipeline's default kind (an
+// mlp of 512 hidden units, minibatches of 128, no validation) on random
+// features of the full-MNIST set's size, 60,000 × 1,085, for one epoch (468
+// steps), with 1 and 2 workers; the heads are bit-identical
+// (TestHeadWorkersBitIdentical). Run it alone:
+//
+//	GOEXPERIMENT=simd go test -run XXX -bench HeadFit -benchtime 1x ./learn
+func BenchmarkHeadFit(b *testing.B) {
+	n, d, k := benchRows, 1085, 10
+	X, y := noiseRows(n, d, k, 3)
+	cfg := HeadConfig{Kind: KindMLP, Hidden: 512, Epochs: 1, ValFrac: -1, Seed: 1}
+	for _, w := range []int{1, 2} {
+		b.Run(fmt.Sprintf("workers-%d/%dx%d-h512", w, n, d), func(b *testing.B) {
+			b.ReportAllocs()
+			steps := 0
+			for i := 0; i < b.N; i++ {
+				_, rep, err := cfg.FitWith(X, y, k, HeadFitOptions{Workers: w})
+				if err != nil {
+					b.Fatal(err)
+				}
+				steps += rep.Epochs * rep.StepsPerEpoch
+			}
+			b.ReportMetric(float64(steps)/b.Elapsed().Seconds(), "steps/s")
+		})
+	}
+	b.Logf("product kernel: %s", kernelBuild)
+}
+
+// noiseRows returns n rows of d standard-normal features and labels drawn
+// uniformly from k classes, independently of the features.
+func noiseRows(n, d, k int, seed uint64) ([]float32, []int) {
+	rng := rand.New(rand.NewPCG(seed, seed))
+	X := make([]float32, n*d)
+	for i := range X {
+		X[i] = float32(rng.NormFloat64())
+	}
+	y := make([]int, n)
+	for i := range y {
+		y[i] = rng.IntN(k)
+	}
+	return X, y
 }

@@ -46,7 +46,7 @@ func FuzzHeadCheckpoint(f *testing.F) {
 
 func TestHeadConfigJSONRoundTrip(t *testing.T) {
 	c := HeadConfig{Kind: KindMLP, Hidden: 64, Epochs: 7, Batch: 32, Optimizer: OptSGD, LR: 0.1, Momentum: -1,
-		Schedule: ScheduleCosine, L2: -1, ValFrac: 0.2, Patience: -1, Engine: EngineGorgonia, Seed: 42}
+		Schedule: ScheduleCosine, L2: -1, ValFrac: 0.2, Patience: -1, Engine: EngineGorgonia, Seed: 42, ConvergeTol: 1e-3, ConvergeWindow: 4}
 	b, err := json.Marshal(c)
 	if err != nil {
 		t.Fatal(err)

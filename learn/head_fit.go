@@ -91,7 +91,40 @@ type HeadConfig struct {
 	// Seed drives the validation split, the initial weights and the minibatch
 	// order; the same seed, data and config give bit-identical heads.
 	Seed uint64 `json:"seed,omitempty"`
+	// ConvergeTol > 0 ends training once the training loss has stopped
+	// falling; 0 (the default) means off: the run lasts Epochs epochs, or
+	// until validation early stopping (Patience) ends it. The test is the
+	// relative-reduction stopping test of L-BFGS-B (Byrd, Lu, Nocedal & Zhu
+	// 1995, "A limited memory algorithm for bound constrained optimization",
+	// SIAM J. Sci. Comput. 16(5); SciPy's ftol), applied to window means
+	// because minibatch losses are noisy: after epoch e ≥ 2P, with f₁ the
+	// mean of the epoch-mean training losses (TrainLoss) of epochs
+	// e−2P+1 … e−P and f₂ that of epochs e−P+1 … e, training stops when
+	//
+	//	(f₁ − f₂) / max(|f₁|, |f₂|, 1) ≤ ConvergeTol.
+	//
+	// HeadReport.StopReason is then "converged". The loss includes the L2
+	// term, so on separable data it levels off at a positive floor rather
+	// than creeping towards zero. Valid values are [0, 1).
+	ConvergeTol float64 `json:"converge_tol,omitempty"`
+	// ConvergeWindow is the window P of the convergence test, in epochs; 0
+	// means the fewest whole epochs that hold at least headConvergeSteps
+	// (100) minibatch steps, so one-step epochs of a small set are not judged
+	// on single noisy minibatches. Ignored while ConvergeTol is 0.
+	ConvergeWindow int `json:"converge_window,omitempty"`
 }
+
+// headConvergeSteps is the least number of minibatch steps a default
+// convergence window holds (HeadConfig.ConvergeWindow 0): enough that the
+// mean loss of a window averages out minibatch noise, few next to the
+// thousands of steps a full fit takes.
+const headConvergeSteps = 100
+
+// Stop reasons (HeadReport.StopReason).
+const (
+	StopPatience  = "patience"  // validation loss did not improve for Patience epochs
+	StopConverged = "converged" // the convergence test of HeadConfig.ConvergeTol passed
+)
 
 // resolved returns c with defaults filled in, or an error naming the bad field.
 func (c HeadConfig) resolved() (HeadConfig, error) {
@@ -188,11 +221,22 @@ func (c HeadConfig) resolved() (HeadConfig, error) {
 	if r.Patience < 0 {
 		r.Patience = -1 // never stop
 	}
+	if !(r.ConvergeTol >= 0 && r.ConvergeTol < 1) {
+		return r, fmt.Errorf("learn: HeadConfig.ConvergeTol %g outside [0, 1) (0 means no convergence test; try 1e-3)", c.ConvergeTol)
+	}
+	if r.ConvergeWindow < 0 || r.ConvergeWindow > maxEpochs {
+		return r, fmt.Errorf("learn: HeadConfig.ConvergeWindow %d outside [0, %d] (0 means enough epochs for %d steps)", c.ConvergeWindow, maxEpochs, headConvergeSteps)
+	}
 	return r, nil
 }
 
 // HeadFitOptions carries the run-time (non-model) options of HeadConfig.FitWith.
 type HeadFitOptions struct {
+	// Workers is the number of goroutines of each training step (the "go"
+	// engine's gradient chunks, the minibatch assembly and the optimiser
+	// update); 0 or less means 1. The fitted head and the report's losses do
+	// not depend on it, bit for bit.
+	Workers int
 	// Progress receives one Step per epoch; nil is silent.
 	Progress Progress
 	// CheckpointEvery > 0 calls Checkpoint after every that many epochs.
@@ -209,17 +253,19 @@ type HeadFitOptions struct {
 
 // HeadReport describes a finished fit.
 type HeadReport struct {
-	Config        HeadConfig // with defaults filled in (negative "none" values kept as −1; Fit of it gives the same head)
-	NTrain, NVal  int        // rows used for training and validation
-	Batch         int        // effective minibatch size
-	StepsPerEpoch int
-	Epochs        int       // epochs run, including those before a resume
-	BestEpoch     int       // 1-based epoch whose weights the head holds
-	Stopped       bool      // early stopping ended the run before Config.Epochs
-	TrainLoss     []float64 // per epoch: mean minibatch loss, L2 term included
-	ValLoss       []float64 // per epoch: mean cross-entropy on validation (nil without)
-	ValAcc        []float64 // per epoch: validation accuracy (nil without)
-	Elapsed       time.Duration
+	Config         HeadConfig // with defaults filled in (negative "none" values kept as −1; Fit of it gives the same head)
+	NTrain, NVal   int        // rows used for training and validation
+	Batch          int        // effective minibatch size
+	StepsPerEpoch  int
+	Epochs         int       // epochs run, including those before a resume
+	BestEpoch      int       // 1-based epoch whose weights the head holds
+	Stopped        bool      // early stopping ended the run before Config.Epochs
+	StopReason     string    // why it stopped early: StopPatience or StopConverged ("" if it did not)
+	ConvergeWindow int       // the convergence test's window in epochs (0 without the test)
+	TrainLoss      []float64 // per epoch: mean minibatch loss, L2 term included
+	ValLoss        []float64 // per epoch: mean cross-entropy on validation (nil without)
+	ValAcc         []float64 // per epoch: validation accuracy (nil without)
+	Elapsed        time.Duration
 }
 
 // Fit trains a head on n = len(y) feature vectors X (row-major n×d, d =
@@ -274,14 +320,23 @@ func (c HeadConfig) FitWith(X []float32, y []int, nClasses int, opt HeadFitOptio
 	steps := nTrain / batch
 	rep.NTrain, rep.NVal, rep.Batch, rep.StepsPerEpoch = nTrain, nVal, batch, steps
 
+	if cfg.ConvergeTol > 0 {
+		rep.ConvergeWindow = cfg.ConvergeWindow
+		if rep.ConvergeWindow == 0 {
+			rep.ConvergeWindow = (headConvergeSteps + steps - 1) / steps
+		}
+	}
+
 	mean, std := standardize(X, d, train)
 
-	spec := nn.Spec{In: d, Hidden: cfg.Hidden, Out: nClasses, Batch: batch, L2: max(0, cfg.L2)}
+	spec := nn.Spec{In: d, Hidden: cfg.Hidden, Out: nClasses, Batch: batch, L2: max(0, cfg.L2), Chunks: headChunks(batch)}
+	team := nn.NewTeam(opt.Workers)
+	defer team.Close()
 	var net nn.Engine
 	if cfg.Engine == EngineGorgonia {
 		net, err = nn.New(spec)
 	} else {
-		net, err = nn.NewPlain(spec, headGemm)
+		net, err = nn.NewPlain(spec, headKernel(), team)
 	}
 	if err != nil {
 		return nil, rep, fmt.Errorf("learn: head fit: %w", err)
@@ -297,8 +352,13 @@ func (c HeadConfig) FitWith(X []float32, y []int, nClasses int, opt HeadFitOptio
 			st.opt2 = append(st.opt2, make([]float32, len(p)))
 		}
 	}
-	cfgJSON, _ := json.Marshal(cfg)
-	fp := headFingerprint(cfgJSON, X, y, nClasses)
+	// The fingerprint hashes all of X (a noticeable share of a short fit on
+	// a big set), so it is computed only when a checkpoint needs it.
+	var fp [32]byte
+	if opt.Resume != nil || (opt.CheckpointEvery > 0 && opt.Checkpoint != nil) {
+		cfgJSON, _ := json.Marshal(cfg)
+		fp = headFingerprint(cfgJSON, X, y, nClasses)
+	}
 	if opt.Resume != nil {
 		if err := opt.Resume.restore(st, params, fp); err != nil {
 			return nil, rep, err
@@ -313,7 +373,8 @@ func (c HeadConfig) FitWith(X []float32, y []int, nClasses int, opt HeadFitOptio
 	for i, r := range val {
 		valY[i] = y[r]
 	}
-	xb, yb := net.X32(), net.Y32()
+	var gradsAny any = grads // converted once: a conversion per step would allocate
+	stepper := newHeadStepper(team, X, y, d, nClasses, mean, std, net.X32(), net.Y32(), params, grads, st, cfg)
 	var probs, scratch []float32
 	for epoch := st.epoch; epoch < cfg.Epochs; epoch++ {
 		lr := cfg.LR
@@ -323,23 +384,17 @@ func (c HeadConfig) FitWith(X []float32, y []int, nClasses int, opt HeadFitOptio
 		order := rand.New(rand.NewPCG(cfg.Seed, uint64(epoch)+1)).Perm(nTrain)
 		var lossSum float64
 		for s := 0; s < steps; s++ {
-			clear(yb)
-			for b := 0; b < batch; b++ {
-				r := train[order[s*batch+b]]
-				row := X[r*d : (r+1)*d]
-				dst := xb[b*d : (b+1)*d]
-				for j, v := range row {
-					dst[j] = (v - mean[j]) / std[j]
-				}
-				yb[b*nClasses+y[r]] = 1
+			for b := range stepper.rows {
+				stepper.rows[b] = train[order[s*batch+b]]
 			}
-			loss, err := net.Eval(grads)
+			stepper.fillBatch()
+			loss, err := net.Eval(gradsAny)
 			if err != nil {
 				return nil, rep, fmt.Errorf("learn: head fit: epoch %d step %d: %w (lower HeadConfig.LR)", epoch+1, s+1, err)
 			}
 			lossSum += loss
 			st.t++
-			headUpdate(params, grads, st, cfg, lr)
+			stepper.apply(lr)
 		}
 		st.trainLoss = append(st.trainLoss, lossSum/float64(steps))
 		st.epoch = epoch + 1
@@ -366,9 +421,15 @@ func (c HeadConfig) FitWith(X []float32, y []int, nClasses int, opt HeadFitOptio
 		if opt.Progress != nil {
 			opt.Progress.Step(epoch+1, cfg.Epochs, msg)
 		}
-		stop := nVal > 0 && cfg.Patience > 0 && st.bad >= cfg.Patience
+		reason := ""
+		if nVal > 0 && cfg.Patience > 0 && st.bad >= cfg.Patience {
+			reason = StopPatience
+		} else if rep.ConvergeWindow > 0 && headConverged(st.trainLoss, rep.ConvergeWindow, cfg.ConvergeTol) {
+			reason = StopConverged
+		}
+		stop := reason != ""
 		if stop {
-			st.stopped = true
+			st.stopped, st.reason = true, reason
 		}
 		if opt.CheckpointEvery > 0 && opt.Checkpoint != nil && (epoch+1)%opt.CheckpointEvery == 0 && !stop && epoch+1 < cfg.Epochs {
 			if err := opt.Checkpoint(st.snapshot(params, fp)); err != nil {
@@ -390,20 +451,6 @@ func (c HeadConfig) FitWith(X []float32, y []int, nClasses int, opt HeadFitOptio
 	return headFromParams(cfg, d, nClasses, mean, std, final, true), rep, nil
 }
 
-// headGemm is the product kernel of the "go" engine: the package's gemmNT
-// (AVX2 in the SIMD build), except for products with fewer than 16 rows or
-// columns (the class dimension of the output layer), where gonum's blas32
-// measured faster than the SIMD kernel (BenchmarkHeadStep: softmax step
-// 1.7-2.4 ms with gonum, 6.4-8.0 ms with the SIMD kernel throughout). In the
-// portable build both are gonum's.
-func headGemm(c, a, b []float32, m, n, p int) {
-	if m < 16 || n < 16 {
-		nn.GemmNTGonum(c, a, b, m, n, p)
-		return
-	}
-	gemmNT(c, a, b, m, n, p)
-}
-
 // HeadDataError reports bad training data.
 type HeadDataError struct {
 	Field string // "X" or "y"
@@ -423,12 +470,13 @@ type headState struct {
 	bestLoss        float64
 	bestEpoch, bad  int
 	stopped         bool
+	reason          string // StopReason when stopped (not stored in checkpoints: a checkpoint is never taken at a stop)
 	trainLoss       []float64
 	valLoss, valAcc []float64
 }
 
 func (st *headState) fill(rep *HeadReport) {
-	rep.Epochs, rep.BestEpoch, rep.Stopped = st.epoch, st.bestEpoch, st.stopped
+	rep.Epochs, rep.BestEpoch, rep.Stopped, rep.StopReason = st.epoch, st.bestEpoch, st.stopped, st.reason
 	rep.TrainLoss = append([]float64(nil), st.trainLoss...)
 	if rep.NVal > 0 {
 		rep.ValLoss = append([]float64(nil), st.valLoss...)
@@ -436,35 +484,22 @@ func (st *headState) fill(rep *HeadReport) {
 	}
 }
 
-// update applies one optimiser step with learning rate lr.
-func headUpdate(params, grads [][]float32, st *headState, cfg HeadConfig, lr float64) {
-	if cfg.Optimizer == OptAdam {
-		// Kingma & Ba (2015), Algorithm 1, with the bias corrections folded
-		// into the step size: α_t = α·sqrt(1−β2^t)/(1−β1^t) and ε̂ = ε·sqrt(1−β2^t).
-		t := float64(st.t)
-		c2 := math.Sqrt(1 - math.Pow(adamBeta2, t))
-		step := float32(lr * c2 / (1 - math.Pow(adamBeta1, t)))
-		eps := float32(adamEps * c2)
-		const b1, b2 = float32(adamBeta1), float32(adamBeta2)
-		for i, p := range params {
-			g, m, v := grads[i], st.opt1[i], st.opt2[i]
-			for j := range p {
-				gj := g[j]
-				m[j] = b1*m[j] + (1-b1)*gj
-				v[j] = b2*v[j] + (1-b2)*gj*gj
-				p[j] -= step * m[j] / (float32(math.Sqrt(float64(v[j]))) + eps)
-			}
-		}
-		return
+// headConverged reports whether the training losses (one per epoch) pass
+// the convergence test of HeadConfig.ConvergeTol with window p.
+func headConverged(loss []float64, p int, tol float64) bool {
+	e := len(loss)
+	if e < 2*p {
+		return false
 	}
-	mu, a := float32(max(0, cfg.Momentum)), float32(lr)
-	for i, p := range params {
-		g, v := grads[i], st.opt1[i]
-		for j := range p {
-			v[j] = mu*v[j] + g[j]
-			p[j] -= a * v[j]
-		}
+	var f1, f2 float64
+	for _, v := range loss[e-2*p : e-p] {
+		f1 += v
 	}
+	for _, v := range loss[e-p:] {
+		f2 += v
+	}
+	f1, f2 = f1/float64(p), f2/float64(p)
+	return (f1-f2)/math.Max(math.Max(math.Abs(f1), math.Abs(f2)), 1) <= tol
 }
 
 // headInit sets the starting weights: zero for softmax regression (the loss

@@ -304,7 +304,7 @@ func f32bytes(s []float32) []byte {
 
 func TestHeadConfigErrors(t *testing.T) {
 	X, y := blobs(50, 3, 2, 1, 7)
-	for _, c := range []HeadConfig{{Kind: "svm"}, {Optimizer: "lbfgs"}, {Epochs: -1}, {LR: -1}, {ValFrac: 0.95}, {Schedule: "step"}, {Kind: KindMLP, Hidden: -3}} {
+	for _, c := range []HeadConfig{{Kind: "svm"}, {Optimizer: "lbfgs"}, {Epochs: -1}, {LR: -1}, {ValFrac: 0.95}, {Schedule: "step"}, {Kind: KindMLP, Hidden: -3}, {ConvergeTol: -1e-3}, {ConvergeTol: 1}, {ConvergeTol: math.NaN()}, {ConvergeTol: 1e-3, ConvergeWindow: -2}} {
 		if _, _, err := c.Fit(X, y, 2, nil); err == nil {
 			t.Errorf("%+v accepted", c)
 		}
@@ -357,10 +357,11 @@ func TestHeadEnginesAgree(t *testing.T) {
 	}
 }
 
-// TestHeadIndependentOfThreads: gonum's Sgemm splits large products over
-// GOMAXPROCS goroutines, one output block per goroutine with a fixed
-// summation order, so the trained weights must not depend on the thread
-// count (a model file is the same on a 2-core and a 1-core machine).
+// TestHeadIndependentOfThreads: the head's products run on its own workers
+// (gonum's Sgemm, which would split large products over GOMAXPROCS
+// goroutines, is called in tiles it keeps on one), so the trained weights
+// must not depend on the thread count (a model file is the same on a 2-core
+// and a 1-core machine).
 func TestHeadIndependentOfThreads(t *testing.T) {
 	X, y := blobs(640, 300, 4, 0.3, 12)
 	cfg := HeadConfig{Kind: KindMLP, Hidden: 130, Epochs: 2, Batch: 128, Seed: 2}

@@ -11,8 +11,11 @@
 //     matrix product is one call of a pluggable c = a·bᵀ kernel (gonum's
 //     blas32 by default, package learn's AVX2 kernel in its SIMD build). At
 //     the full-MNIST head's shapes it is 2-4× faster than Graph because it
-//     skips the input gradient and gorgonia's per-op allocations. Its
-//     gradients are checked against Graph's.
+//     skips the input gradient and gorgonia's per-op allocations. It splits
+//     a batch into a fixed number of row chunks whose gradient shares are
+//     computed in parallel (on a Team) and summed in a fixed order, so the
+//     result does not depend on the number of workers. Its gradients are
+//     checked against Graph's.
 //
 // Parameter updates, data handling and inference live in package learn;
 // nothing of gorgonia's types leaves this package.
@@ -43,7 +46,13 @@ type Spec struct {
 	Batch           int     // rows per evaluation
 	L2              float64 // λ of the weight penalty
 	Float64         bool    // float64 graph (gradient checks); default float32
+	// Chunks is the number of row chunks the plain engine splits a batch
+	// into (see Plain); 0 means 1. The graph ignores it.
+	Chunks int
 }
+
+// chunks returns the number of row chunks, at least 1.
+func (s Spec) chunks() int { return max(1, s.Chunks) }
 
 // Engine evaluates the loss and gradients of one minibatch. The caller fills
 // X32/Y32 (or X64/Y64) and updates the parameters in place between calls.
@@ -81,8 +90,8 @@ func (s Spec) ParamShapes() [][]int {
 }
 
 func (s Spec) validate() error {
-	if s.In < 1 || s.Out < 2 || s.Hidden < 0 || s.Batch < 1 || !(s.L2 >= 0) {
-		return fmt.Errorf("nn: bad spec %+v (need In ≥ 1, Out ≥ 2, Hidden ≥ 0, Batch ≥ 1, L2 ≥ 0)", s)
+	if s.In < 1 || s.Out < 2 || s.Hidden < 0 || s.Batch < 1 || !(s.L2 >= 0) || s.Chunks < 0 || s.Chunks > s.Batch {
+		return fmt.Errorf("nn: bad spec %+v (need In ≥ 1, Out ≥ 2, Hidden ≥ 0, Batch ≥ 1, L2 ≥ 0, 0 ≤ Chunks ≤ Batch)", s)
 	}
 	return nil
 }

@@ -1,6 +1,7 @@
 package nn
 
 import (
+	"fmt"
 	"math"
 	"math/rand/v2"
 	"testing"
@@ -203,7 +204,7 @@ func testPlainMatchesGraph(t *testing.T, kern GemmNTFunc) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		pl, err := NewPlain(sp, kern)
+		pl, err := NewPlain(sp, kern, nil)
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -238,20 +239,156 @@ func testPlainMatchesGraph(t *testing.T, kern GemmNTFunc) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		if math.Abs(lg-lp) > plainTol*math.Abs(lg) {
-			t.Errorf("%+v: loss graph %.7g plain %.7g", sp, lg, lp)
+		checkGrads(t, fmt.Sprintf("%+v plain vs graph", sp), gg, gp, lg, lp, plainTol)
+		gr.Close()
+	}
+}
+
+// chunkTol bounds |g_C − g_1| / (max |g_1| over the tensor) between the plain
+// engine with C row chunks and with one chunk on the same batch. Chunking
+// only regroups the sum over the batch rows of each gradient entry (and of
+// the loss): both are sums of B products in float32, whose rounding error is
+// at most ~B·ε relative to the sum of magnitudes (Higham 2002, "Accuracy and
+// Stability of Numerical Algorithms", §4.2), B·ε ≈ 65·6e-8 ≈ 4e-6 here; the
+// magnitudes can exceed the largest entry a little, so 2e-5 is the bound. A
+// chunk that is dropped, counted twice or scaled by its own size instead of
+// B moves entries by O(1/C) relative and fails.
+const chunkTol = 2e-5
+
+// TestChunkedGradient checks the chunked plain engine against the one-chunk
+// engine (within chunkTol) and against gorgonia's graph (within plainTol,
+// the outside reference), and that 1, 2 and 3 workers give the same
+// gradient and loss bit for bit.
+func TestChunkedGradient(t *testing.T) {
+	for _, sp := range []Spec{
+		{In: 37, Out: 5, Batch: 19, L2: 0.01, Chunks: 3},
+		{In: 130, Hidden: 70, Out: 10, Batch: 65, L2: 0.02, Chunks: 4},
+		{In: 30, Hidden: 23, Out: 4, Batch: 17, Chunks: 17},
+		{In: 50, Hidden: 300, Out: 6, Batch: 40, L2: 0.01, Chunks: 5}, // 3 hidden blocks, the last partial
+	} {
+		one := sp
+		one.Chunks = 1
+		gr, err := New(one)
+		if err != nil {
+			t.Fatal(err)
 		}
-		for pi := range gg {
-			scale := 0.0
-			for _, v := range gg[pi] {
-				scale = math.Max(scale, math.Abs(float64(v)))
+		rng := rand.New(rand.NewPCG(5, uint64(sp.In)))
+		for i := range gr.X32() {
+			gr.X32()[i] = float32(rng.NormFloat64())
+		}
+		for i := 0; i < sp.Batch; i++ {
+			gr.Y32()[i*sp.Out+rng.IntN(sp.Out)] = 1
+		}
+		for _, p := range gr.Params32() {
+			for j := range p {
+				p[j] = float32(0.3 * rng.NormFloat64())
 			}
-			for j := range gg[pi] {
-				if d := math.Abs(float64(gg[pi][j] - gp[pi][j])); d > plainTol*scale {
-					t.Fatalf("%+v: grad %d[%d] graph %g plain %g", sp, pi, j, gg[pi][j], gp[pi][j])
+		}
+		eval := func(e Engine) ([][]float32, float64) {
+			if e != Engine(gr) {
+				copy(e.X32(), gr.X32())
+				copy(e.Y32(), gr.Y32())
+				for pi, p := range gr.Params32() {
+					copy(e.Params32()[pi], p)
+				}
+			}
+			var g [][]float32
+			for _, p := range gr.Params32() {
+				g = append(g, make([]float32, len(p)))
+			}
+			l, err := e.Eval(g)
+			if err != nil {
+				t.Fatal(err)
+			}
+			return g, l
+		}
+		compare := func(what string, ref, got [][]float32, lref, lgot, tol float64) {
+			checkGrads(t, fmt.Sprintf("%+v %s", sp, what), ref, got, lref, lgot, tol)
+		}
+		gGraph, lGraph := eval(gr)
+		single, err := NewPlain(one, nil, nil)
+		if err != nil {
+			t.Fatal(err)
+		}
+		gOne, lOne := eval(single)
+		var gW1 [][]float32
+		var lW1 float64
+		for _, workers := range []int{1, 2, 3} {
+			team := NewTeam(workers)
+			pl, err := NewPlain(sp, nil, team)
+			if err != nil {
+				t.Fatal(err)
+			}
+			g, l := eval(pl)
+			team.Close()
+			if workers == 1 {
+				gW1, lW1 = g, l
+				compare("chunked vs one chunk", gOne, g, lOne, l, chunkTol)
+				compare("chunked vs gorgonia", gGraph, g, lGraph, l, plainTol)
+				continue
+			}
+			if math.Float64bits(l) != math.Float64bits(lW1) {
+				t.Errorf("%+v: loss with %d workers %v, with 1 %v", sp, workers, l, lW1)
+			}
+			for pi := range g {
+				for j := range g[pi] {
+					if math.Float32bits(g[pi][j]) != math.Float32bits(gW1[pi][j]) {
+						t.Fatalf("%+v: grad %d[%d] with %d workers %v, with 1 %v", sp, pi, j, workers, g[pi][j], gW1[pi][j])
+					}
 				}
 			}
 		}
 		gr.Close()
+	}
+}
+
+// TestPlainEvalAllocatesNothing: a chunked evaluation on two workers reuses
+// its scratch and the team's goroutines.
+func TestPlainEvalAllocatesNothing(t *testing.T) {
+	sp := Spec{In: 64, Hidden: 32, Out: 10, Batch: 64, L2: 1e-4, Chunks: 4}
+	team := NewTeam(2)
+	defer team.Close()
+	pl, err := NewPlain(sp, nil, team)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var g [][]float32
+	for _, p := range pl.Params32() {
+		for j := range p {
+			p[j] = 0.01 * float32(j%7)
+		}
+		g = append(g, make([]float32, len(p)))
+	}
+	for i := 0; i < sp.Batch; i++ {
+		pl.Y32()[i*sp.Out+i%sp.Out] = 1
+	}
+	var ga any = g
+	if n := testing.AllocsPerRun(50, func() {
+		if _, err := pl.Eval(ga); err != nil {
+			t.Fatal(err)
+		}
+	}); n != 0 {
+		t.Errorf("Eval allocates %v times per call, want 0", n)
+	}
+}
+
+// checkGrads fails unless the losses agree within tol relative and every
+// gradient entry within tol times the largest magnitude of its reference
+// tensor.
+func checkGrads(t *testing.T, what string, ref, got [][]float32, lref, lgot, tol float64) {
+	t.Helper()
+	if math.Abs(lref-lgot) > tol*math.Abs(lref) {
+		t.Errorf("%s: loss %.8g, reference %.8g", what, lgot, lref)
+	}
+	for pi := range ref {
+		scale := 0.0
+		for _, v := range ref[pi] {
+			scale = math.Max(scale, math.Abs(float64(v)))
+		}
+		for j := range ref[pi] {
+			if d := math.Abs(float64(ref[pi][j] - got[pi][j])); d > tol*scale {
+				t.Fatalf("%s: grad %d[%d] %g, reference %g", what, pi, j, got[pi][j], ref[pi][j])
+			}
+		}
 	}
 }

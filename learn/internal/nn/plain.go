@@ -26,23 +26,73 @@ func GemmNTGonum(c, a, b []float32, m, n, p int) {
 // Plain is the hand-written float32 engine (see the package comment). Every
 // matrix product is one call of a GemmNTFunc (c = a·bᵀ, both operands read
 // along rows), so a faster kernel (package learn's SIMD build) plugs in
-// through NewPlain; the weight gradients dW = dZᵀ·X are formed as
-// (dZᵀ)·(Xᵀ)ᵀ from transposed copies of the batch.
+// through NewPlain; weight gradients dW = dZᵀ·X are formed as (dZᵀ)·(Xᵀ)ᵀ
+// from transposed copies of the batch.
+//
+// The batch is split into Spec.Chunks row chunks (rows [c·B/C, (c+1)·B/C)),
+// each with its own scratch; the work of Eval is cut into units fixed by the
+// Spec alone and run on the goroutines of a Team, every unit writing its own
+// outputs, so any number of workers gives the same loss and gradient bit
+// for bit:
+//
+//   - per chunk: the forward pass, the chunk's loss terms and the backward
+//     pass down to dZ (and, for an mlp, the hidden layer's dA), written into
+//     the chunk's rows of whole-batch buffers; the gradient shares of the
+//     small tensors (softmax W and b; mlp W2 and b2), whose terms are
+//     already divided by the whole batch size B;
+//   - per block of plainHiddenBlock hidden units (mlp): that block's rows of
+//     dW1 = dAᵀ·X and db1 over the whole batch, so the big product keeps the
+//     batch as its inner dimension and no chunk holds a copy of dW1;
+//   - per range of reduceRange parameter values: the chunks' shares summed
+//     in chunk order 0, 1, …, C−1, plus the L2 term.
 type Plain struct {
 	spec   Spec
 	gemm   GemmNTFunc
+	team   *Team
 	params [][]float32
 	x, y   []float32
-	z      []float32 // B×K logits, then dZ
-	a, da  []float32 // B×H activations and their gradient (mlp)
-	// transposes: of the layer input (in×B), of the output gradient (out×B),
-	// and of W2 (H×K)
-	tin, tout, w2t []float32
+	w2t    []float32 // W2ᵀ (H×K), shared by the chunks (mlp)
+	// whole-batch transposes the hidden blocks read (mlp): Xᵀ (D×B), dAᵀ (H×B)
+	xt, dat []float32
+	chunks  []plainChunk
+	shared  []bool       // per tensor: summed from chunk shares (else written by the hidden blocks)
+	ranges  []paramRange // reduction units over the parameters
+	sq      []float64    // per range: Σ w² of its weights (L2 term)
+	grads   [][]float32  // the caller's gradients during Eval
+	// func values made once, so that Eval allocates nothing
+	chunkFn, hiddenFn, reduceFn func(int)
 }
 
+// plainChunk is one row chunk's scratch.
+type plainChunk struct {
+	r0, r1 int       // rows [r0, r1) of the batch
+	z      []float32 // rows×K logits, then dZ
+	at, a  []float32 // activations Aᵀ (H×rows) and A (rows×H) (mlp)
+	da     []float32 // their gradient dAᵀ (H×rows) (mlp)
+	// transposes of the layer input (in×rows; softmax) and of dZ (K×rows)
+	tin, tout []float32
+	g         [][]float32 // gradient shares of the shared tensors (chunk 0: the caller's)
+	loss      float64     // Σ over its rows of −log p(y), not yet divided by B
+}
+
+// paramRange is elements [lo, hi) of parameter tensor i.
+type paramRange struct{ i, lo, hi int }
+
+// reduceRange is the length of one reduction unit: large enough that handing
+// out a unit costs nothing beside summing it, small enough that the units
+// spread over a handful of workers. plainHiddenBlock is the row count of one
+// dW1 unit: 128 rows give a 512-unit layer 4 units, while each unit's
+// product is still big enough that packing Xᵀ for it is a small overhead.
+const (
+	reduceRange      = 1 << 14
+	plainHiddenBlock = 128
+)
+
 // NewPlain validates s (which must be float32) and allocates the engine.
-// gemm nil means GemmNTGonum.
-func NewPlain(s Spec, gemm GemmNTFunc) (*Plain, error) {
+// gemm nil means GemmNTGonum. team runs the work units and may be nil (all
+// on the caller); Plain does not close it. With several workers gemm must be
+// safe for concurrent use.
+func NewPlain(s Spec, gemm GemmNTFunc, team *Team) (*Plain, error) {
 	if err := s.validate(); err != nil {
 		return nil, err
 	}
@@ -52,26 +102,52 @@ func NewPlain(s Spec, gemm GemmNTFunc) (*Plain, error) {
 	if gemm == nil {
 		gemm = GemmNTGonum
 	}
-	p := &Plain{spec: s, gemm: gemm,
+	p := &Plain{spec: s, gemm: gemm, team: team,
 		x: make([]float32, s.Batch*s.In),
 		y: make([]float32, s.Batch*s.Out),
-		z: make([]float32, s.Batch*s.Out),
 	}
-	for _, sh := range s.ParamShapes() {
+	for i, sh := range s.ParamShapes() {
 		n := 1
 		for _, v := range sh {
 			n *= v
 		}
 		p.params = append(p.params, make([]float32, n))
+		p.shared = append(p.shared, s.Hidden == 0 || i >= 2)
+		for lo := 0; lo < n; lo += reduceRange {
+			p.ranges = append(p.ranges, paramRange{i, lo, min(n, lo+reduceRange)})
+		}
 	}
-	wide := max(s.In, s.Hidden)
-	p.tin = make([]float32, wide*s.Batch)
-	p.tout = make([]float32, max(s.Hidden, s.Out)*s.Batch)
+	p.sq = make([]float64, len(p.ranges))
 	if s.Hidden > 0 {
-		p.a = make([]float32, s.Batch*s.Hidden)
-		p.da = make([]float32, s.Batch*s.Hidden)
 		p.w2t = make([]float32, s.Hidden*s.Out)
+		p.xt = make([]float32, s.In*s.Batch)
+		p.dat = make([]float32, s.Hidden*s.Batch)
 	}
+	nc := s.chunks()
+	for c := 0; c < nc; c++ {
+		ch := plainChunk{r0: c * s.Batch / nc, r1: (c + 1) * s.Batch / nc}
+		rows := ch.r1 - ch.r0
+		ch.z = make([]float32, rows*s.Out)
+		ch.tout = make([]float32, s.Out*rows)
+		if s.Hidden > 0 {
+			ch.a = make([]float32, rows*s.Hidden)
+			ch.at = make([]float32, rows*s.Hidden)
+			ch.da = make([]float32, rows*s.Hidden)
+		} else {
+			ch.tin = make([]float32, s.In*rows)
+		}
+		if c > 0 {
+			for i, q := range p.params {
+				var share []float32
+				if p.shared[i] {
+					share = make([]float32, len(q))
+				}
+				ch.g = append(ch.g, share)
+			}
+		}
+		p.chunks = append(p.chunks, ch)
+	}
+	p.chunkFn, p.hiddenFn, p.reduceFn = p.evalChunk, p.hiddenBlock, p.reduce
 	return p, nil
 }
 
@@ -81,8 +157,10 @@ func (p *Plain) X32() []float32        { return p.x }
 func (p *Plain) Y32() []float32        { return p.y }
 func (p *Plain) Close() error          { return nil }
 
-// transpose sets dst (cols×rows) = srcᵀ for row-major src (rows×cols).
-func transpose(dst, src []float32, rows, cols int) {
+// transpose sets dst[c·ld + r] = src[r·cols + c] for row-major src
+// (rows×cols): dst (cols×rows) = srcᵀ when ld = rows, or a column block of a
+// wider matrix with ld columns.
+func transpose(dst, src []float32, rows, cols, ld int) {
 	const tile = 32
 	for r0 := 0; r0 < rows; r0 += tile {
 		r1 := min(rows, r0+tile)
@@ -91,10 +169,21 @@ func transpose(dst, src []float32, rows, cols int) {
 			for r := r0; r < r1; r++ {
 				row := src[r*cols : (r+1)*cols]
 				for c := c0; c < c1; c++ {
-					dst[c*rows+r] = row[c]
+					dst[c*ld+r] = row[c]
 				}
 			}
 		}
+	}
+}
+
+// rowSums sets dst[j] = Σ of row j (length n) of the row-major m.
+func rowSums(dst, m []float32, n int) {
+	for j := range dst {
+		var s float32
+		for _, v := range m[j*n : (j+1)*n] {
+			s += v
+		}
+		dst[j] = s
 	}
 }
 
@@ -106,21 +195,6 @@ func (p *Plain) forwardAffine(out, in, W, b []float32, B, n, m int) {
 		for j, v := range b {
 			row[j] += v
 		}
-	}
-}
-
-// backwardAffine sets dW (m×n) = dOutᵀ·in and db = column sums of dOut.
-func (p *Plain) backwardAffine(dW, db, dOut, in []float32, B, n, m int) {
-	tin, tout := p.tin[:n*B], p.tout[:m*B]
-	transpose(tin, in, B, n)
-	transpose(tout, dOut, B, m)
-	p.gemm(dW, tout, tin, m, n, B)
-	for j := range db {
-		var s float32
-		for _, v := range tout[j*B : (j+1)*B] {
-			s += v
-		}
-		db[j] = s
 	}
 }
 
@@ -136,46 +210,26 @@ func (p *Plain) Eval(grads any) (float64, error) {
 		}
 	}
 	s := p.spec
-	B, D, H, K := s.Batch, s.In, s.Hidden, s.Out
-	var loss float64
-	if H == 0 {
-		p.forwardAffine(p.z, p.x, p.params[0], p.params[1], B, D, K)
-		loss = softmaxCE(p.z, p.y, B, K)
-		p.backwardAffine(g[0], g[1], p.z, p.x, B, D, K)
-	} else {
-		p.forwardAffine(p.a, p.x, p.params[0], p.params[1], B, D, H)
-		for i, v := range p.a {
-			if v < 0 {
-				p.a[i] = 0
-			}
-		}
-		p.forwardAffine(p.z, p.a, p.params[2], p.params[3], B, H, K)
-		loss = softmaxCE(p.z, p.y, B, K)
-		p.backwardAffine(g[2], g[3], p.z, p.a, B, H, K)
-		// dA = dZ·W2 = dZ·(W2ᵀ)ᵀ, masked by the ReLU.
-		transpose(p.w2t, p.params[2], K, H)
-		p.gemm(p.da, p.z, p.w2t, B, H, K)
-		for i, v := range p.a {
-			if v <= 0 {
-				p.da[i] = 0
-			}
-		}
-		p.backwardAffine(g[0], g[1], p.da, p.x, B, D, H)
+	p.grads = g
+	if s.Hidden > 0 {
+		transpose(p.w2t, p.params[2], s.Out, s.Hidden, s.Out)
 	}
+	p.team.Run(len(p.chunks), p.chunkFn)
+	if s.Hidden > 0 {
+		p.team.Run((s.Hidden+plainHiddenBlock-1)/plainHiddenBlock, p.hiddenFn)
+	}
+	p.team.Run(len(p.ranges), p.reduceFn)
+	p.grads = nil
+	var ce, sq float64
+	for _, ch := range p.chunks {
+		ce += ch.loss
+	}
+	for _, v := range p.sq {
+		sq += v
+	}
+	loss := ce / float64(s.Batch)
 	if s.L2 > 0 {
-		lam := float32(s.L2)
-		for _, wi := range []int{0, 2} {
-			if wi >= len(p.params) {
-				break
-			}
-			var sq float64
-			w, gw := p.params[wi], g[wi]
-			for j, v := range w {
-				sq += float64(v) * float64(v)
-				gw[j] += lam * v
-			}
-			loss += s.L2 / 2 * sq
-		}
+		loss += s.L2 / 2 * sq
 	}
 	if math.IsNaN(loss) || math.IsInf(loss, 0) {
 		return loss, ErrNonFinite
@@ -183,11 +237,103 @@ func (p *Plain) Eval(grads any) (float64, error) {
 	return loss, nil
 }
 
-// softmaxCE returns −(1/B) Σ_i Σ_k Y_ik log softmax(Z_i)_k and overwrites z
-// with dloss/dZ = (softmax(Z) − Y)/B. Sums run in float64.
-func softmaxCE(z, y []float32, B, K int) float64 {
+// evalChunk runs chunk c's forward and backward pass (see Plain).
+func (p *Plain) evalChunk(c int) {
+	s := p.spec
+	ch := &p.chunks[c]
+	g := ch.g
+	if c == 0 {
+		g = p.grads
+	}
+	B, D, H, K := ch.r1-ch.r0, s.In, s.Hidden, s.Out
+	x, y := p.x[ch.r0*D:ch.r1*D], p.y[ch.r0*K:ch.r1*K]
+	invB := 1 / float64(s.Batch)
+	tout := ch.tout[:K*B]
+	if H == 0 {
+		p.forwardAffine(ch.z, x, p.params[0], p.params[1], B, D, K)
+		ch.loss = softmaxCE(ch.z, y, B, K, invB)
+		transpose(ch.tin, x, B, D, B)
+		transpose(tout, ch.z, B, K, B)
+		p.gemm(g[0], tout, ch.tin, K, D, B)
+		rowSums(g[1], tout, B)
+		return
+	}
+	// The hidden layer runs transposed, Aᵀ = W1·Xᵀ (H×rows): the product
+	// kernel then packs the chunk's rows rather than all of W1.
+	at := ch.at
+	p.gemm(at, p.params[0], x, H, B, D)
+	for h, bh := range p.params[1] {
+		row := at[h*B : (h+1)*B]
+		for i, v := range row {
+			row[i] = max(0, v+bh)
+		}
+	}
+	transpose(ch.a, at, H, B, H)
+	p.forwardAffine(ch.z, ch.a, p.params[2], p.params[3], B, H, K)
+	ch.loss = softmaxCE(ch.z, y, B, K, invB)
+	// dW2 share = dZᵀ·A = (dZᵀ)·(Aᵀ)ᵀ; db2 share = column sums of dZ.
+	transpose(tout, ch.z, B, K, B)
+	p.gemm(g[2], tout, at, K, H, B)
+	rowSums(g[3], tout, B)
+	// dAᵀ = W2ᵀ·dZᵀ = (W2ᵀ)·(dZ)ᵀ, masked by the ReLU, into the chunk's
+	// columns of the whole-batch dAᵀ; the chunk's columns of Xᵀ beside it.
+	da := ch.da
+	p.gemm(da, p.w2t, ch.z, H, B, K)
+	Bw := s.Batch
+	for h := 0; h < H; h++ {
+		src, act := da[h*B:(h+1)*B], at[h*B:(h+1)*B]
+		dst := p.dat[h*Bw+ch.r0 : h*Bw+ch.r1]
+		for i, v := range src {
+			if act[i] <= 0 {
+				v = 0
+			}
+			dst[i] = v
+		}
+	}
+	transpose(p.xt[ch.r0:], x, B, D, Bw)
+}
+
+// hiddenBlock computes rows [u·plainHiddenBlock, …) of dW1 = dAᵀ·X =
+// (dAᵀ)·(Xᵀ)ᵀ and of db1 = row sums of dAᵀ, over the whole batch.
+func (p *Plain) hiddenBlock(u int) {
+	s := p.spec
+	B, D := s.Batch, s.In
+	h0, h1 := u*plainHiddenBlock, min(s.Hidden, (u+1)*plainHiddenBlock)
+	dat := p.dat[h0*B : h1*B]
+	p.gemm(p.grads[0][h0*D:h1*D], dat, p.xt, h1-h0, D, B)
+	rowSums(p.grads[1][h0:h1], dat, B)
+}
+
+// reduce sums the chunks' gradient shares over range u in chunk order, then
+// adds the L2 term's gradient λ·W (weight tensors 0 and 2 only) and records
+// the range's Σ w².
+func (p *Plain) reduce(u int) {
+	r := p.ranges[u]
+	dst := p.grads[r.i][r.lo:r.hi]
+	if p.shared[r.i] {
+		for _, ch := range p.chunks[1:] {
+			for j, v := range ch.g[r.i][r.lo:r.hi] {
+				dst[j] += v
+			}
+		}
+	}
+	p.sq[u] = 0
+	if p.spec.L2 > 0 && (r.i == 0 || r.i == 2) {
+		lam := float32(p.spec.L2)
+		var sq float64
+		for j, v := range p.params[r.i][r.lo:r.hi] {
+			sq += float64(v) * float64(v)
+			dst[j] += lam * v
+		}
+		p.sq[u] = sq
+	}
+}
+
+// softmaxCE returns −Σ_i Σ_k Y_ik log softmax(Z_i)_k over the B rows of z and
+// overwrites z with dloss/dZ = (softmax(Z) − Y)·invB, invB = 1/(whole batch
+// size). Sums run in float64.
+func softmaxCE(z, y []float32, B, K int, invB float64) float64 {
 	var loss float64
-	invB := 1 / float64(B)
 	for i := 0; i < B; i++ {
 		zr, yr := z[i*K:(i+1)*K], y[i*K:(i+1)*K]
 		mx := zr[0]
@@ -207,5 +353,5 @@ func softmaxCE(z, y []float32, B, K int) float64 {
 			zr[k] = float32((math.Exp(lp) - float64(yr[k])) * invB)
 		}
 	}
-	return loss * invB
+	return loss
 }

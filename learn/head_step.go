@@ -1,0 +1,190 @@
+package learn
+
+import (
+	"math"
+	"reflect"
+
+	"github.com/striate/striate/learn/internal/nn"
+	"gonum.org/v1/gonum/blas"
+	"gonum.org/v1/gonum/blas/blas32"
+)
+
+// One optimiser step of the "go" engine is spread over HeadFitOptions.Workers
+// goroutines in three phases, each cut into work units fixed by the data and
+// the config alone (never by the number of workers), every unit writing its
+// own output, so a fit is bit-identical whatever Workers is:
+//
+//  1. the minibatch rows are standardised into the engine's input, in blocks
+//     of headFillRows rows;
+//  2. the engine evaluates headChunks(batch) row chunks of the minibatch and
+//     sums their gradient shares in chunk order (nn.Plain);
+//  3. the optimiser updates the parameters in ranges of headUpdateRange
+//     elements (Adam and SGD act element by element).
+
+// headChunkRows is the target row count of one gradient chunk: 32 rows keep
+// the products' inner dimension long enough for the packed SIMD kernel while
+// a 128-row minibatch (the default) still feeds 4 workers. headMaxChunks caps
+// the chunk count, since each chunk beyond the first holds a full copy of the
+// gradient (8 × 2.2 MB at 1,085 features and 512 hidden units).
+const (
+	headChunkRows   = 32
+	headMaxChunks   = 8
+	headFillRows    = 16
+	headUpdateRange = 1 << 14
+)
+
+// headChunks returns the number of gradient chunks of a minibatch of the
+// given size: ⌈batch/headChunkRows⌉, at most headMaxChunks.
+func headChunks(batch int) int {
+	return max(1, min(headMaxChunks, (batch+headChunkRows-1)/headChunkRows))
+}
+
+// headStepper holds one fit's step phases 1 and 3 (see above) and their
+// scratch, so that a step allocates nothing.
+type headStepper struct {
+	team *nn.Team
+	// phase 1: rows[b] is the training row of minibatch row b
+	X, mean, std []float32
+	y            []int
+	d, k         int
+	rows         []int
+	xb, yb       []float32
+	// phase 3
+	params, grads [][]float32
+	st            *headState
+	adam          bool
+	units         []headRange
+	step, eps, mu float32 // adam step size and ε̂; sgd momentum (step is then lr)
+
+	fillFn, updateFn func(int)
+}
+
+// headRange is elements [lo, hi) of parameter tensor i.
+type headRange struct{ i, lo, hi int }
+
+func newHeadStepper(team *nn.Team, X []float32, y []int, d, k int, mean, std, xb, yb []float32,
+	params, grads [][]float32, st *headState, cfg HeadConfig) *headStepper {
+	s := &headStepper{team: team, X: X, y: y, d: d, k: k, mean: mean, std: std,
+		rows: make([]int, len(yb)/k), xb: xb, yb: yb,
+		params: params, grads: grads, st: st, adam: cfg.Optimizer == OptAdam,
+		mu: float32(max(0, cfg.Momentum))}
+	for i, p := range params {
+		for lo := 0; lo < len(p); lo += headUpdateRange {
+			s.units = append(s.units, headRange{i, lo, min(len(p), lo+headUpdateRange)})
+		}
+	}
+	s.fillFn, s.updateFn = s.fill, s.update
+	return s
+}
+
+// fillBatch standardises the training rows s.rows into the engine's input
+// and writes their one-hot targets.
+func (s *headStepper) fillBatch() {
+	s.team.Run((len(s.rows)+headFillRows-1)/headFillRows, s.fillFn)
+}
+
+func (s *headStepper) fill(u int) {
+	d, k := s.d, s.k
+	b0, b1 := u*headFillRows, min(len(s.rows), (u+1)*headFillRows)
+	clear(s.yb[b0*k : b1*k])
+	for b := b0; b < b1; b++ {
+		r := s.rows[b]
+		row := s.X[r*d : (r+1)*d]
+		dst := s.xb[b*d : (b+1)*d]
+		for j, v := range row {
+			dst[j] = (v - s.mean[j]) / s.std[j]
+		}
+		s.yb[b*k+s.y[r]] = 1
+	}
+}
+
+// apply performs one optimiser step with learning rate lr (st.t already
+// counts it).
+func (s *headStepper) apply(lr float64) {
+	if s.adam {
+		// Kingma & Ba (2015), Algorithm 1, with the bias corrections folded
+		// into the step size: α_t = α·sqrt(1−β2^t)/(1−β1^t) and ε̂ = ε·sqrt(1−β2^t).
+		t := float64(s.st.t)
+		c2 := math.Sqrt(1 - math.Pow(adamBeta2, t))
+		s.step = float32(lr * c2 / (1 - math.Pow(adamBeta1, t)))
+		s.eps = float32(adamEps * c2)
+	} else {
+		s.step = float32(lr)
+	}
+	s.team.Run(len(s.units), s.updateFn)
+}
+
+func (s *headStepper) update(u int) {
+	r := s.units[u]
+	p, g := s.params[r.i][r.lo:r.hi], s.grads[r.i][r.lo:r.hi]
+	m := s.st.opt1[r.i][r.lo:r.hi]
+	if s.adam {
+		const b1, b2 = float32(adamBeta1), float32(adamBeta2)
+		step, eps := s.step, s.eps
+		v := s.st.opt2[r.i][r.lo:r.hi]
+		g, m, v = g[:len(p)], m[:len(p)], v[:len(p)]
+		for j := range p {
+			gj := g[j]
+			m[j] = b1*m[j] + (1-b1)*gj
+			v[j] = b2*v[j] + (1-b2)*gj*gj
+			p[j] -= step * m[j] / (float32(math.Sqrt(float64(v[j]))) + eps)
+		}
+		return
+	}
+	mu, a := s.mu, s.step
+	g, m = g[:len(p)], m[:len(p)]
+	for j := range p {
+		m[j] = mu*m[j] + g[j]
+		p[j] -= a * m[j]
+	}
+}
+
+// headKernel returns the product kernel of the "go" engine. In the SIMD
+// build it is the package's gemmNT (AVX2), except for products with fewer
+// than 16 rows or columns (the class dimension of the output layer), where
+// gonum's blas32 measured faster than the SIMD kernel (BenchmarkHeadStep:
+// softmax step 1.7-2.4 ms with gonum, 6.4-8.0 ms with the SIMD kernel
+// throughout). Elsewhere it is gonum's, always on one goroutine
+// (headGemmSerial): the head's own workers run the chunks in parallel.
+func headKernel() nn.GemmNTFunc {
+	if reflect.ValueOf(gemmNT).Pointer() == reflect.ValueOf(gemmNTGonum).Pointer() {
+		return headGemmSerial
+	}
+	return headGemm
+}
+
+func headGemm(c, a, b []float32, m, n, p int) {
+	if m < 16 || n < 16 {
+		headGemmSerial(c, a, b, m, n, p)
+		return
+	}
+	gemmNT(c, a, b, m, n, p)
+}
+
+// gonum's Sgemm splits a product with at least 4 blocks of 64×64 outputs
+// over new goroutines (and allocates for them); products cut into tiles of
+// at most headTileRows × headTileCols outputs (1×3 blocks) stay on the
+// caller. Each output is still one dot product over the whole inner
+// dimension, so the tiling does not change the result.
+const (
+	headTileRows = 64
+	headTileCols = 192
+)
+
+// headGemmSerial computes c = a·bᵀ (a m×p, b n×p, c m×n, row-major) with
+// gonum's blas32 on the calling goroutine.
+func headGemmSerial(c, a, b []float32, m, n, p int) {
+	if m == 0 || n == 0 {
+		return
+	}
+	for i0 := 0; i0 < m; i0 += headTileRows {
+		mi := min(headTileRows, m-i0)
+		for j0 := 0; j0 < n; j0 += headTileCols {
+			nj := min(headTileCols, n-j0)
+			blas32.Gemm(blas.NoTrans, blas.Trans, 1,
+				blas32.General{Rows: mi, Cols: p, Stride: p, Data: a[i0*p : (i0+mi)*p]},
+				blas32.General{Rows: nj, Cols: p, Stride: p, Data: b[j0*p : (j0+nj)*p]},
+				0, blas32.General{Rows: mi, Cols: nj, Stride: n, Data: c[i0*n+j0 : (i0+mi-1)*n+j0+nj]})
+		}
+	}
+}

@@ -13,7 +13,8 @@
 //	pixel (y, x) of image i = Pix[(i*H+y)*W+x]   0 black … 255 white
 //	class of image i        = Labels[i] ∈ [0, len(Classes))
 //
-// Sets come from LoadMNIST, LoadFashionMNIST, ReadIDXSet or LoadFolder, are
+// Sets come from LoadMNIST, LoadFashionMNIST, LoadIDXFolder, ReadIDXSet or
+// LoadFolder, are
 // divided by StratifiedSplit / Set.Split and PerClass, and are read either
 // one image at a time (Set.Float, pixel/255) or in batches (Set.Batches).
 // Everything downstream works on float32 pixels in [0,1], row-major.
@@ -46,6 +47,11 @@
 // Images are u8 of rank 3 (N×H×W), labels u8 of rank 1 (N); the other types
 // decode through IDX.Float64s. WriteIDX / WriteIDXFile / WriteIDXSet write
 // the same format.
+//
+// A folder of IDX files under the MNIST file names (LoadIDXFolder) carries
+// digit class names unless a ClassNamesFile ("classes.txt") beside them
+// names the classes: our own plain format, UTF-8, one name per line in
+// label order, blank and # lines ignored (ReadClassNames, WriteClassNames).
 //
 // # The user's images
 //

@@ -4,12 +4,14 @@ import (
 	"bufio"
 	"compress/gzip"
 	"encoding/binary"
+	"errors"
 	"fmt"
 	"io"
 	"math"
 	"os"
 	"path/filepath"
 	"strings"
+	"unicode/utf8"
 )
 
 // IDXType is the element-type byte of an IDX header (the third byte of the
@@ -452,4 +454,150 @@ func WriteIDXSet(imagesPath, labelsPath string, s *Set) error {
 		return err
 	}
 	return WriteIDXFile(labelsPath, &IDX{Type: IDXUint8, Dims: []int{s.N}, Data: lb})
+}
+
+// ClassNamesFile is the optional file beside the IDX files of a folder that
+// names its classes (LoadIDXFolder). The format is our own plain text:
+// UTF-8, one class name per line in label order (the first name is label
+// 0); blank lines and lines whose first non-blank character is '#' are
+// ignored; spaces around a name and a trailing carriage return are
+// dropped. A name holds no tab, is unique in the file, and there are at most
+// 256 names (IDX labels are one byte).
+//
+//	# garments of the sorting station, label order
+//	T-shirt/top
+//	Trouser
+//	Pullover
+const ClassNamesFile = "classes.txt"
+
+// className is one name of a class-names file with its 1-based line.
+type className struct {
+	name string
+	line int
+}
+
+// ReadClassNames reads a class-names file (format of ClassNamesFile).
+// Errors name the file and line.
+func ReadClassNames(path string) ([]string, error) {
+	cn, err := readClassNames(path)
+	if err != nil {
+		return nil, err
+	}
+	out := make([]string, len(cn))
+	for i, c := range cn {
+		out[i] = c.name
+	}
+	return out, nil
+}
+
+func readClassNames(path string) ([]className, error) {
+	b, err := os.ReadFile(path)
+	if err != nil {
+		return nil, fmt.Errorf("datasets: class names: %v", err)
+	}
+	var out []className
+	first := map[string]int{}
+	for i, line := range strings.Split(string(b), "\n") {
+		n := i + 1
+		name := strings.TrimSpace(strings.TrimSuffix(line, "\r"))
+		if name == "" || strings.HasPrefix(name, "#") {
+			continue
+		}
+		if !utf8.ValidString(name) {
+			return nil, fmt.Errorf("datasets: %s:%d: the class name is not valid UTF-8; save the file as UTF-8", path, n)
+		}
+		if strings.ContainsAny(name, "\t\r") {
+			return nil, fmt.Errorf("datasets: %s:%d: class name %q holds a tab or carriage return; names are one per line with no tabs", path, n, name)
+		}
+		if l, dup := first[name]; dup {
+			return nil, fmt.Errorf("datasets: %s:%d: class name %q repeats line %d; each class needs its own name", path, n, name, l)
+		}
+		first[name] = n
+		out = append(out, className{name, n})
+	}
+	if len(out) == 0 {
+		return nil, fmt.Errorf("datasets: %s: no class names (only blank or # lines); write one name per line in label order", path)
+	}
+	if len(out) > 256 {
+		return nil, fmt.Errorf("datasets: %s:%d: %d class names, but IDX labels are one byte (0..255); at most 256 names", path, out[256].line, len(out))
+	}
+	return out, nil
+}
+
+// WriteClassNames writes classes in the format of ClassNamesFile, after a
+// one-line # comment. It refuses names that the format cannot carry
+// (empty, tab or newline inside, spaces around, a leading '#', repeats, or
+// more than 256).
+func WriteClassNames(path string, classes []string) error {
+	if len(classes) == 0 || len(classes) > 256 {
+		return fmt.Errorf("datasets: write %s: %d class names, want 1..256", path, len(classes))
+	}
+	seen := map[string]int{}
+	var sb strings.Builder
+	sb.WriteString("# class names in label order (label 0 first), one per line\n")
+	for i, c := range classes {
+		if c == "" || c != strings.TrimSpace(c) || strings.HasPrefix(c, "#") || strings.ContainsAny(c, "\t\r\n") || !utf8.ValidString(c) {
+			return fmt.Errorf("datasets: write %s: class %d name %q cannot be stored: names are non-empty UTF-8 with no tab or newline, no spaces around and no leading '#'", path, i, c)
+		}
+		if j, dup := seen[c]; dup {
+			return fmt.Errorf("datasets: write %s: classes %d and %d are both named %q", path, j, i, c)
+		}
+		seen[c] = i
+		sb.WriteString(c)
+		sb.WriteByte('\n')
+	}
+	if err := os.WriteFile(path, []byte(sb.String()), 0o644); err != nil {
+		return fmt.Errorf("datasets: write class names: %v", err)
+	}
+	return nil
+}
+
+// LoadIDXFolder reads a split of a folder holding IDX files under the MNIST
+// file names (train-images-idx3-ubyte, train-labels-idx1-ubyte,
+// t10k-images-idx3-ubyte, t10k-labels-idx1-ubyte, each optionally .gz). The
+// classes are named by the folder's ClassNamesFile when there is one, else
+// by MNISTClasses (the digits). Every label present must have a name. The
+// set is named after the folder and the split.
+func LoadIDXFolder(dir string, split Split) (*Set, error) {
+	if split != Train && split != Test {
+		return nil, fmt.Errorf("datasets: split %v is neither Train nor Test", split)
+	}
+	var names []className
+	cpath := filepath.Join(dir, ClassNamesFile)
+	if _, err := os.Stat(cpath); err == nil {
+		if names, err = readClassNames(cpath); err != nil {
+			return nil, err
+		}
+	}
+	if names == nil {
+		s, err := loadSplit(dir, split, filepath.Base(dir), MNISTClasses)
+		if errors.Is(err, errNoData) {
+			return nil, fmt.Errorf("datasets: %v; fix: name the folder that holds them, or write them with WriteIDXSet", err)
+		}
+		return s, err
+	}
+	all := make([]string, 256)
+	for i := range all {
+		all[i] = fmt.Sprint(i)
+	}
+	s, err := loadSplit(dir, split, filepath.Base(dir), all)
+	if errors.Is(err, errNoData) {
+		return nil, fmt.Errorf("datasets: %v; fix: name the folder that holds them, or write them with WriteIDXSet", err)
+	}
+	if err != nil {
+		return nil, err
+	}
+	top := 0
+	for _, l := range s.Labels {
+		top = max(top, l)
+	}
+	if top >= len(names) {
+		last := names[len(names)-1]
+		return nil, fmt.Errorf("datasets: %s:%d: %d class names end here, but the labels of %s reach %d; add a name for every label 0..%d", cpath, last.line, len(names), s.Source, top, top)
+	}
+	s.Classes = make([]string, len(names))
+	for i, c := range names {
+		s.Classes[i] = c.name
+	}
+	return s, nil
 }

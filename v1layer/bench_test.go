@@ -9,11 +9,11 @@ import (
 	"time"
 )
 
-// Benchmarks run the default front end, which equals the reference work of
-// ../shared/bench/filterbank.json (TestDefaultKernelsMatchBench), on that
-// work's inputs when they are available (MNIST test images, the 256×256
-// photo crops) and on seeded random images otherwise — content does not
-// change the work. `striate bench` times the whole reference sets.
+// Benchmarks run the default front end, which equals the reference work's
+// filterbank.json (TestDefaultKernelsMatchBench), on that work's inputs
+// (MNIST test images when the data set is on this machine, the 256×256 photo
+// crops embedded in internal/benchwork) and on seeded random images
+// otherwise — content does not change the work. `striate bench` times the whole reference sets.
 //
 //	flock /tmp/striate-heavy.lock go test -run XXX -bench FrontEnd ./v1layer
 //	GOEXPERIMENT=simd flock /tmp/striate-heavy.lock go test -run XXX -bench FrontEnd ./v1layer

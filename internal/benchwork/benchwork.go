@@ -1,18 +1,27 @@
-// Package benchwork loads the reference work of ../shared/bench (see its
-// README.md) so that striate's benchmarks and the `striate bench` command
-// time exactly what the general-purpose peers were timed on: the MNIST
-// test set, 64 photo crops of 256×256 read from data/crops256_8x8.png, the
-// front-end kernels of filterbank_kernels.json, and the peers' published
-// throughputs.
+// Package benchwork holds the reference work that striate's benchmarks and
+// the `striate bench` command time, embedded in the binary so that nothing
+// outside the repository is needed: the front-end specification
+// (filterbank.json) and its 18 float64 kernels (filterbank_kernels.json),
+// 64 photo crops of 256×256 stored as one 2048×2048 grey PNG, and the
+// figures that general-purpose libraries reached on the same work
+// (peers.json; each figure names its library and version). The MNIST test
+// images come from datasets.LoadMNIST. data/README.md says where every file
+// came from.
+//
+// Every loader takes a folder: "" means the embedded copy; a folder laid
+// out like the shared reference work (filterbank.json, filterbank_kernels.json,
+// README.md, data/crops256_8x8.png) overrides it.
 package benchwork
 
 import (
 	"bufio"
+	"bytes"
+	"embed"
 	"encoding/json"
-	"errors"
 	"fmt"
 	"image"
 	"image/png"
+	"io/fs"
 	"math/rand/v2"
 	"os"
 	"path/filepath"
@@ -24,43 +33,50 @@ import (
 	"github.com/striate/striate/datasets"
 )
 
-// DefaultRel is where the reference folder sits relative to the repository root.
-const DefaultRel = "../shared/bench"
+//go:embed data/filterbank.json data/filterbank_kernels.json data/crops256_8x8.png data/crops256.json data/peers.json
+var embedded embed.FS
 
-// FindDir returns dir if it is non-empty, else DefaultRel resolved against
-// the root of the striate module found by walking up from the working
-// directory. It checks that filterbank.json is there and says how to fix it
-// otherwise.
+// Embedded names the embedded reference work in sources and messages.
+const Embedded = "embedded reference work"
+
+// DefaultRel is empty: with no folder given, the loaders read the embedded
+// reference work.
+//
+// Deprecated: pass "" to the loaders instead.
+const DefaultRel = ""
+
+// FindDir returns dir unchanged: "" selects the embedded reference work,
+// and a non-empty dir must hold filterbank.json (the error says what a
+// reference folder holds otherwise).
 func FindDir(dir string) (string, error) {
 	if dir == "" {
-		root, err := moduleRoot()
-		if err != nil {
-			return "", fmt.Errorf("benchwork: no reference folder given and %v; pass the folder holding filterbank.json (e.g. --ref ../shared/bench)", err)
-		}
-		dir = filepath.Join(root, DefaultRel)
+		return "", nil
 	}
 	if _, err := os.Stat(filepath.Join(dir, "filterbank.json")); err != nil {
-		return "", fmt.Errorf("benchwork: %s is not the reference folder (no filterbank.json: %v); pass the folder that holds filterbank.json, filterbank_kernels.json, README.md and data/", dir, err)
+		return "", fmt.Errorf("benchwork: %s is not a reference folder (no filterbank.json: %v); pass a folder that holds filterbank.json, filterbank_kernels.json, README.md and data/crops256_8x8.png, or none to use the %s", dir, err, Embedded)
 	}
 	return dir, nil
 }
 
-func moduleRoot() (string, error) {
-	d, err := os.Getwd()
+// ReadFile returns a file of the reference work by its name relative to the
+// reference folder (e.g. "filterbank.json", "data/crops256_8x8.png"): from
+// dir, or from the embedded copy when dir is "" (where the crops PNG is
+// named "crops256_8x8.png" too). It also returns where the bytes came from.
+func ReadFile(dir, name string) ([]byte, string, error) {
+	if dir != "" {
+		path := filepath.Join(dir, filepath.FromSlash(name))
+		b, err := os.ReadFile(path)
+		if err != nil {
+			return nil, "", fmt.Errorf("benchwork: %v", err)
+		}
+		return b, path, nil
+	}
+	base := "data/" + strings.TrimPrefix(name, "data/")
+	b, err := fs.ReadFile(embedded, base)
 	if err != nil {
-		return "", err
+		return nil, "", fmt.Errorf("benchwork: the %s has no %s (it holds filterbank.json, filterbank_kernels.json, crops256_8x8.png, crops256.json, peers.json)", Embedded, name)
 	}
-	for {
-		b, err := os.ReadFile(filepath.Join(d, "go.mod"))
-		if err == nil && strings.Contains(string(b), "module github.com/striate/striate") {
-			return d, nil
-		}
-		parent := filepath.Dir(d)
-		if parent == d {
-			return "", errors.New("the working directory is not inside the striate repository")
-		}
-		d = parent
-	}
+	return b, Embedded + " " + strings.TrimPrefix(name, "data/"), nil
 }
 
 // Set is one input set of the reference work.
@@ -71,28 +87,26 @@ type Set struct {
 	Source string      // where the images came from
 }
 
-// Crops reads the 64 crops of 256×256 from data/crops256_8x8.png (crop i at
-// tile row i/8, column i%8), pixel/255. n > 0 keeps the first n.
+// Crops reads the 64 crops of 256×256 from data/crops256_8x8.png (crop i
+// at tile row i/8, column i%8), pixel/255. n > 0 keeps the first n.
 func Crops(dir string, n int) (*Set, error) {
-	path := filepath.Join(dir, "data", "crops256_8x8.png")
-	f, err := os.Open(path)
+	b, src, err := ReadFile(dir, "data/crops256_8x8.png")
 	if err != nil {
-		return nil, fmt.Errorf("benchwork: %v", err)
+		return nil, err
 	}
-	defer f.Close()
-	img, err := png.Decode(bufio.NewReader(f))
+	img, err := png.Decode(bufio.NewReader(bytes.NewReader(b)))
 	if err != nil {
-		return nil, fmt.Errorf("benchwork: %s: %v", path, err)
+		return nil, fmt.Errorf("benchwork: %s: %v", src, err)
 	}
 	g, ok := img.(*image.Gray)
 	if !ok || g.Rect.Dx() != 2048 || g.Rect.Dy() != 2048 {
-		return nil, fmt.Errorf("benchwork: %s: want an 8-bit grey 2048×2048 PNG, got %T %v", path, img, img.Bounds())
+		return nil, fmt.Errorf("benchwork: %s: want an 8-bit grey 2048×2048 PNG, got %T %v", src, img, img.Bounds())
 	}
 	const side, tiles = 256, 64
 	if n <= 0 || n > tiles {
 		n = tiles
 	}
-	s := &Set{Name: "crops 256×256", H: side, W: side, Source: path}
+	s := &Set{Name: "crops 256×256", H: side, W: side, Source: src}
 	for i := 0; i < n; i++ {
 		y0, x0 := (i/8)*side, (i%8)*side
 		px := make([]float32, side*side)
@@ -148,10 +162,9 @@ type Kernel struct {
 
 // Kernels reads filterbank_kernels.json.
 func Kernels(dir string) ([]Kernel, error) {
-	path := filepath.Join(dir, "filterbank_kernels.json")
-	b, err := os.ReadFile(path)
+	b, path, err := ReadFile(dir, "filterbank_kernels.json")
 	if err != nil {
-		return nil, fmt.Errorf("benchwork: %v", err)
+		return nil, err
 	}
 	var doc struct {
 		Kernels []struct {
@@ -177,19 +190,88 @@ func Kernels(dir string) ([]Kernel, error) {
 	return out, nil
 }
 
-// Peer is one general-purpose implementation timed in the reference
-// README, images/s; 0 means not measured.
+// Peer is one general-purpose implementation of the front end timed in the
+// reference work, images/s; 0 means not measured.
 type Peer struct {
 	Name                       string
 	MNIST1, MNIST2, Big1, Big2 float64
 }
 
-// Peers parses the front-end table of README.md (section 1).
-func Peers(dir string) ([]Peer, error) {
-	path := filepath.Join(dir, "README.md")
-	b, err := os.ReadFile(path)
+// Figure is one figure a general-purpose library reached on the reference
+// work.
+type Figure struct {
+	Section string  `json:"section"` // "frontend", "sparse" or "classifier"
+	What    string  `json:"what"`    // what was measured, in the library's terms
+	Library string  `json:"library"` // e.g. "PyTorch"
+	Version string  `json:"version"` // e.g. "1.13"
+	Value   float64 `json:"value"`   // the figure, or the low end of a range
+	High    float64 `json:"high"`    // the high end of a range; 0 for a single figure
+	Unit    string  `json:"unit"`    // e.g. "images/s", "s", "%"
+	Threads int     `json:"threads"` // threads used; 0 when not stated
+	Set     string  `json:"set"`     // "mnist", "crops256", "fashion-mnist" or "" (the section's own data)
+}
+
+// Figures returns the embedded peer figures of the reference work (its
+// sections 1-3: front end, sparse coding, classifier peer) and the source
+// they were measured in.
+func Figures() ([]Figure, string, error) {
+	b, _, err := ReadFile("", "peers.json")
 	if err != nil {
-		return nil, fmt.Errorf("benchwork: %v", err)
+		return nil, "", err
+	}
+	var doc struct {
+		Source  string   `json:"source"`
+		Figures []Figure `json:"figures"`
+	}
+	if err := json.Unmarshal(b, &doc); err != nil {
+		return nil, "", fmt.Errorf("benchwork: %s peers.json: %v", Embedded, err)
+	}
+	return doc.Figures, doc.Source, nil
+}
+
+// Peers returns the front-end peers: from the embedded figures when dir is
+// "", else parsed from the table of dir's README.md (its section 1).
+func Peers(dir string) ([]Peer, error) {
+	if dir == "" {
+		figs, _, err := Figures()
+		if err != nil {
+			return nil, err
+		}
+		var out []Peer
+		at := map[string]int{}
+		for _, f := range figs {
+			if f.Section != "frontend" {
+				continue
+			}
+			name := f.Library + " " + f.Version + " " + f.What
+			k, ok := at[name]
+			if !ok {
+				k = len(out)
+				at[name] = k
+				out = append(out, Peer{Name: name})
+			}
+			p := &out[k]
+			switch {
+			case f.Set == "mnist" && f.Threads == 1:
+				p.MNIST1 = f.Value
+			case f.Set == "mnist" && f.Threads == 2:
+				p.MNIST2 = f.Value
+			case f.Set == "crops256" && f.Threads == 1:
+				p.Big1 = f.Value
+			case f.Set == "crops256" && f.Threads == 2:
+				p.Big2 = f.Value
+			default:
+				return nil, fmt.Errorf("benchwork: %s peers.json: front-end figure %q has set %q and %d threads, want mnist or crops256 at 1 or 2", Embedded, name, f.Set, f.Threads)
+			}
+		}
+		if len(out) == 0 {
+			return nil, fmt.Errorf("benchwork: %s peers.json: no front-end figures", Embedded)
+		}
+		return out, nil
+	}
+	b, path, err := ReadFile(dir, "README.md")
+	if err != nil {
+		return nil, err
 	}
 	var out []Peer
 	for _, line := range strings.Split(string(b), "\n") {

@@ -173,7 +173,7 @@ func (c HeadConfig) resolved() (HeadConfig, error) {
 		r.ValFrac = -1 // no validation
 	}
 	if !(r.ValFrac < 0.9) {
-		return r, cfgErr(c, "ValFrac", "%g: want < 0.9 (0 means 0.1, negative none)", c.ValFrac)
+		return r, cfgErr(c, "ValFrac", "%g: want < 0.9 (negative: no validation hold-out)", c.ValFrac)
 	}
 	switch r.Engine {
 	case "":

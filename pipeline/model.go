@@ -20,7 +20,6 @@ type Model struct {
 	tmpl    *templateStage // nil without a template layer
 	guard   *guard
 	head    *learn.Head
-	cfg     Config    // plan.cfg
 	scratch sync.Pool // *work
 }
 
@@ -34,7 +33,7 @@ func newModel(p *Plan, classes []string, tmpl *templateStage, g *guard, head *le
 	if head.NumClasses() != len(classes) {
 		return nil, fmt.Errorf("pipeline: head has %d classes; the model names %d", head.NumClasses(), len(classes))
 	}
-	m := &Model{plan: p, cfg: p.cfg, classes: append([]string(nil), classes...), tmpl: tmpl, guard: g, head: head}
+	m := &Model{plan: p, classes: append([]string(nil), classes...), tmpl: tmpl, guard: g, head: head}
 	m.scratch.New = func() any { return new(work) }
 	return m, nil
 }
@@ -42,7 +41,7 @@ func newModel(p *Plan, classes []string, tmpl *templateStage, g *guard, head *le
 // Config returns the model's configuration with every default filled in and
 // the seeds each stage was fitted with; Fit(m.Config(), same data) rebuilds
 // the same model.
-func (m *Model) Config() Config { return m.cfg }
+func (m *Model) Config() Config { return m.plan.Config() }
 
 // NumClasses returns the number of classes.
 func (m *Model) NumClasses() int { return len(m.classes) }
@@ -54,7 +53,7 @@ func (m *Model) Classes() []string { return append([]string(nil), m.classes...) 
 func (m *Model) FeatureLen() int { return m.guard.out() }
 
 // InputSize returns the height and width every image is resized to.
-func (m *Model) InputSize() (h, w int) { return m.cfg.Input.Height, m.cfg.Input.Width }
+func (m *Model) InputSize() (h, w int) { return m.plan.cfg.Input.Height, m.plan.cfg.Input.Width }
 
 // Channels returns the metadata of the front end's output channels.
 func (m *Model) Channels() []v1layer.Channel { return m.plan.front.Channels() }
@@ -89,10 +88,10 @@ func (m *Model) Predict(img image.Image) (class int, probs []float32) {
 func (m *Model) classify(dst, in []float32, w *work) []float32 {
 	w.feat = m.extract(w.feat, in, w)
 	dst = m.head.Predict(dst, w.feat, m.headScratch(w))
-	if !m.cfg.Mirror {
+	if !m.plan.cfg.Mirror {
 		return dst
 	}
-	w.mir = mirrorRows(w.mir, in, m.cfg.Input.Height, m.cfg.Input.Width)
+	w.mir = mirrorRows(w.mir, in, m.plan.cfg.Input.Height, m.plan.cfg.Input.Width)
 	w.feat = m.extract(w.feat, w.mir, w)
 	if cap(w.probs) < len(dst) {
 		w.probs = make([]float32, len(dst))

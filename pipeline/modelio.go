@@ -31,7 +31,7 @@ const (
 // as little-endian float32 tensors, a SHA-256 at the end. Equal models give
 // bit-identical files.
 func (m *Model) Save(w io.Writer) error {
-	cfg := m.cfg
+	cfg := m.plan.Config()
 	var ts []tensor
 	if b := cfg.Front.Bank; b != nil {
 		nb := &v1layer.Bank{Kernels: make([]v1layer.Kernel, len(b.Kernels))}

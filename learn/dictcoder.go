@@ -37,7 +37,7 @@ type CoderConfig struct {
 	// NonNeg constrains codes to a ≥ 0.
 	NonNeg bool `json:"nonneg"`
 	// Workers is the number of goroutines over signals; 0 means 1.
-	Workers int `json:"workers"`
+	Workers int `json:"workers,omitempty"`
 }
 
 func (c CoderConfig) withDefaults() CoderConfig {

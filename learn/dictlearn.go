@@ -54,10 +54,10 @@ type DictConfig struct {
 	// taken from this struct. The zero value codes with CD, MaxIter 100,
 	// Tol 1e-4 (loose: codes are refined as the dictionary moves).
 	Coder   CoderConfig `json:"coder"`
-	NonNeg  bool        `json:"nonneg"`  // non-negative codes
-	Workers int         `json:"workers"` // goroutines for coding; 0 means 1; results do not depend on it
+	NonNeg  bool        `json:"nonneg"`            // non-negative codes
+	Workers int         `json:"workers,omitempty"` // goroutines for coding; 0 means 1; results do not depend on it (a run-time option: omitted from JSON when 0)
 	// CheckpointEvery > 0 calls OnCheckpoint after every that many steps.
-	CheckpointEvery int `json:"checkpoint_every"`
+	CheckpointEvery int `json:"checkpoint_every,omitempty"`
 	// OnCheckpoint receives a snapshot it may keep or save (DictCheckpoint.Save);
 	// an error from it stops the fit and is returned.
 	OnCheckpoint func(*DictCheckpoint) error `json:"-"`

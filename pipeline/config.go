@@ -204,12 +204,8 @@ func (c Config) withDefaults() Config {
 		lb := c.LearnBank.withDefaults()
 		c.LearnBank = &lb
 	}
-	if c.HeadMinSteps == 0 {
-		c.HeadMinSteps = defaultHeadMinSteps
-	}
-	if c.Unlabeled == 0 {
-		c.Unlabeled = defaultUnlabeled
-	}
+	orDefault(&c.HeadMinSteps, defaultHeadMinSteps)
+	orDefault(&c.Unlabeled, defaultUnlabeled)
 	return c
 }
 
@@ -217,15 +213,9 @@ func (c Config) withDefaults() Config {
 // sets; learn fills the rest when the layer is fitted.
 func templateDefaults(t learn.TemplateConfig) learn.TemplateConfig {
 	d := DefaultTemplates[0]
-	if t.Method == "" {
-		t.Method = d.Method
-	}
-	if t.K == 0 {
-		t.K = d.K
-	}
-	if t.PatchSize == 0 {
-		t.PatchSize = d.PatchSize
-	}
+	orDefault(&t.Method, d.Method)
+	orDefault(&t.K, d.K)
+	orDefault(&t.PatchSize, d.PatchSize)
 	return t
 }
 
@@ -233,35 +223,21 @@ func templateDefaults(t learn.TemplateConfig) learn.TemplateConfig {
 // fills the rest when the head is fitted.
 func headDefaults(h learn.HeadConfig) learn.HeadConfig {
 	d := DefaultHead
-	if h.Kind == "" {
-		h.Kind = d.Kind
+	orDefault(&h.Kind, d.Kind)
+	if h.Kind == learn.KindMLP {
+		orDefault(&h.Hidden, d.Hidden)
 	}
-	if h.Kind == learn.KindMLP && h.Hidden == 0 {
-		h.Hidden = d.Hidden
-	}
-	if h.Epochs == 0 {
-		h.Epochs = d.Epochs
-	}
-	if h.Schedule == "" {
-		h.Schedule = d.Schedule
-	}
-	if h.ValFrac == 0 {
-		h.ValFrac = d.ValFrac
-	}
+	orDefault(&h.Epochs, d.Epochs)
+	orDefault(&h.Schedule, d.Schedule)
+	orDefault(&h.ValFrac, d.ValFrac)
 	return h
 }
 
 func (p PoolConfig) withDefaults() PoolConfig {
 	d := DefaultPool
-	if p.Op == "" {
-		p.Op = d.Op
-	}
-	if p.Size == 0 {
-		p.Size = d.Size
-	}
-	if p.Stride == 0 {
-		p.Stride = p.Size
-	}
+	orDefault(&p.Op, d.Op)
+	orDefault(&p.Size, d.Size)
+	orDefault(&p.Stride, p.Size)
 	if p.Keep == nil {
 		p.Keep = new(*d.Keep)
 	}
@@ -269,28 +245,22 @@ func (p PoolConfig) withDefaults() PoolConfig {
 }
 
 func (c InputConfig) withDefaults() InputConfig {
-	if c.Height == 0 {
-		c.Height = defaultSide
-	}
-	if c.Width == 0 {
-		c.Width = defaultSide
-	}
-	if c.Normalize == "" {
-		c.Normalize = NormalizeMinMax
-	}
-	if c.Denoise == "" {
-		c.Denoise = DenoiseAuto
-	}
-	if c.Center == "" {
-		c.Center = CenterMass
-	}
-	if c.Deskew == "" {
-		c.Deskew = DeskewNone
-	}
-	if c.Upright == "" {
-		c.Upright = UprightNone
-	}
+	orDefault(&c.Height, defaultSide)
+	orDefault(&c.Width, defaultSide)
+	orDefault(&c.Normalize, NormalizeMinMax)
+	orDefault(&c.Denoise, DenoiseAuto)
+	orDefault(&c.Center, CenterMass)
+	orDefault(&c.Deskew, DeskewNone)
+	orDefault(&c.Upright, UprightNone)
 	return c
+}
+
+// orDefault sets *v to d when *v is its type's zero value.
+func orDefault[T comparable](v *T, d T) {
+	var zero T
+	if *v == zero {
+		*v = d
+	}
 }
 
 // Validate checks every field of every stage, learn's configurations

@@ -35,18 +35,10 @@ type LearnBankConfig struct {
 }
 
 func (c LearnBankConfig) withDefaults() LearnBankConfig {
-	if c.PatchSize == 0 {
-		c.PatchSize = 8
-	}
-	if c.Patches == 0 {
-		c.Patches = 20000
-	}
-	if c.ZCAEps == 0 {
-		c.ZCAEps = 1e-3
-	}
-	if c.Dict.Atoms == 0 {
-		c.Dict.Atoms = 24
-	}
+	orDefault(&c.PatchSize, 8)
+	orDefault(&c.Patches, 20000)
+	orDefault(&c.ZCAEps, 1e-3)
+	orDefault(&c.Dict.Atoms, 24)
 	return c
 }
 

@@ -207,21 +207,13 @@ func loadBytes(b []byte) (*Model, error) {
 //     version 2 rejects them.
 func configFromV1(c *Config) {
 	if h := &c.Head; *h != (learn.HeadConfig{}) {
-		if h.Kind == "" {
-			h.Kind = learn.KindSoftmax
+		orDefault(&h.Kind, learn.KindSoftmax)
+		if h.Kind == learn.KindMLP {
+			orDefault(&h.Hidden, learnDefaultHidden)
 		}
-		if h.Kind == learn.KindMLP && h.Hidden == 0 {
-			h.Hidden = learnDefaultHidden
-		}
-		if h.Epochs == 0 {
-			h.Epochs = learnDefaultEpochs
-		}
-		if h.Schedule == "" {
-			h.Schedule = learn.ScheduleConstant
-		}
-		if h.ValFrac == 0 {
-			h.ValFrac = learnDefaultValFrac
-		}
+		orDefault(&h.Epochs, learnDefaultEpochs)
+		orDefault(&h.Schedule, learn.ScheduleConstant)
+		orDefault(&h.ValFrac, learnDefaultValFrac)
 	}
 	if c.Pool.Keep == nil {
 		c.Pool.Keep = new(false)

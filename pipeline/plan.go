@@ -98,11 +98,17 @@ func NewPlan(c Config) (*Plan, error) {
 	return p, nil
 }
 
-// Config returns the resolved configuration: every default filled in.
+// Config returns the resolved configuration: every default filled in. The
+// template list and the learned-bank settings are copies; Front.Bank, when
+// set, is shared and must not be modified.
 func (p *Plan) Config() Config {
 	c := p.cfg
 	c.Templates = make([]learn.TemplateConfig, len(p.cfg.Templates)) // never nil: nil means the default layers
 	copy(c.Templates, p.cfg.Templates)
+	if c.LearnBank != nil {
+		lb := *c.LearnBank
+		c.LearnBank = &lb
+	}
 	return c
 }
 

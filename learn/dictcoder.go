@@ -37,7 +37,7 @@ type CoderConfig struct {
 	// NonNeg constrains codes to a ≥ 0.
 	NonNeg bool `json:"nonneg"`
 	// Workers is the number of goroutines over signals; 0 means 1.
-	Workers int `json:"workers"`
+	Workers int `json:"workers,omitempty"`
 }
 
 func (c CoderConfig) withDefaults() CoderConfig {
@@ -61,16 +61,16 @@ func (c CoderConfig) withDefaults() CoderConfig {
 
 func (c CoderConfig) validate() error {
 	if !(c.Lambda > 0) || math.IsInf(c.Lambda, 0) {
-		return fmt.Errorf("learn: coder Lambda %v; want a finite λ > 0 (0 means the default 1)", c.Lambda)
+		return cfgErr(c, "Lambda", "%v; want a finite λ > 0 (0 means the default 1)", c.Lambda)
 	}
 	if c.Solver != FISTA && c.Solver != CD {
-		return fmt.Errorf("learn: coder Solver %q; want %q or %q", c.Solver, FISTA, CD)
+		return cfgErr(c, "Solver", "%q; want %q or %q", c.Solver, FISTA, CD)
 	}
 	if c.MaxIter < 0 {
-		return fmt.Errorf("learn: coder MaxIter %d; want ≥ 1 (0 means the default 1000)", c.MaxIter)
+		return cfgErr(c, "MaxIter", "%d; want ≥ 1 (0 means the default 1000)", c.MaxIter)
 	}
 	if math.IsNaN(c.Tol) {
-		return fmt.Errorf("learn: coder Tol is NaN; want a number (negative disables the rule)")
+		return cfgErr(c, "Tol", "is NaN; want a number (negative disables the rule)")
 	}
 	return nil
 }

@@ -54,10 +54,10 @@ type DictConfig struct {
 	// taken from this struct. The zero value codes with CD, MaxIter 100,
 	// Tol 1e-4 (loose: codes are refined as the dictionary moves).
 	Coder   CoderConfig `json:"coder"`
-	NonNeg  bool        `json:"nonneg"`  // non-negative codes
-	Workers int         `json:"workers"` // goroutines for coding; 0 means 1; results do not depend on it
+	NonNeg  bool        `json:"nonneg"`            // non-negative codes
+	Workers int         `json:"workers,omitempty"` // goroutines for coding; 0 means 1; results do not depend on it (a run-time option: omitted from JSON when 0)
 	// CheckpointEvery > 0 calls OnCheckpoint after every that many steps.
-	CheckpointEvery int `json:"checkpoint_every"`
+	CheckpointEvery int `json:"checkpoint_every,omitempty"`
 	// OnCheckpoint receives a snapshot it may keep or save (DictCheckpoint.Save);
 	// an error from it stops the fit and is returned.
 	OnCheckpoint func(*DictCheckpoint) error `json:"-"`
@@ -103,22 +103,7 @@ const maxForget = 1000
 const MaxAtoms = 4096
 
 func (c DictConfig) validate(n, dim int) error {
-	if c.Atoms < 1 || c.Atoms > MaxAtoms {
-		return fmt.Errorf("learn: DictConfig.Atoms %d; want 1..%d", c.Atoms, MaxAtoms)
-	}
-	if c.BatchSize < 1 {
-		return fmt.Errorf("learn: DictConfig.BatchSize %d; want ≥ 1 (0 means 256)", c.BatchSize)
-	}
-	if c.Epochs < 0 || c.Steps < 0 {
-		return fmt.Errorf("learn: DictConfig Epochs %d, Steps %d; want ≥ 0 (0 means the default)", c.Epochs, c.Steps)
-	}
-	if !(c.Forget >= 0 && c.Forget <= maxForget) {
-		return fmt.Errorf("learn: DictConfig.Forget %v; want ρ in (0, %d], or 0 for scikit-learn's schedule", c.Forget, maxForget)
-	}
-	if c.CheckpointEvery < 0 {
-		return fmt.Errorf("learn: DictConfig.CheckpointEvery %d; want ≥ 0", c.CheckpointEvery)
-	}
-	if err := c.Coder.validate(); err != nil {
+	if err := c.check(); err != nil {
 		return err
 	}
 	if dim < 1 {
@@ -129,6 +114,40 @@ func (c DictConfig) validate(n, dim int) error {
 	}
 	return nil
 }
+
+// check checks the fields of c (defaults filled in) that do not depend on
+// the data; errors are *ConfigError.
+func (c DictConfig) check() error {
+	if c.Atoms < 1 || c.Atoms > MaxAtoms {
+		return cfgErr(c, "Atoms", "%d; want 1..%d", c.Atoms, MaxAtoms)
+	}
+	if !(c.Lambda > 0) || math.IsInf(c.Lambda, 0) {
+		return cfgErr(c, "Lambda", "%v; want a finite λ > 0 (0 means 1)", c.Lambda)
+	}
+	if c.BatchSize < 1 {
+		return cfgErr(c, "BatchSize", "%d; want ≥ 1 (0 means 256)", c.BatchSize)
+	}
+	if c.Epochs < 0 {
+		return cfgErr(c, "Epochs", "%d; want ≥ 0 (0 means 10)", c.Epochs)
+	}
+	if c.Steps < 0 {
+		return cfgErr(c, "Steps", "%d; want ≥ 0 (0 means Epochs passes)", c.Steps)
+	}
+	if !(c.Forget >= 0 && c.Forget <= maxForget) {
+		return cfgErr(c, "Forget", "%v; want ρ in (0, %d], or 0 for scikit-learn's schedule", c.Forget, maxForget)
+	}
+	if c.CheckpointEvery < 0 {
+		return cfgErr(c, "CheckpointEvery", "%d; want ≥ 0", c.CheckpointEvery)
+	}
+	if err := c.Coder.validate(); err != nil {
+		return within(c, "Coder", err)
+	}
+	return nil
+}
+
+// Validate checks c as Fit would before it looks at any data: every field,
+// with zero fields taking their defaults. A bad field gives a *ConfigError.
+func (c DictConfig) Validate() error { return c.withDefaults().check() }
 
 func (c DictConfig) totalSteps(n int) int {
 	if c.Steps > 0 {

@@ -134,14 +134,14 @@ func (c HeadConfig) resolved() (HeadConfig, error) {
 		r.Kind = KindSoftmax
 	case KindSoftmax, KindMLP:
 	default:
-		return r, fmt.Errorf("learn: HeadConfig.Kind %q: want %q or %q", c.Kind, KindSoftmax, KindMLP)
+		return r, cfgErr(c, "Kind", "%q: want %q or %q", c.Kind, KindSoftmax, KindMLP)
 	}
 	if r.Kind == KindMLP {
 		if r.Hidden == 0 {
 			r.Hidden = 256
 		}
 		if r.Hidden < 1 || r.Hidden > maxHidden {
-			return r, fmt.Errorf("learn: HeadConfig.Hidden %d outside [1, %d]", c.Hidden, maxHidden)
+			return r, cfgErr(c, "Hidden", "%d outside [1, %d]", c.Hidden, maxHidden)
 		}
 	} else {
 		r.Hidden = 0
@@ -150,20 +150,20 @@ func (c HeadConfig) resolved() (HeadConfig, error) {
 		r.Epochs = 30
 	}
 	if r.Epochs < 1 || r.Epochs > maxEpochs {
-		return r, fmt.Errorf("learn: HeadConfig.Epochs %d outside [1, %d]", c.Epochs, maxEpochs)
+		return r, cfgErr(c, "Epochs", "%d outside [1, %d]", c.Epochs, maxEpochs)
 	}
 	if r.Batch == 0 {
 		r.Batch = 128
 	}
 	if r.Batch < 1 {
-		return r, fmt.Errorf("learn: HeadConfig.Batch %d: want ≥ 1 (0 means 128)", c.Batch)
+		return r, cfgErr(c, "Batch", "%d: want ≥ 1 (0 means 128)", c.Batch)
 	}
 	switch r.Optimizer {
 	case "":
 		r.Optimizer = OptAdam
 	case OptAdam, OptSGD:
 	default:
-		return r, fmt.Errorf("learn: HeadConfig.Optimizer %q: want %q or %q", c.Optimizer, OptAdam, OptSGD)
+		return r, cfgErr(c, "Optimizer", "%q: want %q or %q", c.Optimizer, OptAdam, OptSGD)
 	}
 	if r.LR == 0 {
 		r.LR = 1e-3
@@ -172,7 +172,7 @@ func (c HeadConfig) resolved() (HeadConfig, error) {
 		}
 	}
 	if !(r.LR > 0 && r.LR < 100) {
-		return r, fmt.Errorf("learn: HeadConfig.LR %g outside (0, 100)", c.LR)
+		return r, cfgErr(c, "LR", "%g outside (0, 100)", c.LR)
 	}
 	if r.Momentum == 0 {
 		r.Momentum = 0.9
@@ -181,14 +181,14 @@ func (c HeadConfig) resolved() (HeadConfig, error) {
 		r.Momentum = -1 // none; negative sentinels stay so that resolving again is the identity
 	}
 	if r.Momentum >= 1 || math.IsNaN(r.Momentum) {
-		return r, fmt.Errorf("learn: HeadConfig.Momentum %g: want < 1", c.Momentum)
+		return r, cfgErr(c, "Momentum", "%g: want < 1", c.Momentum)
 	}
 	switch r.Schedule {
 	case "":
 		r.Schedule = ScheduleConstant
 	case ScheduleConstant, ScheduleCosine:
 	default:
-		return r, fmt.Errorf("learn: HeadConfig.Schedule %q: want %q or %q", c.Schedule, ScheduleConstant, ScheduleCosine)
+		return r, cfgErr(c, "Schedule", "%q: want %q or %q", c.Schedule, ScheduleConstant, ScheduleCosine)
 	}
 	if r.L2 == 0 {
 		r.L2 = 1e-4
@@ -197,7 +197,7 @@ func (c HeadConfig) resolved() (HeadConfig, error) {
 		r.L2 = -1 // none
 	}
 	if math.IsNaN(r.L2) || math.IsInf(r.L2, 0) {
-		return r, fmt.Errorf("learn: HeadConfig.L2 %g is not finite", c.L2)
+		return r, cfgErr(c, "L2", "%g is not finite", c.L2)
 	}
 	if r.ValFrac == 0 {
 		r.ValFrac = 0.1
@@ -206,14 +206,14 @@ func (c HeadConfig) resolved() (HeadConfig, error) {
 		r.ValFrac = -1 // no validation
 	}
 	if !(r.ValFrac < 0.9) {
-		return r, fmt.Errorf("learn: HeadConfig.ValFrac %g: want < 0.9 (0 means 0.1, negative none)", c.ValFrac)
+		return r, cfgErr(c, "ValFrac", "%g: want < 0.9 (negative: no validation hold-out)", c.ValFrac)
 	}
 	switch r.Engine {
 	case "":
 		r.Engine = EngineGo
 	case EngineGo, EngineGorgonia:
 	default:
-		return r, fmt.Errorf("learn: HeadConfig.Engine %q: want %q or %q", c.Engine, EngineGo, EngineGorgonia)
+		return r, cfgErr(c, "Engine", "%q: want %q or %q", c.Engine, EngineGo, EngineGorgonia)
 	}
 	if r.Patience == 0 {
 		r.Patience = 5
@@ -228,6 +228,14 @@ func (c HeadConfig) resolved() (HeadConfig, error) {
 		return r, fmt.Errorf("learn: HeadConfig.ConvergeWindow %d outside [0, %d] (0 means enough epochs for %d steps)", c.ConvergeWindow, maxEpochs, headConvergeSteps)
 	}
 	return r, nil
+}
+
+// Validate checks every field of c, zero fields taking their defaults, as
+// Fit does before it looks at any data. A bad field gives a *ConfigError
+// naming it (Go name and JSON key) and its valid values.
+func (c HeadConfig) Validate() error {
+	_, err := c.resolved()
+	return err
 }
 
 // HeadFitOptions carries the run-time (non-model) options of HeadConfig.FitWith.

@@ -19,7 +19,7 @@ type BankConfig struct {
 	PairWavelength   float64 `json:"pair_wavelength"`    // relative; 0 means 0.25
 	PairPhase        float64 `json:"pair_phase"`         // radians from π/2; 0 means 30°
 	PairCentreSigmas float64 `json:"pair_centre_sigmas"` // 0 means 1
-	Workers          int     `json:"workers"`            // goroutines for the fits; 0 means 1
+	Workers          int     `json:"workers,omitempty"`  // goroutines for the fits; 0 means 1 (run-time: omitted from JSON when 0)
 }
 
 func (c BankConfig) withDefaults() BankConfig {

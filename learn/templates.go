@@ -101,14 +101,14 @@ func (c TemplateConfig) resolved() (TemplateConfig, error) {
 		r.Method = MethodKMeans
 	case MethodKMeans, MethodSparse:
 	default:
-		return r, fmt.Errorf("learn: TemplateConfig.Method %q: want %q or %q", c.Method, MethodKMeans, MethodSparse)
+		return r, cfgErr(c, "Method", "%q: want %q or %q", c.Method, MethodKMeans, MethodSparse)
 	}
 	def := func(v *int, d int, name string, lo, hi int) error {
 		if *v == 0 {
 			*v = d
 		}
 		if *v < lo || *v > hi {
-			return fmt.Errorf("learn: TemplateConfig.%s %d outside [%d, %d] (0 means %d)", name, *v, lo, hi, d)
+			return cfgErr(c, name, "%d outside [%d, %d] (0 means %d)", *v, lo, hi, d)
 		}
 		return nil
 	}
@@ -125,11 +125,11 @@ func (c TemplateConfig) resolved() (TemplateConfig, error) {
 		}
 	}
 	if r.Patches < r.K {
-		return r, fmt.Errorf("learn: TemplateConfig.Patches %d is below K = %d; sample at least K patches", r.Patches, r.K)
+		return r, cfgErr(c, "Patches", "%d is below K = %d; sample at least K patches", r.Patches, r.K)
 	}
 	fdef := func(v *float64, d float64, name string) error {
 		if math.IsNaN(*v) || math.IsInf(*v, 0) {
-			return fmt.Errorf("learn: TemplateConfig.%s is %g, want a finite number", name, *v)
+			return cfgErr(c, name, "is %g, want a finite number", *v)
 		}
 		if *v == 0 {
 			*v = d
@@ -158,40 +158,55 @@ func (c TemplateConfig) resolved() (TemplateConfig, error) {
 		r.Encoder = EncodeSoft
 	case EncodeSoft, EncodeTriangle:
 	default:
-		return r, fmt.Errorf("learn: TemplateConfig.Encoder %q: want %q or %q", c.Encoder, EncodeSoft, EncodeTriangle)
+		return r, cfgErr(c, "Encoder", "%q: want %q or %q", c.Encoder, EncodeSoft, EncodeTriangle)
 	}
 	switch r.Pool {
 	case "":
 		r.Pool = PoolMax
 	case PoolMax, PoolAvg:
 	default:
-		return r, fmt.Errorf("learn: TemplateConfig.Pool %q: want %q or %q", c.Pool, PoolMax, PoolAvg)
+		return r, cfgErr(c, "Pool", "%q: want %q or %q", c.Pool, PoolMax, PoolAvg)
 	}
 	if len(r.Grids) == 0 {
 		r.Grids = []int{2}
 	}
 	if len(r.Grids) > maxGrid {
-		return r, fmt.Errorf("learn: TemplateConfig.Grids has %d entries, at most %d", len(r.Grids), maxGrid)
+		return r, cfgErr(c, "Grids", "has %d entries, at most %d", len(r.Grids), maxGrid)
 	}
 	r.Grids = append([]int(nil), r.Grids...)
 	for i, g := range r.Grids {
 		if g < 1 || g > maxGrid {
-			return r, fmt.Errorf("learn: TemplateConfig.Grids[%d] = %d outside [1, %d]", i, g, maxGrid)
+			return r, cfgErr(c, fmt.Sprintf("Grids[%d]", i), "= %d outside [1, %d]", g, maxGrid)
 		}
 	}
 	if len(r.Scales) == 0 {
 		r.Scales = []float64{1}
 	}
 	if len(r.Scales) > maxScales {
-		return r, fmt.Errorf("learn: TemplateConfig.Scales has %d entries, at most %d", len(r.Scales), maxScales)
+		return r, cfgErr(c, "Scales", "has %d entries, at most %d", len(r.Scales), maxScales)
 	}
 	r.Scales = append([]float64(nil), r.Scales...)
 	for i, s := range r.Scales {
 		if !(s >= 0.25 && s <= 4) {
-			return r, fmt.Errorf("learn: TemplateConfig.Scales[%d] = %g outside [0.25, 4]", i, s)
+			return r, cfgErr(c, fmt.Sprintf("Scales[%d]", i), "= %g outside [0.25, 4]", s)
+		}
+	}
+	if r.Sparse != nil {
+		sp := *r.Sparse
+		sp.Atoms = r.K // as Fit sets it
+		if err := sp.Validate(); err != nil {
+			return r, within(c, "Sparse", err)
 		}
 	}
 	return r, nil
+}
+
+// Validate checks every field of c, zero fields taking their defaults, as
+// Fit does before it looks at any data. A bad field gives a *ConfigError
+// naming it (Go name and JSON key) and its valid values.
+func (c TemplateConfig) Validate() error {
+	_, err := c.resolved()
+	return err
 }
 
 // Templates is a fitted template layer. It is immutable and safe for

@@ -38,17 +38,24 @@ type Config struct {
 	// Templates lists the template layers, fitted without labels. nil (JSON
 	// null or absent) means DefaultTemplates; an empty list means none (the
 	// pooled front-end maps are then the features). Each layer after the
-	// first is fitted on the previous layer's response maps.
+	// first is fitted on the previous layer's response maps. In each layer
+	// a zero field means DefaultTemplates[0]'s value for it (method
+	// "kmeans", k 64, patch_size 5) or, for the fields DefaultTemplates
+	// leaves zero, learn's default (see learn.TemplateConfig).
 	Templates []learn.TemplateConfig `json:"templates"`
-	// Pool is the pooling applied to the front end's maps when no template
-	// layer follows (or, with Pool.Keep, in addition to the templates). Its
-	// zero value means DefaultPool.
+	// Pool is the grid pooling of the front end's maps, the features when no
+	// template layer follows and, unless Pool.Keep is false, appended to the
+	// template features. Each zero field means its default (DefaultPool).
 	Pool PoolConfig `json:"pool"`
 	// Guard drops near-constant features and clips the rest to their
 	// training range before the head (see GuardConfig).
 	Guard GuardConfig `json:"guard"`
-	// Head is the supervised head; its zero value means DefaultHead (a field
-	// set by hand makes every other zero field take learn's own default).
+	// Head is the supervised head. A zero field means DefaultHead's value
+	// for it (kind "mlp", hidden 512, epochs 15, schedule "cosine", val_frac
+	// −1: no hold-out) or, for the fields DefaultHead leaves zero, learn's
+	// default (see learn.HeadConfig); {"epochs": 5} is the default MLP
+	// trained for 5 epochs. Hidden is ignored by a softmax head. To get
+	// learn's hold-out with early stopping, set val_frac (0.1 is learn's).
 	Head learn.HeadConfig `json:"head"`
 	// Mirror is for classes that look the same mirrored left to right
 	// (garments, shoes, bags; not digits or letters): the head is trained on
@@ -119,22 +126,30 @@ type InputConfig struct {
 
 // PoolConfig pools the front end's C×H×W maps onto a coarser grid: each
 // output cell is the mean (or max) of a Size×Size window, windows Stride
-// apart, clipped at the border. Size 1 (the default) keeps the maps as they
-// are. Sqrt replaces every pooled value v ≥ 0 by sqrt(v) (a variance-
-// stabilising compression of energy responses; common practice).
+// apart, clipped at the border. Size 1 keeps the maps as they are. Sqrt
+// replaces every pooled value v ≥ 0 by sqrt(v) (a variance-stabilising
+// compression of energy responses; common practice). Every zero field means
+// the default beside it, whatever the other fields hold.
 type PoolConfig struct {
 	// Op is "avg" (default) or "max".
 	Op string `json:"op,omitempty"`
-	// Size of the window in cells; 0 means 1 (no pooling). Range [1, 16].
+	// Size of the window in cells; 0 means 2. Range [1, 16]; 1 is no pooling.
 	Size int `json:"size,omitempty"`
 	// Stride between windows; 0 means Size. Range [1, Size].
 	Stride int `json:"stride,omitempty"`
 	// Sqrt compresses the pooled values by a square root.
 	Sqrt bool `json:"sqrt,omitempty"`
-	// Keep appends the pooled front-end maps to the template features when
-	// there are template layers (ignored without them).
-	Keep bool `json:"keep,omitempty"`
+	// Keep says whether the pooled front-end maps are appended to the
+	// template features when there are template layers (ignored without
+	// them). nil (absent) means true, the default; false (in Go new(false))
+	// leaves the template features alone. It is a pointer because its
+	// default is true. (In model files of format version 1 an absent keep
+	// meant false; Load reads them so.)
+	Keep *bool `json:"keep,omitempty"`
 }
+
+// keep reports the resolved Keep (nil means true).
+func (p PoolConfig) keep() bool { return p.Keep == nil || *p.Keep }
 
 // Defaults and ranges of Config fields.
 const (
@@ -158,7 +173,7 @@ var (
 	// on a 2×2 grid.
 	DefaultTemplates = []learn.TemplateConfig{{Method: learn.MethodKMeans, K: 64, PatchSize: 5}}
 	// DefaultPool is 2×2 average pooling, kept beside the template features.
-	DefaultPool = PoolConfig{Op: "avg", Size: 2, Stride: 2, Keep: true}
+	DefaultPool = PoolConfig{Op: "avg", Size: 2, Stride: 2, Keep: new(true)}
 	// DefaultHead is a one-hidden-layer MLP of 512 ReLU units trained for 15
 	// epochs with Adam and a cosine learning-rate schedule on every labelled
 	// training image (ValFrac −1: no validation hold-out, no early stopping;
@@ -170,143 +185,93 @@ var (
 	DefaultHead = learn.HeadConfig{Kind: learn.KindMLP, Hidden: 512, Epochs: 15, Schedule: learn.ScheduleCosine, ValFrac: -1}
 )
 
-// withDefaults fills every zero field with its documented default.
+// withDefaults fills every zero field with its documented default, field
+// by field: a field set by hand never changes the meaning of another.
 func (c Config) withDefaults() Config {
 	if c.Templates == nil {
-		c.Templates = append([]learn.TemplateConfig(nil), DefaultTemplates...)
+		c.Templates = DefaultTemplates
 	}
-	if c.Pool == (PoolConfig{}) {
-		c.Pool = DefaultPool
+	tc := make([]learn.TemplateConfig, len(c.Templates))
+	for i, t := range c.Templates {
+		tc[i] = templateDefaults(t)
 	}
-	if isZeroHead(c.Head) {
-		c.Head = DefaultHead
-	}
-	if c.Input.Height == 0 {
-		c.Input.Height = defaultSide
-	}
-	if c.Input.Width == 0 {
-		c.Input.Width = defaultSide
-	}
-	if c.Input.Normalize == "" {
-		c.Input.Normalize = NormalizeMinMax
-	}
-	if c.Input.Denoise == "" {
-		c.Input.Denoise = DenoiseAuto
-	}
-	if c.Input.Center == "" {
-		c.Input.Center = CenterMass
-	}
-	if c.Input.Deskew == "" {
-		c.Input.Deskew = DeskewNone
-	}
-	if c.Input.Upright == "" {
-		c.Input.Upright = UprightNone
-	}
-	if c.Pool.Op == "" {
-		c.Pool.Op = "avg"
-	}
-	if c.Pool.Size == 0 {
-		c.Pool.Size = 1
-	}
-	if c.Pool.Stride == 0 {
-		c.Pool.Stride = c.Pool.Size
-	}
+	c.Templates = tc
+	c.Pool = c.Pool.withDefaults()
+	c.Head = headDefaults(c.Head)
+	c.Input = c.Input.withDefaults()
 	c.Guard = c.Guard.withDefaults()
-	if c.HeadMinSteps == 0 {
-		c.HeadMinSteps = defaultHeadMinSteps
+	if c.LearnBank != nil {
+		lb := c.LearnBank.withDefaults()
+		c.LearnBank = &lb
 	}
-	if c.Unlabeled == 0 {
-		c.Unlabeled = defaultUnlabeled
-	}
+	orDefault(&c.HeadMinSteps, defaultHeadMinSteps)
+	orDefault(&c.Unlabeled, defaultUnlabeled)
 	return c
 }
 
-// Validate checks every field and, once, that the stages fit together: the
-// input is large enough for the front end, and the pooled maps are not empty.
-// It returns the first problem found, naming the field and the valid range.
+// templateDefaults fills the zero fields of t that DefaultTemplates[0]
+// sets; learn fills the rest when the layer is fitted.
+func templateDefaults(t learn.TemplateConfig) learn.TemplateConfig {
+	d := DefaultTemplates[0]
+	orDefault(&t.Method, d.Method)
+	orDefault(&t.K, d.K)
+	orDefault(&t.PatchSize, d.PatchSize)
+	return t
+}
+
+// headDefaults fills the zero fields of h that DefaultHead sets; learn
+// fills the rest when the head is fitted.
+func headDefaults(h learn.HeadConfig) learn.HeadConfig {
+	d := DefaultHead
+	orDefault(&h.Kind, d.Kind)
+	if h.Kind == learn.KindMLP {
+		orDefault(&h.Hidden, d.Hidden)
+	}
+	orDefault(&h.Epochs, d.Epochs)
+	orDefault(&h.Schedule, d.Schedule)
+	orDefault(&h.ValFrac, d.ValFrac)
+	return h
+}
+
+func (p PoolConfig) withDefaults() PoolConfig {
+	d := DefaultPool
+	orDefault(&p.Op, d.Op)
+	orDefault(&p.Size, d.Size)
+	orDefault(&p.Stride, p.Size)
+	if p.Keep == nil {
+		p.Keep = new(*d.Keep)
+	}
+	return p
+}
+
+func (c InputConfig) withDefaults() InputConfig {
+	orDefault(&c.Height, defaultSide)
+	orDefault(&c.Width, defaultSide)
+	orDefault(&c.Normalize, NormalizeMinMax)
+	orDefault(&c.Denoise, DenoiseAuto)
+	orDefault(&c.Center, CenterMass)
+	orDefault(&c.Deskew, DeskewNone)
+	orDefault(&c.Upright, UprightNone)
+	return c
+}
+
+// orDefault sets *v to d when *v is its type's zero value.
+func orDefault[T comparable](v *T, d T) {
+	var zero T
+	if *v == zero {
+		*v = d
+	}
+}
+
+// Validate checks every field of every stage, learn's configurations
+// included, and that the stages fit together (the input is large enough for
+// the front end, the pooled maps are not empty), by building the Plan and
+// discarding it; NewPlan keeps it. It returns the first problem found,
+// naming the field by its JSON path (templates[0].method) and the valid
+// values.
 func (c Config) Validate() error {
-	_, err := c.plan()
+	_, err := NewPlan(c)
 	return err
-}
-
-// shapes is what Validate works out: the shape after each stage.
-type shapes struct {
-	front       *v1layer.FrontEnd
-	c, oh, ow   int    // front-end output
-	pc, ph, pw  int    // after pooling
-	cfg         Config // with defaults
-	frontConfig v1layer.Config
-}
-
-func (c Config) plan() (*shapes, error) {
-	c = c.withDefaults()
-	if c.Input.Height < minSide || c.Input.Height > maxSide || c.Input.Width < minSide || c.Input.Width > maxSide {
-		return nil, fmt.Errorf("pipeline: input size %d×%d; want each side in [%d, %d] (0 means %d)", c.Input.Height, c.Input.Width, minSide, maxSide, defaultSide)
-	}
-	if err := c.Input.validate(); err != nil {
-		return nil, err
-	}
-	if err := c.Guard.validate(); err != nil {
-		return nil, err
-	}
-	switch c.Pool.Op {
-	case "avg", "max":
-	default:
-		return nil, fmt.Errorf("pipeline: pool.op %q; want \"avg\" (default) or \"max\"", c.Pool.Op)
-	}
-	if c.Pool.Size < 1 || c.Pool.Size > maxPoolSize {
-		return nil, fmt.Errorf("pipeline: pool.size %d; want [1, %d] (0 means 1, no pooling)", c.Pool.Size, maxPoolSize)
-	}
-	if c.Pool.Stride < 1 || c.Pool.Stride > c.Pool.Size {
-		return nil, fmt.Errorf("pipeline: pool.stride %d; want [1, pool.size = %d] (0 means pool.size)", c.Pool.Stride, c.Pool.Size)
-	}
-	if c.Unlabeled < -1 {
-		return nil, fmt.Errorf("pipeline: unlabeled %d; want -1 (all), 0 (default %d) or a positive count", c.Unlabeled, defaultUnlabeled)
-	}
-	fc := c.Front
-	if c.LearnBank != nil {
-		lb := c.LearnBank.withDefaults()
-		if err := lb.validate(); err != nil {
-			return nil, err
-		}
-		if fc.Bank == nil {
-			// Shapes are checked with a stand-in bank of the same kernel
-			// size until Fit has learned the real one.
-			fc.Gabor = v1layer.GaborConfig{Wavelength: float64(lb.PatchSize) / 2, Scales: 1, Radius: 1}
-		}
-	}
-	fe, err := v1layer.New(fc)
-	if err != nil {
-		return nil, fmt.Errorf("pipeline: front: %w", err)
-	}
-	ch, oh, ow, err := fe.OutShape(c.Input.Height, c.Input.Width)
-	if err != nil {
-		return nil, fmt.Errorf("pipeline: front end does not fit input %d×%d: %w", c.Input.Height, c.Input.Width, err)
-	}
-	s := &shapes{front: fe, c: ch, oh: oh, ow: ow, cfg: c, frontConfig: fe.Config()}
-	if len(c.Templates) > maxTemplateLayers {
-		return nil, fmt.Errorf("pipeline: %d template layers; want at most %d", len(c.Templates), maxTemplateLayers)
-	}
-	for i, tc := range c.Templates {
-		if tc.PatchSize > oh || tc.PatchSize > ow {
-			return nil, fmt.Errorf("pipeline: templates[%d].patch_size %d is larger than the front end's %d×%d maps; use a smaller patch or a larger input", i, tc.PatchSize, oh, ow)
-		}
-	}
-	s.pc = ch
-	s.ph, s.pw = poolLen(oh, c.Pool.Size, c.Pool.Stride), poolLen(ow, c.Pool.Size, c.Pool.Stride)
-	if s.ph < 1 || s.pw < 1 {
-		return nil, fmt.Errorf("pipeline: pool.size %d is larger than the front end's %d×%d maps; use a smaller pool.size", c.Pool.Size, oh, ow)
-	}
-	return s, nil
-}
-
-// poolLen is the number of windows of size k, stride s over n cells, the
-// last one clipped: ceil((n−k)/s)+1 for n ≥ k.
-func poolLen(n, k, s int) int {
-	if n < k {
-		return 0
-	}
-	return (n-k+s-1)/s + 1
 }
 
 // ParseConfig reads a JSON configuration from r. Unknown keys are an error
@@ -353,5 +318,3 @@ func DefaultConfig() Config { return Config{}.withDefaults() }
 func (c Config) MarshalIndent() ([]byte, error) {
 	return json.MarshalIndent(c, "", "  ")
 }
-
-func isZeroHead(h learn.HeadConfig) bool { return h == learn.HeadConfig{} }

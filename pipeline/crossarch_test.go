@@ -44,8 +44,8 @@ type expected struct {
 func smallConfig() Config {
 	return Config{
 		Templates: []learn.TemplateConfig{{K: 16, PatchSize: 3, Patches: 4000, Iters: 5}},
-		Pool:      PoolConfig{Size: 2, Keep: true},
-		Head:      learn.HeadConfig{Kind: learn.KindSoftmax, Epochs: 5},
+		Pool:      PoolConfig{Size: 2, Keep: new(true)},
+		Head:      learn.HeadConfig{Kind: learn.KindSoftmax, Epochs: 5, Schedule: learn.ScheduleConstant, ValFrac: 0.1},
 		Unlabeled: 1000,
 		Seed:      11,
 	}

@@ -4,8 +4,17 @@
 //
 // # Stages
 //
-// A pipeline is an ordered list of stages, described by a Config and checked
-// once for shape compatibility (Config.Validate, also run by Fit and Load):
+// A pipeline is an ordered list of stages, described by a Config. NewPlan
+// resolves a Config once into a Plan: every zero field takes its documented
+// default field by field (a field set by hand never changes what another
+// zero field means), every stage's configuration is checked, learn's
+// template, head and dictionary configurations included, and the shapes
+// after each stage are worked out. An error names the bad field by its JSON
+// path and gives the valid values ("pipeline: templates[0].method "kmeanz":
+// want "kmeans" or "sparse""). ParseConfig, LoadConfig and Validate run the
+// same checks; Fit (NewPlan then Plan.Fit) and Load build the plan a model
+// then runs. Every image goes through the plan's one stage path, whether it
+// comes to Fit, Extract, Predict, their batch forms or Accuracy:
 //
 //	input      any image.Image → grey, BT.601 luma Y = 0.299R + 0.587G + 0.114B
 //	           (ITU-R BT.601), in [0,1] → resized to Input.Height×Input.Width
@@ -22,8 +31,9 @@
 //	           LearnBank), complex cells, local max pooling → C×H×W maps
 //	templates  (optional) templates learned without labels over patches of the
 //	           complex-cell maps, encoded convolutionally, pooled over position
-//	pool       (when there are no templates) mean or max of Size×Size windows of
-//	           each map, optionally square-rooted
+//	pool       grid pooling of the front end's maps: mean or max of Size×Size
+//	           windows of each map, optionally square-rooted; the features
+//	           without templates, appended to them unless Pool.Keep is false
 //	guard      drop features whose training std is below Guard.MinStd × the
 //	           median std, clip the rest to their training [min, max]
 //	head       learn.Head: softmax regression or a one-hidden-layer ReLU MLP on
@@ -69,9 +79,14 @@
 //	feat := m.Extract(img)             // []float32 of length m.FeatureLen()
 //	class, probs := m.Predict(img)     // index into m.Classes()
 //	probs2, err := m.PredictBatch(imgs, 28, 28, runtime.GOMAXPROCS(0))
+//	feats, err := m.ExtractBatch(imgs, 28, 28, runtime.GOMAXPROCS(0))
 //
-// PredictBatch has the signature of eval.Predictor. Images of any size are
-// resized to the model's input size.
+// ExtractBatch and PredictBatch take grey float images (as datasets.Set.Float
+// gives them); ExtractImages and PredictImages take image.Image values, as
+// Extract and Predict do. PredictBatch has the signature of eval.Predictor.
+// Images of any size are resized to the model's input size. Run-time
+// choices (workers, progress) are arguments or FitOptions, never part of a
+// Config, so a model file holds only what defines the model.
 //
 // # Concurrency
 //
@@ -97,7 +112,10 @@
 //
 // The JSON header holds the Config, the class names, and for every tensor its
 // name, dtype, shape, offset and length; tensors are stored back to back in
-// header order. Load reads the file into memory (at most MaxFileBytes), then
+// header order. Format version 2 differs from version 1 only in how the
+// configuration reads (version 1 filled the head's and the pool's defaults
+// per whole struct); Load reads both, spelling a version-1 configuration out
+// so that the model predicts as before, and Save writes version 2. Load reads the file into memory (at most MaxFileBytes), then
 // checks, in order: magic, format version (an unknown version says which
 // versions this build reads), header length against MaxHeaderBytes and the
 // file length, the header's strict JSON, every tensor's rank, dimensions and

@@ -45,7 +45,7 @@ func Example() {
 	cfg := pipeline.Config{
 		Templates: []learn.TemplateConfig{}, // no template layer
 		Pool:      pipeline.PoolConfig{Size: 7},
-		Head:      learn.HeadConfig{Kind: learn.KindSoftmax, Epochs: 20, ValFrac: -1},
+		Head:      learn.HeadConfig{Kind: learn.KindSoftmax, Epochs: 20, Schedule: learn.ScheduleConstant, ValFrac: -1},
 		Seed:      1,
 	}
 	m, err := pipeline.Fit(cfg, stripeSet(), pipeline.FitOptions{Workers: 2})

@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"math"
 	"math/rand/v2"
+	"sync"
 	"sync/atomic"
 	"time"
 
@@ -43,7 +44,8 @@ type FitReport struct {
 // (opts.Unlabeled, or cfg.Unlabeled training images taken without labels),
 // then the features of every training image, then the head on those
 // features and train's labels. The same cfg (Seed included) and data give a
-// bit-identical model file whatever opts.Workers is.
+// bit-identical model file whatever opts.Workers is. It is NewPlan(cfg)
+// followed by Plan.Fit.
 func Fit(cfg Config, train *datasets.Set, opts FitOptions) (*Model, error) {
 	m, _, err := FitReported(cfg, train, opts)
 	return m, err
@@ -51,13 +53,19 @@ func Fit(cfg Config, train *datasets.Set, opts FitOptions) (*Model, error) {
 
 // FitReported is Fit that also returns timings and the head's report.
 func FitReported(cfg Config, train *datasets.Set, opts FitOptions) (*Model, FitReport, error) {
+	p, err := NewPlan(cfg)
+	if err != nil {
+		return nil, FitReport{}, err
+	}
+	return p.Fit(train, opts)
+}
+
+// Fit fits the planned pipeline (see the function Fit) and returns the
+// model, timings and the head's report.
+func (p *Plan) Fit(train *datasets.Set, opts FitOptions) (*Model, FitReport, error) {
 	start := time.Now()
 	var rep FitReport
-	p, err := cfg.plan()
-	if err != nil {
-		return nil, rep, err
-	}
-	cfg = p.cfg
+	cfg := p.Config()
 	if err := checkSet(train, "training set"); err != nil {
 		return nil, rep, err
 	}
@@ -74,40 +82,40 @@ func FitReported(cfg Config, train *datasets.Set, opts FitOptions) (*Model, FitR
 	}
 	rep.NTrain = train.N
 
-	if cfg.LearnBank != nil && cfg.Front.Bank == nil {
+	if p.bankPending {
 		t0 := time.Now()
-		lb := cfg.LearnBank.withDefaults()
-		bank, brep, err := learnBank(lb, stageSeed(cfg.Seed, seedBank), opts.Workers, opts.Progress)
+		bank, brep, err := learnBank(*cfg.LearnBank, stageSeed(cfg.Seed, seedBank), opts.Workers, opts.Progress)
 		if err != nil {
 			return nil, rep, err
 		}
-		cfg.LearnBank = &lb
 		cfg.Front.Bank = bank
 		cfg.Front.Gabor.Disable = true
-		if p, err = cfg.plan(); err != nil {
+		if p, err = NewPlan(cfg); err != nil {
 			return nil, rep, fmt.Errorf("pipeline: the learned bank does not fit the pipeline: %w", err)
 		}
-		cfg = p.cfg
 		rep.Bank = brep
 		rep.BankTime = time.Since(t0)
 	}
 
 	t0 := time.Now()
 	var tmpl *templateStage
-	if len(cfg.Templates) > 0 {
-		cfg.Templates = append([]learn.TemplateConfig(nil), cfg.Templates...)
-		for i := range cfg.Templates {
-			if cfg.Templates[i].Seed == 0 {
-				cfg.Templates[i].Seed = stageSeed(cfg.Seed, seedTemplates+uint64(i)<<8)
-			}
+	for i := range cfg.Templates {
+		if cfg.Templates[i].Seed == 0 {
+			cfg.Templates[i].Seed = stageSeed(cfg.Seed, seedTemplates+uint64(i)<<8)
 		}
-		p.cfg = cfg
+	}
+	p = p.withConfig(cfg)
+	if len(cfg.Templates) > 0 {
 		src := train
 		if opts.Unlabeled != nil {
 			src = opts.Unlabeled
 		}
 		idx := unlabeledIndices(src.N, cfg.Unlabeled, stageSeed(cfg.Seed, seedUnlabeled))
-		maps := frontMaps(p, src, idx, opts.Workers, opts.Progress)
+		maps := make([]v1layer.Maps, len(idx))
+		p.eachImage(src, idx, nil, opts.Workers, opts.Progress, "front end (unlabeled)", nil, func(i int, in []float32, w *work) {
+			p.frontTo(&maps[i], w, in)
+		})
+		var err error
 		if tmpl, err = fitTemplates(p, cfg.Templates, maps, opts.Progress); err != nil {
 			return nil, rep, err
 		}
@@ -116,15 +124,19 @@ func FitReported(cfg Config, train *datasets.Set, opts FitOptions) (*Model, FitR
 
 	t0 = time.Now()
 	d := p.featureLen(tmpl)
-	rep.FeatureLen = d
 	rows, labels := train.N, train.Labels
 	if cfg.Mirror { // rows [N, 2N) are the mirror images of rows [0, N)
 		rows, labels = 2*train.N, append(append([]int(nil), train.Labels...), train.Labels...)
 	}
 	X := make([]float32, rows*d)
-	extractSet(p, tmpl, train, nil, X[:train.N*d], opts.Workers, opts.Progress, "features")
+	extractSet := func(s *datasets.Set, X []float32, msg string) {
+		p.eachImage(s, nil, nil, opts.Workers, opts.Progress, msg, nil, func(i int, in []float32, w *work) {
+			p.features(X[i*d:i*d:(i+1)*d], in, tmpl, w)
+		})
+	}
+	extractSet(train, X[:train.N*d], "features")
 	if cfg.Mirror {
-		extractSet(p, tmpl, train.Mirrored(), nil, X[train.N*d:], opts.Workers, opts.Progress, "mirrored features")
+		extractSet(train.Mirrored(), X[train.N*d:], "mirrored features")
 	}
 	g := fitGuard(cfg.Guard, X, rows, d)
 	k := g.out()
@@ -143,29 +155,9 @@ func FitReported(cfg Config, train *datasets.Set, opts FitOptions) (*Model, FitR
 		return nil, rep, fmt.Errorf("pipeline: fitting the head: %w", err)
 	}
 	rep.HeadTime = time.Since(t0)
-	m, err := newModel(cfg, train.Classes, p, tmpl, g, head)
+	m, err := newModel(p.withConfig(cfg), train.Classes, tmpl, g, head)
 	rep.Total = time.Since(start)
 	return m, rep, err
-}
-
-// frontMaps returns the front-end maps of images idx of s (labels unused).
-func frontMaps(p *shapes, s *datasets.Set, idx []int, workers int, prog learn.Progress) []v1layer.Maps {
-	maps := make([]v1layer.Maps, len(idx))
-	ih, iw := p.cfg.Input.Height, p.cfg.Input.Width
-	run(len(idx), workers, prog, "front end (unlabeled)", func(i int, w *work) {
-		img := s.Float(w.feat, idx[i])
-		w.feat = img
-		if s.H != ih || s.W != iw {
-			w.gray = datasets.ToGray(w.gray, grayImage16(img, s.H, s.W), ih, iw)
-			img = w.gray
-		}
-		in := normalizeInput(w.norm, img, ih, iw, p.cfg.Input)
-		if &in[0] != &img[0] {
-			w.norm = in[:cap(in)]
-		}
-		p.front.Apply(&maps[i], in, ih, iw)
-	})
-	return maps
 }
 
 func checkSet(s *datasets.Set, what string) error {
@@ -215,39 +207,30 @@ func unlabeledIndices(total, n int, seed uint64) []int {
 	return rand.New(rand.NewPCG(seed, 0x756e_6c61_6265_6c64)).Perm(total)[:n]
 }
 
-// extractSet writes the features of images idx of s (all when idx is nil)
-// into X, row by row.
-func extractSet(p *shapes, t *templateStage, s *datasets.Set, idx []int, X []float32, workers int, prog learn.Progress, msg string) {
+// eachImage calls fn(i, in, w) for i in [0, n), in being image idx[i] of
+// s (image i when idx is nil) at the plan's input size, first altered by
+// perturb(i) when perturb is not nil. It runs over workers goroutines,
+// each with its own scratch (from pool when not nil), and reports progress
+// (nil is silent) from the calling goroutine every 250 ms.
+func (p *Plan) eachImage(s *datasets.Set, idx []int, perturb Perturb, workers int, prog learn.Progress, msg string, pool *sync.Pool, fn func(i int, in []float32, w *work)) {
 	n := s.N
 	if idx != nil {
 		n = len(idx)
 	}
-	d := p.featureLen(t)
-	ih, iw := p.cfg.Input.Height, p.cfg.Input.Width
-	run(n, workers, prog, msg, func(i int, w *work) {
-		j := i
-		if idx != nil {
-			j = idx[i]
-		}
-		w.feat = s.Float(w.feat, j) // w.feat doubles as the pixel buffer
-		img := w.feat
-		if s.H != ih || s.W != iw {
-			w.gray = datasets.ToGray(w.gray, grayImage16(img, s.H, s.W), ih, iw)
-			img = w.gray
-		}
-		p.features(X[i*d:i*d:(i+1)*d], img, t, w)
-	})
-}
-
-// run calls fn(i, scratch) for i in [0, n) over workers goroutines and
-// reports progress from the calling goroutine every 250 ms.
-func run(n, workers int, prog learn.Progress, msg string, fn func(i int, w *work)) {
+	get, put := func() *work { return new(work) }, func(*work) {}
+	if pool != nil {
+		get, put = func() *work { return pool.Get().(*work) }, func(w *work) { pool.Put(w) }
+	}
 	var done atomic.Int64
 	fin := make(chan struct{})
 	go func() {
 		defer close(fin)
-		parallelFor(n, workers, func() *work { return new(work) }, func(*work) {}, func(i int, w *work) {
-			fn(i, w)
+		parallelFor(n, workers, get, put, func(i int, w *work) {
+			j := i
+			if idx != nil {
+				j = idx[i]
+			}
+			fn(i, p.setInput(w, s, i, j, perturb), w)
 			done.Add(1)
 		})
 	}()
@@ -268,9 +251,11 @@ func run(n, workers int, prog learn.Progress, msg string, fn func(i int, w *work
 	}
 }
 
-// Defaults of learn.HeadConfig that withMinSteps needs to count steps (see
-// learn.HeadConfig: Batch 0 means 128, ValFrac 0 means 0.1, Epochs 0 means 30).
+// Defaults of learn.HeadConfig that withMinSteps needs to count steps and
+// configFromV1 to read old model files (see learn.HeadConfig: Batch 0 means
+// 128, ValFrac 0 means 0.1, Epochs 0 means 30, Hidden 0 means 256).
 const (
+	learnDefaultHidden  = 256
 	learnDefaultBatch   = 128
 	learnDefaultValFrac = 0.1
 	learnDefaultEpochs  = 30

@@ -32,12 +32,8 @@ const (
 )
 
 func (c GuardConfig) withDefaults() GuardConfig {
-	if c.MinStd == 0 {
-		c.MinStd = 0.05
-	}
-	if c.Clip == "" {
-		c.Clip = ClipRange
-	}
+	orDefault(&c.MinStd, 0.05)
+	orDefault(&c.Clip, ClipRange)
 	return c
 }
 

@@ -21,33 +21,37 @@ type LearnBankConfig struct {
 	// Patches is the number of photo patches; 0 means 20000.
 	Patches int `json:"patches,omitempty"`
 	// ZCAEps is the whitening ε (pixels in [0,1]); 0 means 1e-3, the value
-	// of the bench protocol (../shared/bench/README.md).
+	// of the front-end bench protocol (DEVELOPERS.md, Benchmarks).
 	ZCAEps float64 `json:"zca_eps,omitempty"`
 	// Dict configures dictionary learning; Dict.Atoms 0 means 24 here (not
 	// learn's 256: each atom becomes one or two front-end channels), and
-	// Dict.Seed 0 means a seed derived from Config.Seed.
+	// Dict.Seed 0 means a seed derived from Config.Seed. Its run-time
+	// fields (workers, coder.workers, checkpoint_every, OnCheckpoint) must
+	// stay zero: FitOptions.Workers sets the goroutines.
 	Dict learn.DictConfig `json:"dict"`
-	// Bank sets the quadrature pairing of atoms (learn.BankConfig).
+	// Bank sets the quadrature pairing of atoms (learn.BankConfig); its
+	// Workers must stay zero (FitOptions.Workers sets it).
 	Bank learn.BankConfig `json:"bank"`
 }
 
 func (c LearnBankConfig) withDefaults() LearnBankConfig {
-	if c.PatchSize == 0 {
-		c.PatchSize = 8
-	}
-	if c.Patches == 0 {
-		c.Patches = 20000
-	}
-	if c.ZCAEps == 0 {
-		c.ZCAEps = 1e-3
-	}
-	if c.Dict.Atoms == 0 {
-		c.Dict.Atoms = 24
-	}
+	orDefault(&c.PatchSize, 8)
+	orDefault(&c.Patches, 20000)
+	orDefault(&c.ZCAEps, 1e-3)
+	orDefault(&c.Dict.Atoms, 24)
 	return c
 }
 
 func (c LearnBankConfig) validate() error {
+	if err := noRunOptions("learn_bank.dict", c.Dict); err != nil {
+		return err
+	}
+	if c.Bank.Workers != 0 {
+		return fmt.Errorf("pipeline: learn_bank.bank.workers %d: the number of goroutines is a run-time option, not part of a model; leave it 0 and set FitOptions.Workers", c.Bank.Workers)
+	}
+	if err := c.Dict.Validate(); err != nil {
+		return learnErr("learn_bank.dict", err)
+	}
 	if c.PatchSize < 4 || c.PatchSize > 16 {
 		return fmt.Errorf("pipeline: learn_bank.patch_size %d; want [4, 16] (0 means 8)", c.PatchSize)
 	}

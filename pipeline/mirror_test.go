@@ -34,8 +34,8 @@ func TestMirrorPrediction(t *testing.T) {
 		}
 		p := m.classify(make([]float32, 10), img, w)
 		q := m.classify(make([]float32, 10), mir, w)
-		fa := m.head.Predict(nil, m.extractGray(nil, img, w), m.headScratch(w))
-		fb := m.head.Predict(nil, m.extractGray(nil, mir, w), m.headScratch(w))
+		fa := m.head.Predict(nil, m.extract(nil, img, w), m.headScratch(w))
+		fb := m.head.Predict(nil, m.extract(nil, mir, w), m.headScratch(w))
 		for k := range p {
 			// mirrorTol: the two means add the same two float32 numbers in
 			// the other order, which can differ in the last bit.

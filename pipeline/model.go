@@ -6,7 +6,6 @@ import (
 	"sync"
 	"sync/atomic"
 
-	"github.com/striate/striate/datasets"
 	"github.com/striate/striate/learn"
 	"github.com/striate/striate/v1layer"
 )
@@ -16,29 +15,15 @@ import (
 // so steady-state Extract/Predict calls on same-sized images allocate only
 // their results.
 type Model struct {
-	cfg     Config // defaults filled, stage seeds resolved, learned bank inline
+	plan    *Plan // its Config: defaults filled, stage seeds resolved, learned bank inline
 	classes []string
-	plan    *shapes
 	tmpl    *templateStage // nil without a template layer
 	guard   *guard
 	head    *learn.Head
 	scratch sync.Pool // *work
 }
 
-// work is one goroutine's scratch.
-type work struct {
-	gray  []float32
-	norm  []float32
-	full  []float32 // features before the guard
-	maps  v1layer.Maps
-	stack []v1layer.Maps // template layers' response maps
-	feat  []float32
-	hsc   []float32
-	probs []float32
-	mir   []float32 // the mirrored input (Config.Mirror)
-}
-
-func newModel(cfg Config, classes []string, p *shapes, tmpl *templateStage, g *guard, head *learn.Head) (*Model, error) {
+func newModel(p *Plan, classes []string, tmpl *templateStage, g *guard, head *learn.Head) (*Model, error) {
 	if g.in != p.featureLen(tmpl) {
 		return nil, fmt.Errorf("pipeline: the feature guard expects %d features; the stages before it give %d", g.in, p.featureLen(tmpl))
 	}
@@ -48,7 +33,7 @@ func newModel(cfg Config, classes []string, p *shapes, tmpl *templateStage, g *g
 	if head.NumClasses() != len(classes) {
 		return nil, fmt.Errorf("pipeline: head has %d classes; the model names %d", head.NumClasses(), len(classes))
 	}
-	m := &Model{cfg: cfg, classes: append([]string(nil), classes...), plan: p, tmpl: tmpl, guard: g, head: head}
+	m := &Model{plan: p, classes: append([]string(nil), classes...), tmpl: tmpl, guard: g, head: head}
 	m.scratch.New = func() any { return new(work) }
 	return m, nil
 }
@@ -56,7 +41,7 @@ func newModel(cfg Config, classes []string, p *shapes, tmpl *templateStage, g *g
 // Config returns the model's configuration with every default filled in and
 // the seeds each stage was fitted with; Fit(m.Config(), same data) rebuilds
 // the same model.
-func (m *Model) Config() Config { return m.cfg }
+func (m *Model) Config() Config { return m.plan.Config() }
 
 // NumClasses returns the number of classes.
 func (m *Model) NumClasses() int { return len(m.classes) }
@@ -68,10 +53,13 @@ func (m *Model) Classes() []string { return append([]string(nil), m.classes...) 
 func (m *Model) FeatureLen() int { return m.guard.out() }
 
 // InputSize returns the height and width every image is resized to.
-func (m *Model) InputSize() (h, w int) { return m.cfg.Input.Height, m.cfg.Input.Width }
+func (m *Model) InputSize() (h, w int) { return m.plan.cfg.Input.Height, m.plan.cfg.Input.Width }
 
 // Channels returns the metadata of the front end's output channels.
 func (m *Model) Channels() []v1layer.Channel { return m.plan.front.Channels() }
+
+// Plan returns the plan the model runs (its Config is the model's).
+func (m *Model) Plan() *Plan { return m.plan }
 
 // Head returns the fitted head (immutable, shared).
 func (m *Model) Head() *learn.Head { return m.head }
@@ -82,8 +70,7 @@ func (m *Model) Head() *learn.Head { return m.head }
 func (m *Model) Extract(img image.Image) []float32 {
 	w := m.scratch.Get().(*work)
 	defer m.scratch.Put(w)
-	w.gray = datasets.ToGray(w.gray, img, m.cfg.Input.Height, m.cfg.Input.Width)
-	return m.extractGray(nil, w.gray, w)
+	return m.extract(nil, m.plan.imageInput(w, img), w)
 }
 
 // Predict returns the most probable class of img and the probabilities of
@@ -91,22 +78,21 @@ func (m *Model) Extract(img image.Image) []float32 {
 func (m *Model) Predict(img image.Image) (class int, probs []float32) {
 	w := m.scratch.Get().(*work)
 	defer m.scratch.Put(w)
-	w.gray = datasets.ToGray(w.gray, img, m.cfg.Input.Height, m.cfg.Input.Width)
-	probs = m.classify(make([]float32, len(m.classes)), w.gray, w)
+	probs = m.classify(make([]float32, len(m.classes)), m.plan.imageInput(w, img), w)
 	return argmax(probs), probs
 }
 
-// classify writes the class probabilities of the grey image g (at the input
-// size) into dst and returns it. With Config.Mirror they are the mean of the
-// head's probabilities for g and for its left–right mirror image.
-func (m *Model) classify(dst, g []float32, w *work) []float32 {
-	w.feat = m.extractGray(w.feat, g, w)
+// classify writes the class probabilities of the grey image in (at the
+// input size) into dst and returns it. With Config.Mirror they are the mean
+// of the head's probabilities for in and for its left–right mirror image.
+func (m *Model) classify(dst, in []float32, w *work) []float32 {
+	w.feat = m.extract(w.feat, in, w)
 	dst = m.head.Predict(dst, w.feat, m.headScratch(w))
-	if !m.cfg.Mirror {
+	if !m.plan.cfg.Mirror {
 		return dst
 	}
-	w.mir = mirrorRows(w.mir, g, m.cfg.Input.Height, m.cfg.Input.Width)
-	w.feat = m.extractGray(w.feat, w.mir, w)
+	w.mir = mirrorRows(w.mir, in, m.plan.cfg.Input.Height, m.plan.cfg.Input.Width)
+	w.feat = m.extract(w.feat, w.mir, w)
 	if cap(w.probs) < len(dst) {
 		w.probs = make([]float32, len(dst))
 	}
@@ -133,63 +119,76 @@ func mirrorRows(dst, src []float32, h, w int) []float32 {
 	return dst
 }
 
-// ExtractBatch returns the feature vectors of imgs, computed over workers
-// goroutines (≤ 0 means 1). Row i belongs to imgs[i].
-func (m *Model) ExtractBatch(imgs []image.Image, workers int) [][]float32 {
+// ExtractBatch returns the feature vectors of imgs, each a row-major h×w
+// grey image with values in [0,1] (as datasets.Set.Float gives), computed
+// over workers goroutines (≤ 0 means 1); row i belongs to imgs[i]. Images
+// of another size than the model's input are resized. Each row is the same
+// whatever the batch and workers are.
+func (m *Model) ExtractBatch(imgs [][]float32, h, w, workers int) ([][]float32, error) {
+	if err := checkBatch("ExtractBatch", imgs, h, w); err != nil {
+		return nil, err
+	}
+	out := make([][]float32, len(imgs))
+	m.parallel(len(imgs), workers, func(i int, wk *work) {
+		out[i] = m.extract(nil, m.plan.input(wk, imgs[i], h, w), wk)
+	})
+	return out, nil
+}
+
+// PredictBatch returns the class probabilities of each image of imgs, given
+// as in ExtractBatch. Work is spread over workers goroutines (≤ 0 means 1).
+// It satisfies eval.Predictor.
+func (m *Model) PredictBatch(imgs [][]float32, h, w, workers int) ([][]float32, error) {
+	if err := checkBatch("PredictBatch", imgs, h, w); err != nil {
+		return nil, err
+	}
+	out := make([][]float32, len(imgs))
+	m.parallel(len(imgs), workers, func(i int, wk *work) {
+		out[i] = m.classify(make([]float32, len(m.classes)), m.plan.input(wk, imgs[i], h, w), wk)
+	})
+	return out, nil
+}
+
+// ExtractFloats is ExtractBatch.
+//
+// Deprecated: use ExtractBatch, which takes the same arguments.
+func (m *Model) ExtractFloats(imgs [][]float32, h, w, workers int) ([][]float32, error) {
+	return m.ExtractBatch(imgs, h, w, workers)
+}
+
+// ExtractImages returns the feature vectors of imgs (any image.Image, as
+// Extract takes), computed over workers goroutines (≤ 0 means 1). Row i
+// belongs to imgs[i]. It panics if an image has empty bounds.
+func (m *Model) ExtractImages(imgs []image.Image, workers int) [][]float32 {
 	out := make([][]float32, len(imgs))
 	m.parallel(len(imgs), workers, func(i int, w *work) {
-		w.gray = datasets.ToGray(w.gray, imgs[i], m.cfg.Input.Height, m.cfg.Input.Width)
-		out[i] = m.extractGray(nil, w.gray, w)
+		out[i] = m.extract(nil, m.plan.imageInput(w, imgs[i]), w)
 	})
 	return out
 }
 
-// PredictBatch returns the class probabilities of each image of imgs, each a
-// row-major h×w grey image with values in [0,1] (as datasets.Set.Float
-// gives). Images of another size than the model's input are resized. Work is
-// spread over workers goroutines (≤ 0 means 1). It satisfies eval.Predictor.
-func (m *Model) PredictBatch(imgs [][]float32, h, w, workers int) ([][]float32, error) {
+// PredictImages returns the class probabilities of each image of imgs, as
+// Predict gives them, computed over workers goroutines (≤ 0 means 1).
+func (m *Model) PredictImages(imgs []image.Image, workers int) [][]float32 {
+	out := make([][]float32, len(imgs))
+	m.parallel(len(imgs), workers, func(i int, w *work) {
+		out[i] = m.classify(make([]float32, len(m.classes)), m.plan.imageInput(w, imgs[i]), w)
+	})
+	return out
+}
+
+// checkBatch checks a batch of float images for ExtractBatch and
+// PredictBatch (named by fn).
+func checkBatch(fn string, imgs [][]float32, h, w int) error {
 	if h < 1 || w < 1 || h > v1layer.MaxSide || w > v1layer.MaxSide {
-		return nil, fmt.Errorf("pipeline: PredictBatch: image size %d×%d; want sides in [1, %d]", h, w, v1layer.MaxSide)
+		return fmt.Errorf("pipeline: %s: image size %d×%d; want sides in [1, %d]", fn, h, w, v1layer.MaxSide)
 	}
 	for i, img := range imgs {
 		if len(img) != h*w {
-			return nil, fmt.Errorf("pipeline: PredictBatch: image %d has %d pixels; want h×w = %d×%d = %d", i, len(img), h, w, h*w)
+			return fmt.Errorf("pipeline: %s: image %d has %d pixels; want h×w = %d×%d = %d", fn, i, len(img), h, w, h*w)
 		}
 	}
-	out := make([][]float32, len(imgs))
-	m.parallel(len(imgs), workers, func(i int, wk *work) {
-		out[i] = m.classify(make([]float32, len(m.classes)), m.prepare(wk, imgs[i], h, w), wk)
-	})
-	return out, nil
-}
-
-// ExtractFloats returns the feature vectors of grey images given as in
-// PredictBatch.
-func (m *Model) ExtractFloats(imgs [][]float32, h, w, workers int) ([][]float32, error) {
-	if h < 1 || w < 1 || h > v1layer.MaxSide || w > v1layer.MaxSide {
-		return nil, fmt.Errorf("pipeline: ExtractFloats: image size %d×%d; want sides in [1, %d]", h, w, v1layer.MaxSide)
-	}
-	for i, img := range imgs {
-		if len(img) != h*w {
-			return nil, fmt.Errorf("pipeline: ExtractFloats: image %d has %d pixels; want %d×%d = %d", i, len(img), h, w, h*w)
-		}
-	}
-	out := make([][]float32, len(imgs))
-	m.parallel(len(imgs), workers, func(i int, wk *work) {
-		out[i] = m.extractGray(nil, m.prepare(wk, imgs[i], h, w), wk)
-	})
-	return out, nil
-}
-
-// prepare returns img at the model's input size (img itself if it already is).
-func (m *Model) prepare(wk *work, img []float32, h, w int) []float32 {
-	ih, iw := m.cfg.Input.Height, m.cfg.Input.Width
-	if h == ih && w == iw {
-		return img
-	}
-	wk.gray = datasets.ToGray(wk.gray, grayImage16(img, h, w), ih, iw)
-	return wk.gray
+	return nil
 }
 
 func (m *Model) headScratch(w *work) []float32 {
@@ -199,10 +198,10 @@ func (m *Model) headScratch(w *work) []float32 {
 	return w.hsc
 }
 
-// extractGray runs the stages on one grey image at the input size and
-// writes the guarded features into dst (reused when its capacity suffices).
-func (m *Model) extractGray(dst, gray []float32, w *work) []float32 {
-	w.full = m.plan.features(w.full, gray, m.tmpl, w)
+// extract runs the stages on one grey image at the input size and writes
+// the guarded features into dst (reused when its capacity suffices).
+func (m *Model) extract(dst, in []float32, w *work) []float32 {
+	w.full = m.plan.features(w.full, in, m.tmpl, w)
 	n := m.guard.out()
 	if cap(dst) < n {
 		dst = make([]float32, n)
@@ -249,15 +248,4 @@ func argmax(p []float32) int {
 		}
 	}
 	return best
-}
-
-// grayImage16 holds a row-major float image in [0,1] as 16-bit grey, so
-// that ToGray can resize it without rounding to 8 bits.
-func grayImage16(img []float32, h, w int) *image.Gray16 {
-	g := image.NewGray16(image.Rect(0, 0, w, h))
-	for i, v := range img {
-		u := uint16(min(max(v, 0), 1)*65535 + 0.5)
-		g.Pix[2*i], g.Pix[2*i+1] = byte(u>>8), byte(u)
-	}
-	return g
 }

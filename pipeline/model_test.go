@@ -50,7 +50,7 @@ func quickConfig() Config {
 	return Config{
 		Templates:    []learn.TemplateConfig{},
 		Pool:         PoolConfig{Size: 2},
-		Head:         learn.HeadConfig{Kind: learn.KindSoftmax, Epochs: 4},
+		Head:         learn.HeadConfig{Kind: learn.KindSoftmax, Epochs: 4, Schedule: learn.ScheduleConstant, ValFrac: 0.1},
 		HeadMinSteps: -1,
 		Seed:         7,
 	}
@@ -241,8 +241,9 @@ func TestConcurrentUse(t *testing.T) {
 						}
 					}
 				}
-				_ = m.ExtractBatch(imgs[:4], 2)
-				_, _ = m.ExtractFloats(floats[:4], 28, 28, 2)
+				_ = m.ExtractImages(imgs[:4], 2)
+				_ = m.PredictImages(imgs[:4], 2)
+				_, _ = m.ExtractBatch(floats[:4], 28, 28, 2)
 			}
 		}(g)
 	}
@@ -318,7 +319,7 @@ func TestTemplateLayerRoundTrip(t *testing.T) {
 		{K: 8, PatchSize: 3, Patches: 2000, Iters: 5, MapPool: 2},
 		{K: 8, PatchSize: 3, Patches: 2000, Iters: 5, Grids: []int{1, 2}},
 	}
-	cfg.Pool.Keep = true
+	cfg.Pool.Keep = new(true)
 	cfg.Unlabeled = 300
 	m, err := Fit(cfg, firstN(train, 500), FitOptions{Workers: 2, Unlabeled: firstN(test, 400)})
 	if err != nil {

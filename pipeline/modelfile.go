@@ -12,11 +12,11 @@ import (
 	"strings"
 )
 
-// The model file layout (format version 1). All integers little-endian.
+// The model file layout (format versions 1 and 2). All integers little-endian.
 //
 //	offset  size  field
 //	0       8     magic "STRIATEM"
-//	8       4     format version (uint32), currently 1
+//	8       4     format version (uint32), currently 2
 //	12      4     header length H in bytes (uint32), at most MaxHeaderBytes
 //	16      H     header: UTF-8 JSON object (see fileHeader), no unknown keys
 //	16+H    P     zero padding so that the data section starts on a multiple of 8
@@ -27,13 +27,20 @@ import (
 // The header describes itself: the pipeline configuration, the class names,
 // and per tensor its name, dtype, shape, offset and length. A reader needs
 // nothing else to walk the file, and nothing in it is executed.
+//
+// Versions 1 and 2 share the layout; they differ in how the configuration in
+// the header reads. Version 2 (this build) fills defaults field by field
+// (see Config). In version 1 a head with any field set took learn's default
+// for every other zero field, and an absent pool.keep meant false; Load
+// spells those meanings out (see configFromV1), so a version-1 model loads
+// and predicts as it did.
 const (
 	fileMagic = "STRIATEM"
 	// FormatVersion is the model-file format version this build writes.
-	FormatVersion = 1
+	FormatVersion = 2
 	// minReadVersion..maxReadVersion is the range this build reads.
 	minReadVersion = 1
-	maxReadVersion = 1
+	maxReadVersion = 2
 
 	prefixLen   = 16
 	checksumLen = sha256.Size
@@ -162,6 +169,7 @@ const formatName = "striate-model"
 
 // fileContents is a decoded model file before the model is rebuilt from it.
 type fileContents struct {
+	Version uint32 // format version; 0 means FormatVersion when encoding
 	Config  json.RawMessage
 	Classes []string
 	Tensors []tensor
@@ -178,9 +186,18 @@ func (c *fileContents) tensor(name string) *tensor {
 
 func pad(n int64) int64 { return (dataAlign - n%dataAlign) % dataAlign }
 
-// encodeFile writes c in format version 1. The output is a pure function of
-// c, so equal models give bit-identical files.
+// encodeFile writes c in format version c.Version (0 means FormatVersion:
+// a decoded file re-encodes with its own version, since its config reads
+// by that version's rules). The output is a pure function of c, so equal
+// models give bit-identical files.
 func encodeFile(w io.Writer, c *fileContents) error {
+	ver := c.Version
+	if ver == 0 {
+		ver = FormatVersion
+	}
+	if ver < minReadVersion || ver > maxReadVersion {
+		return fmt.Errorf("pipeline: cannot save format version %d; this build writes versions %d..%d", ver, minReadVersion, maxReadVersion)
+	}
 	h := fileHeader{Format: formatName, Config: c.Config, Classes: c.Classes}
 	if h.Classes == nil {
 		h.Classes = []string{}
@@ -218,7 +235,7 @@ func encodeFile(w io.Writer, c *fileContents) error {
 	out := io.MultiWriter(w, sum)
 	var pre [prefixLen]byte
 	copy(pre[:8], fileMagic)
-	binary.LittleEndian.PutUint32(pre[8:], FormatVersion)
+	binary.LittleEndian.PutUint32(pre[8:], ver)
 	binary.LittleEndian.PutUint32(pre[12:], uint32(len(hdr)))
 	if _, err := out.Write(pre[:]); err != nil {
 		return err
@@ -370,7 +387,7 @@ func decodeFile(b []byte) (*fileContents, error) {
 		}
 	}
 
-	c := &fileContents{Config: h.Config, Classes: h.Classes, Tensors: make([]tensor, len(h.Tensors))}
+	c := &fileContents{Version: ver, Config: h.Config, Classes: h.Classes, Tensors: make([]tensor, len(h.Tensors))}
 	for i, ti := range h.Tensors {
 		off := dataStart + ti.Offset
 		raw := b[off : off+ti.Length]

@@ -31,7 +31,7 @@ const (
 // as little-endian float32 tensors, a SHA-256 at the end. Equal models give
 // bit-identical files.
 func (m *Model) Save(w io.Writer) error {
-	cfg := m.cfg
+	cfg := m.plan.Config()
 	var ts []tensor
 	if b := cfg.Front.Bank; b != nil {
 		nb := &v1layer.Bank{Kernels: make([]v1layer.Kernel, len(b.Kernels))}
@@ -120,6 +120,9 @@ func loadBytes(b []byte) (*Model, error) {
 	if err := decodeStrict(c.Config, &cfg, "model config"); err != nil {
 		return nil, malformed("header.config", "%v", err)
 	}
+	if c.Version == 1 {
+		configFromV1(&cfg)
+	}
 	used := make(map[string]bool, len(c.Tensors))
 	if bk := cfg.Front.Bank; bk != nil {
 		if len(bk.Kernels) > MaxTensors {
@@ -142,7 +145,7 @@ func loadBytes(b []byte) (*Model, error) {
 			used[name] = true
 		}
 	}
-	p, err := cfg.plan()
+	p, err := NewPlan(cfg)
 	if err != nil {
 		return nil, malformed("header.config", "%v", err)
 	}
@@ -173,6 +176,9 @@ func loadBytes(b []byte) (*Model, error) {
 	if err != nil {
 		return nil, malformed("templates", "%v", err)
 	}
+	if p.bankPending {
+		return nil, malformed("header.config.learn_bank", "set, but the config holds no learned bank (front.bank)")
+	}
 	g, err := loadGuard(p.cfg.Guard, p.featureLen(tmpl), c.tensor("guard.keep"), c.tensor("guard.lo"), c.tensor("guard.hi"))
 	if err != nil {
 		return nil, malformed("guard", "%v", err)
@@ -181,9 +187,49 @@ func loadBytes(b []byte) (*Model, error) {
 	if err != nil {
 		return nil, malformed("head", "%v", err)
 	}
-	m, err := newModel(p.cfg, c.Classes, p, tmpl, g, head)
+	m, err := newModel(p, c.Classes, tmpl, g, head)
 	if err != nil {
 		return nil, malformed("", "%v", err)
 	}
 	return m, nil
+}
+
+// configFromV1 rewrites the configuration of a format-version-1 model file
+// so that it reads the same under version 2's field-by-field defaults:
+//
+//   - a head given in part took learn's defaults for its other zero fields
+//     (kind softmax, hidden 256, epochs 30, schedule constant, val_frac 0.1),
+//     where version 2 takes DefaultHead's; a zero head meant DefaultHead in
+//     both;
+//   - an absent pool.keep meant false, where version 2 reads true;
+//   - the run-time fields of learn's dictionary configurations (workers,
+//     checkpoint_every), which never changed a model, are cleared, as
+//     version 2 rejects them.
+func configFromV1(c *Config) {
+	if h := &c.Head; *h != (learn.HeadConfig{}) {
+		orDefault(&h.Kind, learn.KindSoftmax)
+		if h.Kind == learn.KindMLP {
+			orDefault(&h.Hidden, learnDefaultHidden)
+		}
+		orDefault(&h.Epochs, learnDefaultEpochs)
+		orDefault(&h.Schedule, learn.ScheduleConstant)
+		orDefault(&h.ValFrac, learnDefaultValFrac)
+	}
+	if c.Pool.Keep == nil {
+		c.Pool.Keep = new(false)
+	}
+	clearRun := func(d *learn.DictConfig) {
+		d.Workers, d.Coder.Workers, d.CheckpointEvery = 0, 0, 0
+	}
+	for i := range c.Templates {
+		if sp := c.Templates[i].Sparse; sp != nil {
+			cp := *sp
+			clearRun(&cp)
+			c.Templates[i].Sparse = &cp
+		}
+	}
+	if lb := c.LearnBank; lb != nil {
+		clearRun(&lb.Dict)
+		lb.Bank.Workers = 0
+	}
 }

@@ -11,7 +11,7 @@ import (
 // templateStage is the optional stack of template layers between the front
 // end and the head. Layer i < L−1 turns maps into the response maps layer
 // i+1 sees (learn.Templates.EncodeMaps); the last layer pools them into the
-// feature vector (learn.Templates.Encode). With keep set, the pooled front-end
+// feature vector (learn.Templates.Encode). Unless Pool.Keep is false, the pooled front-end
 // maps (PoolConfig) follow the template features in the vector.
 type templateStage struct {
 	layers []*learn.Templates
@@ -41,7 +41,7 @@ func (t *templateStage) encode(dst []float32, m *v1layer.Maps, w *work) {
 
 // newTemplateStage checks the layers against the front end's output shape
 // and works out the feature length.
-func newTemplateStage(p *shapes, layers []*learn.Templates) (*templateStage, error) {
+func newTemplateStage(p *Plan, layers []*learn.Templates) (*templateStage, error) {
 	c, h, w := p.c, p.oh, p.ow
 	for i, l := range layers {
 		if l.Channels() != c {
@@ -53,8 +53,8 @@ func newTemplateStage(p *shapes, layers []*learn.Templates) (*templateStage, err
 				return nil, fmt.Errorf("pipeline: template layer %d on %d×%d×%d maps: %w", i, c, h, w, err)
 			}
 			t := &templateStage{layers: layers, n: n, pool: p.cfg.Pool, ph: p.ph, pw: p.pw}
-			if p.cfg.Pool.Keep {
-				t.keep = p.pc * p.ph * p.pw
+			if p.cfg.Pool.keep() {
+				t.keep = p.c * p.ph * p.pw
 			}
 			return t, nil
 		}
@@ -74,7 +74,7 @@ func newTemplateStage(p *shapes, layers []*learn.Templates) (*templateStage, err
 // fitTemplates fits the template layers in order on the front-end maps of
 // the unlabeled images (each later layer on the previous layer's response
 // maps). cfgs have their seeds resolved.
-func fitTemplates(p *shapes, cfgs []learn.TemplateConfig, maps []v1layer.Maps, prog learn.Progress) (*templateStage, error) {
+func fitTemplates(p *Plan, cfgs []learn.TemplateConfig, maps []v1layer.Maps, prog learn.Progress) (*templateStage, error) {
 	var layers []*learn.Templates
 	for i, tc := range cfgs {
 		if i > 0 {
@@ -120,7 +120,7 @@ func (t *templateStage) tensors() []learn.NamedTensor {
 
 // loadTemplates rebuilds the template layers the config names from the
 // tensors of a model file.
-func loadTemplates(p *shapes, ts []learn.NamedTensor) (*templateStage, error) {
+func loadTemplates(p *Plan, ts []learn.NamedTensor) (*templateStage, error) {
 	cfgs := p.cfg.Templates
 	if len(cfgs) == 0 {
 		if len(ts) != 0 {

@@ -392,7 +392,7 @@ func TestCLIPredict(t *testing.T) {
 func TestCLIInspect(t *testing.T) {
 	cliFixture(t)
 	r := mustRun(t, 0, "inspect", cliModelA)
-	for _, want := range []string{"striate-model, version 1", "verified", "blob, horizontal, vertical", "tensors", "float32"} {
+	for _, want := range []string{"striate-model, version " + strconv.Itoa(pipeline.FormatVersion), "verified", "blob, horizontal, vertical", "tensors", "float32"} {
 		if !strings.Contains(r.stdout, want) {
 			t.Errorf("inspect output lacks %q:\n%s", want, r.stdout)
 		}

@@ -65,11 +65,13 @@ type Config struct {
 	// prediction. On Fashion-MNIST (validation images from the training
 	// split) it raised the accuracy from 91.83% to 92.12%.
 	Mirror bool `json:"mirror,omitempty"`
-	// HeadMinSteps is the least number of minibatch steps the head is
-	// trained for: when the training set is so small that Head.Epochs passes
-	// give fewer steps, Fit raises the epoch count to reach it (the fitted
-	// model's Config records the count used). 0 means 3000; negative means
-	// no minimum.
+	// HeadMinSteps is the number of minibatch steps a small training set's
+	// head is given room for: when Head.Epochs passes give fewer steps, Fit
+	// raises the epoch count to reach it and, unless Head.ConvergeTol is
+	// set, turns on the convergence stop at 0.001 (the head then stops as
+	// soon as its training loss has converged; see learn.HeadConfig). The
+	// fitted model's Config records both. 0 means 3000; negative means no
+	// minimum.
 	HeadMinSteps int `json:"head_min_steps,omitempty"`
 	// Unlabeled is the number of unlabeled images (taken without their
 	// labels) the unsupervised stages are fitted on: 0 means 10000, -1 means

@@ -149,7 +149,7 @@ func (p *Plan) Fit(train *datasets.Set, opts FitOptions) (*Model, FitReport, err
 
 	cfg.Head = withMinSteps(cfg.Head, rows, cfg.HeadMinSteps)
 	t0 = time.Now()
-	head, hrep, err := cfg.Head.Fit(X, labels, len(train.Classes), opts.Progress)
+	head, hrep, err := cfg.Head.FitWith(X, labels, len(train.Classes), learn.HeadFitOptions{Workers: opts.Workers, Progress: opts.Progress})
 	rep.Head = hrep
 	if err != nil {
 		return nil, rep, fmt.Errorf("pipeline: fitting the head: %w", err)
@@ -286,6 +286,20 @@ func withMinSteps(h learn.HeadConfig, n, minSteps int) learn.HeadConfig {
 	steps := max(1, nTrain/max(1, min(batch, nTrain)))
 	if need := (minSteps + steps - 1) / steps; need > epochs {
 		h.Epochs = min(need, maxHeadEpochs)
+		// A set this small is trained for many passes; it stops once its
+		// training loss has converged (learn.HeadConfig.ConvergeTol: the
+		// relative-reduction test of L-BFGS-B, Byrd et al. 1995, on window
+		// means of the epoch losses) instead of running every raised epoch.
+		if h.ConvergeTol == 0 {
+			h.ConvergeTol = smallSetConvergeTol
+		}
 	}
 	return h
 }
+
+// smallSetConvergeTol is the convergence tolerance withMinSteps sets when it
+// raises the epoch count of a small set: a relative reduction of the
+// window-mean training loss of 0.1% (on the scale max(|f|, 1), so an absolute
+// 0.001 nats once the loss is below 1) between two windows of at least 100
+// steps.
+const smallSetConvergeTol = 1e-3

@@ -82,3 +82,19 @@ func WriteBytes(path string, b []byte) error {
 		return err
 	})
 }
+
+// CheckDir reports whether a file can be created in path's folder, by
+// creating and removing an empty temporary file there: a cheap check to run
+// before long work whose result Write will save to path.
+func CheckDir(path string) error {
+	dir, base := filepath.Split(path)
+	if dir == "" {
+		dir = "."
+	}
+	tmp, err := os.CreateTemp(dir, "."+base+".tmp-*")
+	if err != nil {
+		return fmt.Errorf("safefile: cannot write %s: %w", path, err)
+	}
+	tmp.Close()
+	return os.Remove(tmp.Name())
+}

@@ -102,3 +102,17 @@ func assertOnly(t *testing.T, dir string, names ...string) {
 		t.Errorf("folder holds %v; want %v", got, names)
 	}
 }
+
+// TestCheckDir: a writable folder passes and is left as it was; a missing
+// one fails naming the path.
+func TestCheckDir(t *testing.T) {
+	dir := t.TempDir()
+	if err := CheckDir(filepath.Join(dir, "m.stm")); err != nil {
+		t.Fatal(err)
+	}
+	assertOnly(t, dir)
+	p := filepath.Join(dir, "missing", "m.stm")
+	if err := CheckDir(p); err == nil || !strings.Contains(err.Error(), p) {
+		t.Errorf("missing folder: %v", err)
+	}
+}

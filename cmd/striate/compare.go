@@ -79,12 +79,8 @@ func runCompare(g *globals, spec, pathA, pathB string, resamples int, robust str
 		m    *pipeline.Model
 	}{{nameA, ma}, {nameB, mb}} {
 		bar := progressFor(g, len(data.Images), "predict "+mm.name)
-		probs, err := eval.Predict(mm.m, data.Images, h, w, eval.RunOptions{Workers: g.workers, Batch: batch, Progress: bar})
+		probs, met, err := eval.PredictScore(mm.m, data, eval.RunOptions{Workers: g.workers, Batch: batch, Progress: bar})
 		bar.Done()
-		if err != nil {
-			return err
-		}
-		met, err := eval.Score(data.Labels, probs, data.Classes, eval.MetricsConfig{})
 		if err != nil {
 			return err
 		}
@@ -137,7 +133,7 @@ func runCompare(g *globals, spec, pathA, pathB string, resamples int, robust str
 		name string
 		m    *pipeline.Model
 	}{{nameA, ma}, {nameB, mb}} {
-		if iv, bank, err := invariance(mm.name, mm.m); err == nil {
+		if iv, bank, err := eval.FrontInvariance(mm.name, mm.m); err == nil {
 			rep.Invariance = append(rep.Invariance, iv)
 			rep.Banks = append(rep.Banks, eval.BankPanel{Name: mm.name, Bank: bank})
 		}

@@ -59,7 +59,11 @@ func TestCLIPredictHostileFolder(t *testing.T) {
 		}
 	}
 	for n, why := range map[string]string{"a-zero.png": "damaged", "b-zero.gif": "empty image", "c-bomb.png": "MaxImagePixels", "d-label.png": "not a PNG"} {
-		if !strings.Contains(r.stderr, n+": "+why) {
+		found := false
+		for _, l := range strings.Split(r.stderr, "\n") {
+			found = found || (strings.Contains(l, n+": ") && strings.Contains(l, why))
+		}
+		if !found {
 			t.Errorf("stderr does not report %s as %q:\n%s", n, why, r.stderr)
 		}
 	}

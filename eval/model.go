@@ -1,6 +1,9 @@
 package eval
 
 import (
+	"fmt"
+
+	"github.com/striate/striate/datasets"
 	"github.com/striate/striate/pipeline"
 	"github.com/striate/striate/v1layer"
 )
@@ -53,4 +56,36 @@ func FrontInvariance(name string, m *pipeline.Model) (InvarianceResult, *v1layer
 		return InvarianceResult{}, nil, err
 	}
 	return InvarianceResult{Model: name, Channels: fe.Channels(), Rows: rows}, &v1layer.Bank{Kernels: fe.Kernels()}, nil
+}
+
+// ExtractRange returns the feature vectors of images [lo, hi) of s, row
+// after row (hi−lo rows of m.FeatureLen() values), extracting batch images
+// per call with workers goroutines; p (may be nil) sees the rows done.
+func ExtractRange(m *pipeline.Model, s *datasets.Set, lo, hi, batch, workers int, p Progress) ([]float32, error) {
+	if lo < 0 || hi > s.N || lo > hi || batch < 1 {
+		return nil, fmt.Errorf("eval: ExtractRange of images %d-%d of %d in batches of %d; want 0 ≤ lo ≤ hi ≤ N and batch ≥ 1", lo, hi, s.N, batch)
+	}
+	h, w := s.H, s.W
+	feats := make([]float32, 0, (hi-lo)*m.FeatureLen())
+	buf := make([]float32, batch*h*w)
+	imgs := make([][]float32, 0, batch)
+	for b := lo; b < hi; b += batch {
+		e := min(b+batch, hi)
+		imgs = imgs[:0]
+		for j := b; j < e; j++ {
+			k := j - b
+			imgs = append(imgs, s.Float(buf[k*h*w:(k+1)*h*w], j))
+		}
+		rows, err := m.ExtractFloats(imgs, h, w, workers)
+		if err != nil {
+			return nil, err
+		}
+		for _, r := range rows {
+			feats = append(feats, r...)
+		}
+		if p != nil {
+			p.Step(e-lo, hi-lo, "extract")
+		}
+	}
+	return feats, nil
 }

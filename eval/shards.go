@@ -89,11 +89,20 @@ func WritePredictions(dir, suffix string, probs [][]float32, labels []int) error
 	if len(probs) > 0 {
 		k = len(probs[0])
 	}
-	flat := make([]float32, 0, len(probs)*k)
-	for _, p := range probs {
-		flat = append(flat, p...)
+	return WriteArrays(dir, "predictions", suffix, Flatten(probs), k, labels)
+}
+
+// Flatten concatenates rows into one slice, row after row.
+func Flatten(rows [][]float32) []float32 {
+	n := 0
+	for _, r := range rows {
+		n += len(r)
 	}
-	return WriteArrays(dir, "predictions", suffix, flat, k, labels)
+	flat := make([]float32, 0, n)
+	for _, r := range rows {
+		flat = append(flat, r...)
+	}
+	return flat
 }
 
 // WriteShard writes one shard's arrays and its description

@@ -276,11 +276,7 @@ func evaluateShard(g *globals, o evalOptions, m *pipeline.Model, d *eval.Data) e
 	if err := os.MkdirAll(g.out, 0o755); err != nil {
 		return err
 	}
-	flat := make([]float32, 0, len(probs)*meta.Cols)
-	for _, p := range probs {
-		flat = append(flat, p...)
-	}
-	if err := eval.WriteShard(g.out, meta, flat, d.Labels[lo:hi]); err != nil {
+	if err := eval.WriteShard(g.out, meta, eval.Flatten(probs), d.Labels[lo:hi]); err != nil {
 		return err
 	}
 	fmt.Fprintf(g.stdout, "shard %d/%d: images %d to %d of %d predicted into %s\n", i, n, lo, hi-1, len(d.Images), g.out)

@@ -87,28 +87,12 @@ func runExtract(g *globals, o extractOptions) error {
 	}
 	lo, hi := eval.ShardRange(i, n, set.N)
 	d := m.FeatureLen()
-	feats := make([]float32, 0, (hi-lo)*d)
 	bar := progressFor(g, hi-lo, "extract")
-	buf := make([]float32, o.batch*h*w)
-	imgs := make([][]float32, 0, o.batch)
-	for b := lo; b < hi; b += o.batch {
-		e := min(b+o.batch, hi)
-		imgs = imgs[:0]
-		for j := b; j < e; j++ {
-			k := j - b
-			imgs = append(imgs, set.Float(buf[k*h*w:(k+1)*h*w], j))
-		}
-		rows, err := m.ExtractFloats(imgs, h, w, g.workers)
-		if err != nil {
-			bar.Done()
-			return err
-		}
-		for _, r := range rows {
-			feats = append(feats, r...)
-		}
-		bar.Step(e-lo, hi-lo, "extract")
-	}
+	feats, err := eval.ExtractRange(m, set, lo, hi, o.batch, g.workers, bar)
 	bar.Done()
+	if err != nil {
+		return err
+	}
 	sum, err := eval.FileSHA256(o.model)
 	if err != nil {
 		return err

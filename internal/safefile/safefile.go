@@ -32,11 +32,7 @@ const Perm = 0o644
 // removed, path is left as it was, and the error names path. The folder of
 // path must exist.
 func Write(path string, fill func(w io.Writer) error) (err error) {
-	dir, base := filepath.Split(path)
-	if dir == "" {
-		dir = "."
-	}
-	tmp, err := os.CreateTemp(dir, "."+base+".tmp-*")
+	tmp, dir, err := createTemp(path)
 	if err != nil {
 		return fmt.Errorf("safefile: writing %s: %w", path, err)
 	}
@@ -87,14 +83,21 @@ func WriteBytes(path string, b []byte) error {
 // creating and removing an empty temporary file there: a cheap check to run
 // before long work whose result Write will save to path.
 func CheckDir(path string) error {
-	dir, base := filepath.Split(path)
-	if dir == "" {
-		dir = "."
-	}
-	tmp, err := os.CreateTemp(dir, "."+base+".tmp-*")
+	tmp, _, err := createTemp(path)
 	if err != nil {
 		return fmt.Errorf("safefile: cannot write %s: %w", path, err)
 	}
 	tmp.Close()
 	return os.Remove(tmp.Name())
+}
+
+// createTemp creates the temporary file .<base>.tmp-* beside path and
+// returns it with path's folder.
+func createTemp(path string) (*os.File, string, error) {
+	dir, base := filepath.Split(path)
+	if dir == "" {
+		dir = "."
+	}
+	f, err := os.CreateTemp(dir, "."+base+".tmp-*")
+	return f, dir, err
 }

@@ -53,15 +53,39 @@
 // names the classes: our own plain format, UTF-8, one name per line in
 // label order, blank and # lines ignored (ReadClassNames, WriteClassNames).
 //
+// # Data specs (Open)
+//
+// Open reads the data a short spec names — mnist, fashion, NAME:train or
+// NAME:test, a folder of MNIST-named IDX files, a folder of class
+// sub-folders — and reports a spec it cannot read as *SpecError (kinds
+// ErrBadSpec, ErrSpecSize, or the os error of a missing path) naming the spec
+// and the fix. SpecSplits gives the training and test specs of one name.
+//
 // # The user's images
 //
 // LoadFolder reads root/<class>/…/<file> trees: class labels follow the
 // sorted folder names; files with the extensions in FolderExtensions are
-// decoded (PNG, JPEG, GIF by the standard library; BMP, TIFF, WebP by
-// golang.org/x/image), converted by ToGray and stored as round(255·luma).
-// Every file not loaded (unknown extension, undecodable, declared larger than
-// MaxFolderPixels, smaller than the target size unless AllowUpscale) is
+// decoded, converted by ToGray and stored as round(255·luma). Every file not
+// loaded (unknown extension, undecodable, empty, declared larger than
+// MaxImagePixels, smaller than the target size unless AllowUpscale) is
 // listed in the FolderReport with its reason; nothing is dropped silently.
+//
+// DecodeImage is the one image decoder (PNG, JPEG, GIF by the standard
+// library; BMP, TIFF, WebP by golang.org/x/image), used by LoadFolder and by
+// the command's predict: it reads the declared size with image.DecodeConfig
+// and refuses an empty image or one above MaxImagePixels before decoding, so
+// a small file declaring a huge image cannot exhaust memory, and reports a
+// refused file as *ImageError (ErrNotImage, ErrDamagedImage, ErrEmptyImage,
+// ErrImageTooLarge).
+//
+// # NPY arrays
+//
+// ReadNPY and WriteNPYFloat32 / WriteNPYInt32 read and write NumPy's NPY
+// format (numpy.lib.format, NEP 1) for little-endian float32 and int32
+// arrays in C order: the writer's bytes equal np.save's; the reader parses
+// the header's dict literal, accepts format versions 1.0-3.0, checks sizes
+// against MaxNPYHeader and MaxNPYElems and reads the data in pieces, and
+// reports faults as *NPYError naming the field and offset.
 //
 // ToGray computes ITU-R BT.601 luma from the stored (gamma-encoded)
 // components,

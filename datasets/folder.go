@@ -4,24 +4,13 @@ import (
 	"errors"
 	"fmt"
 	"image"
-	_ "image/gif"  // decoders registered for LoadFolder
-	_ "image/jpeg" //
-	_ "image/png"  //
 	"io/fs"
 	"math"
 	"os"
 	"path/filepath"
 	"slices"
 	"strings"
-
-	_ "golang.org/x/image/bmp"  //
-	_ "golang.org/x/image/tiff" //
-	_ "golang.org/x/image/webp" //
 )
-
-// FolderExtensions are the file name extensions (lower case) that LoadFolder
-// reads. The format is told from the file's content, not its name.
-var FolderExtensions = []string{".png", ".jpg", ".jpeg", ".gif", ".bmp", ".tif", ".tiff", ".webp"}
 
 // FolderConfig configures LoadFolder. The zero value loads 28×28 images,
 // leaves out (and reports) images smaller than that, and names the set after
@@ -156,43 +145,16 @@ func LoadFolder(root string, cfg FolderConfig) (*Set, *FolderReport, error) {
 	return set, rep, nil
 }
 
-// decodeFile decodes one image file, returning a reason when it cannot.
+// decodeFile decodes one image file with the guarded decoder, returning a
+// reason when it cannot.
 func decodeFile(p string) (img image.Image, reason string) {
-	f, err := os.Open(p)
-	if err != nil {
-		return nil, "cannot open: " + err.Error()
-	}
-	defer f.Close()
-	// Check the declared size before decoding, so a hostile header cannot
-	// make the decoder allocate a huge image.
-	cfg, _, err := image.DecodeConfig(f)
-	if err != nil {
-		return nil, "cannot decode: " + decodeReason(err)
-	}
-	if cfg.Width <= 0 || cfg.Height <= 0 || int64(cfg.Width)*int64(cfg.Height) > MaxFolderPixels {
-		return nil, fmt.Sprintf("cannot decode: declared size %d×%d is empty or above MaxFolderPixels (%d)", cfg.Width, cfg.Height, MaxFolderPixels)
-	}
-	if _, err := f.Seek(0, 0); err != nil {
-		return nil, "cannot read: " + err.Error()
-	}
-	img, _, err = image.Decode(f)
-	if err != nil {
-		return nil, "cannot decode: " + decodeReason(err)
-	}
-	if img.Bounds().Empty() {
-		return nil, "cannot decode: empty image"
+	img, err := DecodeImageFile(p)
+	var ie *ImageError
+	switch {
+	case errors.As(err, &ie):
+		return nil, "cannot decode: " + ie.Reason()
+	case err != nil:
+		return nil, "cannot open: " + strings.TrimPrefix(err.Error(), "datasets: ")
 	}
 	return img, ""
-}
-
-// MaxFolderPixels bounds the declared size of one image in LoadFolder
-// (64 megapixels: beyond any camera photo a user would sort by class, and
-// 512 MiB as 64-bit RGBA, which the decoders may allocate).
-const MaxFolderPixels = 64 << 20
-
-func decodeReason(err error) string {
-	if errors.Is(err, image.ErrFormat) {
-		return "not a PNG, JPEG, GIF, BMP, TIFF or WebP file"
-	}
-	return err.Error()
 }

@@ -138,7 +138,7 @@ func TestLoadFolderErrors(t *testing.T) {
 	hdr := append([]byte("\x89PNG\r\n\x1a\n\x00\x00\x00\x0d"), ihdr...)
 	hdr = binary.BigEndian.AppendUint32(hdr, crc32.ChecksumIEEE(ihdr))
 	os.WriteFile(filepath.Join(huge, "c", "h.png"), hdr, 0o644)
-	if _, rep, _ := LoadFolder(huge, FolderConfig{}); len(rep.Skipped) != 1 || !strings.Contains(rep.Skipped[0].Reason, "MaxFolderPixels") {
+	if _, rep, _ := LoadFolder(huge, FolderConfig{}); len(rep.Skipped) != 1 || !strings.Contains(rep.Skipped[0].Reason, "MaxImagePixels") {
 		t.Errorf("huge declared size: %s", rep)
 	}
 }

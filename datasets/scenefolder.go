@@ -269,7 +269,7 @@ func frameHeader(p string) (w, h int, err error) {
 	defer f.Close()
 	cfg, _, err := image.DecodeConfig(f)
 	if err != nil {
-		return 0, 0, errors.New(decodeReason(err))
+		return 0, 0, errors.New(decodeErr(p, err).(*ImageError).Reason())
 	}
 	return cfg.Width, cfg.Height, nil
 }

@@ -10,6 +10,20 @@
 // instead of importing the pipeline; front-end measures take an extractor
 // function. Data holds a labelled image set.
 //
+// The steps the command runs on a fitted pipeline.Model (PredictScore,
+// ModelSpeed, FrontInvariance, ExtractRange) and the whole main job (MainJob:
+// the hand-set and the learned front end trained, scored, swept and compared
+// on Fashion-MNIST and MNIST, with progress and result lines through a
+// JobMonitor) are the only parts that import package pipeline.
+//
+// # Shards (ParseShard, ShardRange, WriteShard, MergeShards)
+//
+// Long extraction or prediction runs split into n contiguous blocks
+// [⌊i·N/n⌋, ⌊(i+1)·N/n⌋) run as independent jobs; each writes NPY arrays and
+// a ShardMeta, and MergeShards checks the set is complete and from one model
+// file and data set before concatenating, so merged files are byte for byte
+// those of one run. Every file is written atomically (internal/safefile).
+//
 // # Scores (Score, Metrics)
 //
 //   - Accuracy with a Wilson score interval (Wilson 1927):

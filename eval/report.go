@@ -12,6 +12,7 @@ import (
 	"strings"
 	"time"
 
+	"github.com/striate/striate/internal/safefile"
 	"github.com/striate/striate/learn"
 	"github.com/striate/striate/v1layer"
 )
@@ -122,7 +123,9 @@ func WriteReport(dir string, r *Report) ([]string, error) {
 	var written []string
 	write := func(name string, b []byte) error {
 		p := filepath.Join(dir, name)
-		if err := os.WriteFile(p, b, 0o644); err != nil {
+		// Each file is replaced whole (temporary file, sync, rename), so an
+		// interrupted run leaves the previous report or the new one.
+		if err := safefile.WriteBytes(p, b); err != nil {
 			return fmt.Errorf("eval: writing report: %w", err)
 		}
 		written = append(written, p)

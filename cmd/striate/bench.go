@@ -7,27 +7,18 @@ import (
 	"strconv"
 	"strings"
 	"text/tabwriter"
-	"time"
 
 	"github.com/striate/striate/internal/benchwork"
+	"github.com/striate/striate/internal/frontbench"
 	"github.com/striate/striate/v1layer"
 )
 
 // benchRow is one line of the `striate bench` table.
-type benchRow struct {
-	Stage    string  // what was timed
-	Size     string  // input size, e.g. "28×28"
-	Threads  int     // goroutines used
-	Striate  float64 // striate's throughput
-	Unit     string  // unit of Striate and Peer, e.g. "img/s"
-	Peer     float64 // fastest general-purpose peer's figure, 0 if none
-	PeerName string
-	Build    string // which build produced the figure (plain or simd)
-}
+type benchRow = frontbench.Row
 
 // benchContext is what every section gets.
 type benchContext struct {
-	Dir     string // reference folder (../shared/bench)
+	Dir     string // reference folder; "" = the built-in reference work
 	Quick   bool
 	Threads []int
 	Repeats int
@@ -49,11 +40,11 @@ func init() {
 		name:    "bench",
 		summary: "time striate on the reference work and print it beside the peers' figures",
 		usage:   "",
-		example: `  striate bench                       # reference folder ../shared/bench beside the repository
+		example: `  striate bench                       # the reference work built into the binary
   striate bench --ref /data/bench --quick
   GOEXPERIMENT=simd go run ./cmd/striate bench   # the SIMD build (Go 1.26, amd64)`,
 		setup: func(fs *flag.FlagSet, g *globals) func([]string) error {
-			ref := fs.String("ref", "", "reference `folder` holding filterbank.json, README.md and data/ (default: "+benchwork.DefaultRel+" beside the repository root)")
+			ref := fs.String("ref", "", "reference `folder` to use instead of the built-in reference work (holding filterbank.json, filterbank_kernels.json, README.md and data/crops256_8x8.png)")
 			quick := fs.Bool("quick", false, "time a subset (1,000 MNIST images, 16 crops, 2 repeats) in a few seconds")
 			threads := fs.String("threads", "1,2", "comma-separated thread counts to time")
 			repeats := fs.Int("repeats", 5, "timed repeats after one warm-up; the median is reported")
@@ -120,95 +111,19 @@ func fmtRate(v float64) string {
 	return strconv.FormatFloat(v, 'f', 1, 64)
 }
 
-// benchFrontEnd times the default front end (the reference bank of
-// filterbank.json, checked kernel by kernel first) over the MNIST test set
-// and the 64 photo crops: images / median wall time of the whole set, output
-// allocation included, the reference README's protocol.
+// benchFrontEnd times the default front end on the reference work
+// (frontbench.FrontEnd).
 func benchFrontEnd(bc *benchContext) ([]benchRow, error) {
-	fe, err := v1layer.New(v1layer.Config{})
-	if err != nil {
-		return nil, err
-	}
-	ref, err := benchwork.Kernels(bc.Dir)
-	if err != nil {
-		return nil, err
-	}
-	ks := fe.Kernels()
-	if len(ks) != len(ref) {
-		return nil, fmt.Errorf("the default front end has %d kernels, the reference bank %d", len(ks), len(ref))
-	}
-	var worst float64
-	for i, k := range ref {
-		if ks[i].Size != k.Size {
-			return nil, fmt.Errorf("kernel %s: size %d, reference %d", k.Name, ks[i].Size, k.Size)
-		}
-		for j, v := range k.W {
-			worst = math.Max(worst, math.Abs(float64(ks[i].W[j])-v))
-		}
-	}
-	if worst > 1e-6 {
-		return nil, fmt.Errorf("the default kernels differ from filterbank_kernels.json by %.3g (want ≤ 1e-6)", worst)
-	}
-	fmt.Fprintf(bc.g.stdout, "front end: default config = reference bank (18 kernels, max |Δ| %.1e vs filterbank_kernels.json)\n", worst)
-	peers, err := benchwork.Peers(bc.Dir)
-	if err != nil {
-		return nil, err
-	}
-	nm, nc := 0, 0
-	if bc.Quick {
-		nm, nc = 1000, 16
-	}
-	mnist := benchwork.MNIST(nm)
-	crops, err := benchwork.Crops(bc.Dir, nc)
-	if err != nil {
-		return nil, err
-	}
-	var rows []benchRow
-	sets := []*benchwork.Set{mnist, crops}
-	total := len(sets) * len(bc.Threads)
-	bar := bc.g.newProgress(total, "timing the front end")
-	step := 0
-	for _, s := range sets {
-		fmt.Fprintf(bc.g.stdout, "  %s: %d images from %s\n", s.Name, len(s.Images), s.Source)
-		for _, t := range bc.Threads {
-			c, oh, ow, err := fe.OutShape(s.H, s.W)
-			if err != nil {
-				return nil, err
-			}
-			d := benchwork.Median(bc.Repeats, func() {
-				// Output allocation is part of the timed work, as for the
-				// peers: one N×C×OH×OW block, like one output tensor.
-				n := c * oh * ow
-				slab := make([]float32, len(s.Images)*n)
-				dst := make([]v1layer.Maps, len(s.Images))
-				for i := range dst {
-					dst[i] = v1layer.Maps{C: c, H: oh, W: ow, Pix: slab[i*n : (i+1)*n : (i+1)*n]}
-				}
-				fe.ApplyBatch(dst, s.Images, s.H, s.W, t)
-			})
-			p, pv := benchwork.Fastest(peers, s.W, t)
-			name := p.Name
-			if i := strings.Index(name, " ("); i > 0 {
-				name = name[:i]
-			}
-			if t > 2 {
-				pv, name = 0, "(peers timed at 1 and 2 threads)"
-			}
-			rows = append(rows, benchRow{Stage: "front end", Size: fmt.Sprintf("%d×%d", s.H, s.W), Threads: t,
-				Striate: float64(len(s.Images)) / d.Seconds(), Unit: "img/s", Peer: pv, PeerName: name,
-				Build: buildTag()})
-			step++
-			bar.Step(step, total, fmt.Sprintf("%s, %d threads: %v", s.Name, t, d.Round(time.Millisecond)))
-		}
-	}
+	bar := bc.g.newProgress(2*len(bc.Threads), "timing the front end")
+	rep, err := frontbench.FrontEnd(bc.Dir, frontbench.FrontEndConfig{Quick: bc.Quick, Threads: bc.Threads, Repeats: bc.Repeats}, bar)
 	bar.Done()
-	fmt.Fprintln(bc.g.stdout)
-	return rows, nil
-}
-
-func buildTag() string {
-	if strings.HasPrefix(v1layer.Build(), "simd") {
-		return "simd"
+	if err != nil {
+		return nil, err
 	}
-	return "plain"
+	fmt.Fprintf(bc.g.stdout, "front end: default config = reference bank (%d kernels, max |Δ| %.1e vs filterbank_kernels.json)\n", rep.Kernels, rep.KernelMax)
+	for _, s := range rep.Sets {
+		fmt.Fprintf(bc.g.stdout, "  %s\n", s)
+	}
+	fmt.Fprintln(bc.g.stdout)
+	return rep.Rows, nil
 }

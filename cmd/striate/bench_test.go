@@ -4,8 +4,6 @@ import (
 	"bytes"
 	"strings"
 	"testing"
-
-	"github.com/striate/striate/internal/benchwork"
 )
 
 func TestBenchMissingReference(t *testing.T) {
@@ -20,12 +18,10 @@ func TestBenchMissingReference(t *testing.T) {
 }
 
 // A quick bench prints the table with the peers' figures from the
-// reference README beside striate's (PyTorch conv2d 6,486 img/s on MNIST,
-// 1 thread; ../shared/bench/README.md).
+// reference work built into the binary beside striate's (PyTorch conv2d
+// 6,486 img/s on MNIST, 1 thread; internal/benchwork/data/peers.json). It
+// needs no folder outside the repository.
 func TestBenchQuickTable(t *testing.T) {
-	if _, err := benchwork.FindDir(""); err != nil {
-		t.Skipf("reference folder not available: %v", err)
-	}
 	var out, errb bytes.Buffer
 	if code := run([]string{"bench", "--quick", "--threads", "1", "--repeats", "1", "--quiet"}, &out, &errb); code != exitOK {
 		t.Fatalf("exit %d: %s", code, errb.String())

@@ -72,24 +72,18 @@ func runCompare(g *globals, spec, pathA, pathB string, resamples int, robust str
 	if nameA == nameB {
 		nameA, nameB = pathA, pathB
 	}
+	names, models := []string{nameA, nameB}, []*pipeline.Model{ma, mb}
 	var results []eval.ModelResult
 	var preds [][]int
-	for _, mm := range []struct {
-		name string
-		m    *pipeline.Model
-	}{{nameA, ma}, {nameB, mb}} {
-		bar := progressFor(g, len(data.Images), "predict "+mm.name)
-		probs, err := eval.Predict(mm.m, data.Images, h, w, eval.RunOptions{Workers: g.workers, Batch: batch, Progress: bar})
+	for k, m := range models {
+		bar := progressFor(g, len(data.Images), "predict "+names[k])
+		probs, met, err := eval.PredictScore(m, data, eval.RunOptions{Workers: g.workers, Batch: batch, Progress: bar})
 		bar.Done()
 		if err != nil {
 			return err
 		}
-		met, err := eval.Score(data.Labels, probs, data.Classes, eval.MetricsConfig{})
-		if err != nil {
-			return err
-		}
-		printScores(g.stdout, mm.name, data, met)
-		results = append(results, eval.ModelResult{Name: mm.name, Data: data.Name, Metrics: met})
+		printScores(g.stdout, names[k], data, met)
+		results = append(results, eval.ModelResult{Name: names[k], Data: data.Name, Metrics: met})
 		preds = append(preds, eval.Classify(probs))
 	}
 	cmp, err := eval.Compare(nameA, nameB, data.Labels, preds[0], preds[1], eval.CompareConfig{Resamples: resamples, Seed: g.seed})
@@ -112,11 +106,8 @@ func runCompare(g *globals, spec, pathA, pathB string, resamples int, robust str
 	rep.Comparisons = []*eval.Comparison{cmp}
 	rep.Config = map[string]pipeline.Config{nameA: ma.Config(), nameB: mb.Config()}
 	if levels != nil {
-		for _, mm := range []struct {
-			name string
-			m    *pipeline.Model
-		}{{nameA, ma}, {nameB, mb}} {
-			rb, err := robustness(g, mm.name, mm.m, data, levels, batch)
+		for k, m := range models {
+			rb, err := robustness(g, names[k], m, data, levels, batch)
 			if err != nil {
 				return err
 			}
@@ -133,13 +124,10 @@ func runCompare(g *globals, spec, pathA, pathB string, resamples int, robust str
 		}
 		rep.Comparisons = append(rep.Comparisons, under...)
 	}
-	for _, mm := range []struct {
-		name string
-		m    *pipeline.Model
-	}{{nameA, ma}, {nameB, mb}} {
-		if iv, bank, err := invariance(mm.name, mm.m); err == nil {
+	for k, m := range models {
+		if iv, bank, err := eval.FrontInvariance(names[k], m); err == nil {
 			rep.Invariance = append(rep.Invariance, iv)
-			rep.Banks = append(rep.Banks, eval.BankPanel{Name: mm.name, Bank: bank})
+			rep.Banks = append(rep.Banks, eval.BankPanel{Name: names[k], Bank: bank})
 		}
 	}
 	return writeReport(g, rep)

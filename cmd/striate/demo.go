@@ -4,11 +4,17 @@ import (
 	"flag"
 	"fmt"
 	"io"
+	"os"
+	"path/filepath"
 	"runtime"
 	"strings"
 	"text/tabwriter"
+	"time"
 
 	"github.com/striate/striate/datasets"
+	"github.com/striate/striate/eval"
+	"github.com/striate/striate/internal/safefile"
+	"github.com/striate/striate/pipeline"
 	"github.com/striate/striate/v1layer"
 )
 
@@ -71,33 +77,53 @@ func runDemo(g *globals, o demoOptions) error {
 	if o.dataOnly {
 		return nil
 	}
-	return runMainJob(g, sets, o.quick)
+	var cfg *pipeline.Config
+	if g.config != "" {
+		c, err := pipeline.LoadConfig(g.config)
+		if err != nil {
+			return err
+		}
+		cfg = &c
+	}
+	if err := os.MkdirAll(g.out, 0o755); err != nil {
+		return err
+	}
+	if err := safefile.CheckDir(filepath.Join(g.out, eval.ReportMarkdown)); err != nil {
+		return err
+	}
+	start := time.Now()
+	rep, err := eval.MainJob(sets, eval.MainJobConfig{Quick: o.quick, Config: cfg, Seed: g.seed, Workers: g.workers,
+		Command: "striate " + strings.Join(os.Args[1:], " ")}, jobMonitor{g})
+	if err != nil {
+		return err
+	}
+	files, err := eval.WriteReport(g.out, rep)
+	if err != nil {
+		return err
+	}
+	fmt.Fprintf(w, "report written to %s (%d files) in %s\n", g.out, len(files), time.Since(start).Round(time.Second))
+	return nil
 }
 
-// demoData holds the four splits the main job uses.
-type demoData struct {
-	fashionTrain, fashionTest, mnistTrain, mnistTest *datasets.Set
-}
-
-func loadDemoData(o demoOptions) (*demoData, error) {
-	var d demoData
+func loadDemoData(o demoOptions) (*eval.MainJobData, error) {
+	var d eval.MainJobData
 	var err error
-	if d.fashionTrain, err = datasets.LoadFashionMNIST(datasets.Train, o.fashionDir); err != nil {
+	if d.FashionTrain, err = datasets.LoadFashionMNIST(datasets.Train, o.fashionDir); err != nil {
 		return nil, err
 	}
-	if d.fashionTest, err = datasets.LoadFashionMNIST(datasets.Test, o.fashionDir); err != nil {
+	if d.FashionTest, err = datasets.LoadFashionMNIST(datasets.Test, o.fashionDir); err != nil {
 		return nil, err
 	}
-	if d.mnistTrain, err = datasets.LoadMNIST(datasets.Train, o.mnistDir); err != nil {
+	if d.MNISTTrain, err = datasets.LoadMNIST(datasets.Train, o.mnistDir); err != nil {
 		return nil, err
 	}
-	if d.mnistTest, err = datasets.LoadMNIST(datasets.Test, o.mnistDir); err != nil {
+	if d.MNISTTest, err = datasets.LoadMNIST(datasets.Test, o.mnistDir); err != nil {
 		return nil, err
 	}
 	return &d, nil
 }
 
-func printDataSummary(w io.Writer, d *demoData) error {
+func printDataSummary(w io.Writer, d *eval.MainJobData) error {
 	fmt.Fprintln(w, "Datasets")
 	tw := tabwriter.NewWriter(w, 0, 4, 2, ' ', 0)
 	fmt.Fprintln(tw, "  set\tsplit\timages\tsize\tclasses\tsmallest class\tlargest class")
@@ -105,7 +131,7 @@ func printDataSummary(w io.Writer, d *demoData) error {
 		split string
 		s     *datasets.Set
 	}{
-		{"train", d.fashionTrain}, {"test", d.fashionTest}, {"train", d.mnistTrain}, {"test", d.mnistTest},
+		{"train", d.FashionTrain}, {"test", d.FashionTest}, {"train", d.MNISTTrain}, {"test", d.MNISTTest},
 	} {
 		counts := r.s.ClassCounts()
 		lo, hi := 0, 0

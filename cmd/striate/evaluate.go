@@ -1,15 +1,13 @@
 package main
 
 import (
-	"crypto/sha256"
-	"encoding/hex"
+	"errors"
 	"flag"
 	"fmt"
 	"io"
 	"os"
 	"path/filepath"
 	"slices"
-	"strconv"
 	"strings"
 	"text/tabwriter"
 	"time"
@@ -17,7 +15,6 @@ import (
 	"github.com/striate/striate/datasets"
 	"github.com/striate/striate/eval"
 	"github.com/striate/striate/pipeline"
-	"github.com/striate/striate/v1layer"
 )
 
 func init() {
@@ -65,67 +62,27 @@ type evalOptions struct {
 // pipeline.Model is what eval scores.
 var _ eval.Predictor = (*pipeline.Model)(nil)
 
-const dataFlagHelp = "test data `spec`: mnist or fashion (test split; mnist:train for the training split), " +
-	"a folder of MNIST-named IDX files (PATH or PATH:train), or a folder of images in one sub-folder per class"
+const dataFlagHelp = "test data `spec`: " + datasets.SpecHelp
 
-// loadSpec loads the data named by spec at h×w (image folders are resized
-// to it; IDX data must already have that size). Folder load problems go to
-// warn.
+// loadSpec loads the data named by spec at h×w (datasets.Open); the files an
+// image folder leaves out are listed on warn. A malformed spec is a usage
+// error.
 func loadSpec(spec string, h, w int, warn io.Writer) (*datasets.Set, error) {
 	if spec == "" {
-		return nil, usagef("--data is required: %s", strings.ReplaceAll(dataFlagHelp, "`", ""))
+		return nil, usagef("--data is required: %s", datasets.SpecHelp)
 	}
-	name, split := spec, datasets.Test
-	if i := strings.LastIndexByte(spec, ':'); i > 0 {
-		if _, err := os.Stat(spec); err != nil { // a path may contain ':'
-			switch spec[i+1:] {
-			case "train":
-				name, split = spec[:i], datasets.Train
-			case "test":
-				name = spec[:i]
-			default:
-				return nil, usagef("--data %q: split %q is neither train nor test", spec, spec[i+1:])
-			}
-		}
+	s, rep, err := datasets.Open(spec, datasets.OpenConfig{H: h, W: w})
+	if rep != nil && len(rep.Skipped) > 0 {
+		fmt.Fprintln(warn, rep.String())
 	}
-	var s *datasets.Set
-	var err error
-	switch name {
-	case "mnist":
-		s, err = datasets.LoadMNIST(split, "")
-	case "fashion":
-		s, err = datasets.LoadFashionMNIST(split, "")
-	default:
-		st, serr := os.Stat(name)
-		if serr != nil {
-			return nil, fmt.Errorf("--data %q: %v (want mnist, fashion or a folder)", spec, serr)
-		}
-		if !st.IsDir() {
-			return nil, usagef("--data %q is a file; want mnist, fashion or a folder", spec)
-		}
-		if hasIDX(name) {
-			s, err = datasets.LoadMNIST(split, name)
-		} else {
-			var rep *datasets.FolderReport
-			s, rep, err = datasets.LoadFolder(name, datasets.FolderConfig{H: h, W: w, AllowUpscale: true})
-			if rep != nil && len(rep.Skipped) > 0 {
-				fmt.Fprintln(warn, rep.String())
-			}
-		}
+	var se *datasets.SpecError
+	switch {
+	case errors.Is(err, datasets.ErrBadSpec):
+		return nil, usageError{"--data: " + err.Error()}
+	case errors.As(err, &se):
+		return nil, fmt.Errorf("--data: %w", err)
 	}
-	if err != nil {
-		return nil, err
-	}
-	if s.H != h || s.W != w {
-		return nil, fmt.Errorf("--data %q holds %d×%d images; the model takes %d×%d", spec, s.H, s.W, h, w)
-	}
-	return s, nil
-}
-
-// hasIDX reports whether dir holds MNIST-named IDX files.
-func hasIDX(dir string) bool {
-	m, _ := filepath.Glob(filepath.Join(dir, "*-idx?-ubyte*"))
-	return len(m) > 0
+	return s, err
 }
 
 // checkClasses requires the data's classes to be the model's, in order.
@@ -148,39 +105,12 @@ func loadModel(path string) (*pipeline.Model, error) {
 	return m, nil
 }
 
-// fileSHA256 returns the hex SHA-256 of a file, identifying the exact model
-// a shard was computed with.
-func fileSHA256(path string) (string, error) {
-	f, err := os.Open(path)
-	if err != nil {
-		return "", err
-	}
-	defer f.Close()
-	h := sha256.New()
-	if _, err := io.Copy(h, f); err != nil {
-		return "", err
-	}
-	return hex.EncodeToString(h.Sum(nil)), nil
-}
-
-// parseShard reads "i/n" with 0 ≤ i < n.
+// parseShard reads --shard i/n (eval.ParseShard) as a usage error.
 func parseShard(s string) (i, n int, err error) {
-	a, b, ok := strings.Cut(s, "/")
-	if ok {
-		i, err = strconv.Atoi(a)
-		if err == nil {
-			n, err = strconv.Atoi(b)
-		}
-	}
-	if !ok || err != nil || n < 1 || i < 0 || i >= n {
-		return 0, 0, usagef("--shard %q; want i/n with n ≥ 1 and i from 0 to n-1 (e.g. 0/4 ... 3/4)", s)
+	if i, n, err = eval.ParseShard(s); err != nil {
+		return 0, 0, usageError{"--shard: " + err.Error()}
 	}
 	return i, n, nil
-}
-
-// shardRange is the contiguous block of items shard i of n covers.
-func shardRange(i, n, total int) (lo, hi int) {
-	return i * total / n, (i + 1) * total / n
 }
 
 // progressFor returns the command's progress bar as an eval.Progress.
@@ -223,12 +153,8 @@ func runEvaluate(g *globals, o evalOptions) error {
 		return evaluateShard(g, o, m, data)
 	}
 	bar := progressFor(g, len(data.Images), "predict")
-	probs, err := eval.Predict(m, data.Images, h, w, eval.RunOptions{Workers: g.workers, Batch: o.batch, Progress: bar})
+	probs, met, err := eval.PredictScore(m, data, eval.RunOptions{Workers: g.workers, Batch: o.batch, Progress: bar})
 	bar.Done()
-	if err != nil {
-		return err
-	}
-	met, err := eval.Score(data.Labels, probs, data.Classes, eval.MetricsConfig{})
 	if err != nil {
 		return err
 	}
@@ -240,18 +166,16 @@ func runEvaluate(g *globals, o evalOptions) error {
 	if err := os.MkdirAll(g.out, 0o755); err != nil {
 		return err
 	}
-	if err := writePredictions(g.out, "", probs, data.Labels); err != nil {
+	if err := eval.WritePredictions(g.out, "", probs, data.Labels); err != nil {
 		return err
 	}
 	rep := newReport(g, "striate evaluation: "+name)
 	rep.Data = []eval.Provenance{provenance(set, 0)}
 	mr := eval.ModelResult{Name: name, Data: data.Name, Metrics: met}
 	if o.speed {
-		sp, err := measureSpeed(g, m, data)
-		if err != nil {
+		if mr.Speed, err = eval.ModelSpeed(m, data.Images[:min(len(data.Images), 2000)], h, w, g.workers); err != nil {
 			return err
 		}
-		mr.Speed = sp
 	}
 	rep.Models = []eval.ModelResult{mr}
 	rep.Config = map[string]pipeline.Config{name: m.Config()}
@@ -262,7 +186,7 @@ func runEvaluate(g *globals, o evalOptions) error {
 		}
 		rep.Robustness = []*eval.Robustness{rb}
 	}
-	if iv, bank, err := invariance(name, m); err == nil {
+	if iv, bank, err := eval.FrontInvariance(name, m); err == nil {
 		rep.Invariance = []eval.InvarianceResult{iv}
 		rep.Banks = []eval.BankPanel{{Name: name, Bank: bank}}
 	} else {
@@ -320,23 +244,6 @@ func printScores(w io.Writer, name string, d *eval.Data, m *eval.Metrics) {
 	tw.Flush()
 }
 
-func measureSpeed(g *globals, m *pipeline.Model, d *eval.Data) (*eval.Speed, error) {
-	h, w := m.InputSize()
-	imgs := d.Images[:min(len(d.Images), 2000)]
-	extract := func(b [][]float32, h, w, workers int) error {
-		_, err := m.ExtractFloats(b, h, w, workers)
-		return err
-	}
-	sp, err := eval.MeasureSpeed(m, extract, imgs, h, w, eval.SpeedConfig{Workers: g.workers})
-	if err != nil {
-		return nil, err
-	}
-	if sp.ModelBytes, err = eval.ModelSize(m.Save); err != nil {
-		return nil, err
-	}
-	return sp, nil
-}
-
 func robustness(g *globals, name string, m eval.Predictor, d *eval.Data, levels map[datasets.PerturbKind][]float64, batch int) (*eval.Robustness, error) {
 	conds, err := eval.StandardConditions(levels)
 	if err != nil {
@@ -347,47 +254,12 @@ func robustness(g *globals, name string, m eval.Predictor, d *eval.Data, levels 
 	return eval.RobustnessSweep(name, m, d, conds, eval.RobustnessConfig{Seed: g.seed, Run: eval.RunOptions{Workers: g.workers, Batch: batch, Progress: bar}})
 }
 
-// invariance probes the model's front end (rebuilt from its configuration)
-// with gratings, and returns its kernels for the mosaic.
-func invariance(name string, m *pipeline.Model) (eval.InvarianceResult, *v1layer.Bank, error) {
-	fe, err := v1layer.New(m.Config().Front)
-	if err != nil {
-		return eval.InvarianceResult{}, nil, err
-	}
-	rows, err := eval.Invariance(fe.Apply, eval.InvarianceConfig{})
-	if err != nil {
-		return eval.InvarianceResult{}, nil, err
-	}
-	return eval.InvarianceResult{Model: name, Channels: fe.Channels(), Rows: rows}, &v1layer.Bank{Kernels: fe.Kernels()}, nil
-}
-
-// writePredictions writes probs (N×K float32) and labels (int32) as
-// predictions<suffix>.npy and labels<suffix>.npy in dir.
-func writePredictions(dir, suffix string, probs [][]float32, labels []int) error {
-	k := 0
-	if len(probs) > 0 {
-		k = len(probs[0])
-	}
-	flat := make([]float32, 0, len(probs)*k)
-	for _, p := range probs {
-		flat = append(flat, p...)
-	}
-	if err := writeFileAtomic(filepath.Join(dir, "predictions"+suffix+".npy"), func(w io.Writer) error {
-		return writeNPYFloat32(w, flat, len(probs), k)
-	}); err != nil {
-		return err
-	}
-	return writeFileAtomic(filepath.Join(dir, "labels"+suffix+".npy"), func(w io.Writer) error {
-		return writeNPYInt32(w, labels)
-	})
-}
-
 func evaluateShard(g *globals, o evalOptions, m *pipeline.Model, d *eval.Data) error {
 	i, n, err := parseShard(o.shard)
 	if err != nil {
 		return err
 	}
-	lo, hi := shardRange(i, n, len(d.Images))
+	lo, hi := eval.ShardRange(i, n, len(d.Images))
 	h, w := m.InputSize()
 	bar := progressFor(g, hi-lo, fmt.Sprintf("predict shard %d/%d", i, n))
 	probs, err := eval.Predict(m, d.Images[lo:hi], h, w, eval.RunOptions{Workers: g.workers, Batch: o.batch, Progress: bar})
@@ -395,19 +267,16 @@ func evaluateShard(g *globals, o evalOptions, m *pipeline.Model, d *eval.Data) e
 	if err != nil {
 		return err
 	}
-	sum, err := fileSHA256(o.model)
+	sum, err := eval.FileSHA256(o.model)
 	if err != nil {
 		return err
 	}
-	meta := shardMeta{Kind: "predictions", Model: o.model, ModelSHA256: sum, Data: d.Name, DataSpec: o.data,
+	meta := eval.ShardMeta{Kind: "predictions", Model: o.model, ModelSHA256: sum, Data: d.Name, DataSpec: o.data,
 		Total: len(d.Images), Shard: i, Shards: n, Lo: lo, Hi: hi, Cols: m.NumClasses(), Classes: d.Classes}
 	if err := os.MkdirAll(g.out, 0o755); err != nil {
 		return err
 	}
-	if err := writePredictions(g.out, shardSuffix(i, n), probs, d.Labels[lo:hi]); err != nil {
-		return err
-	}
-	if err := writeShardMeta(g.out, meta); err != nil {
+	if err := eval.WriteShard(g.out, meta, eval.Flatten(probs), d.Labels[lo:hi]); err != nil {
 		return err
 	}
 	fmt.Fprintf(g.stdout, "shard %d/%d: images %d to %d of %d predicted into %s\n", i, n, lo, hi-1, len(d.Images), g.out)
@@ -415,28 +284,24 @@ func evaluateShard(g *globals, o evalOptions, m *pipeline.Model, d *eval.Data) e
 }
 
 func mergeEvaluate(g *globals) error {
-	metas, probs, labels, err := mergeShards(g.out, "predictions")
+	mg, err := eval.MergeShards(g.out, "predictions")
 	if err != nil {
 		return err
 	}
-	k := metas[0].Cols
-	rows := make([][]float32, len(labels))
-	for r := range rows {
-		rows[r] = probs[r*k : (r+1)*k]
-	}
-	met, err := eval.Score(labels, rows, metas[0].Classes, eval.MetricsConfig{})
+	meta, rows, labels := mg.Meta, mg.Rows(), mg.Labels
+	met, err := eval.Score(labels, rows, meta.Classes, eval.MetricsConfig{})
 	if err != nil {
 		return err
 	}
-	name := modelName(metas[0].Model)
-	d := &eval.Data{Name: metas[0].Data, Classes: metas[0].Classes}
+	name := modelName(meta.Model)
+	d := &eval.Data{Name: meta.Data, Classes: meta.Classes}
 	printScores(g.stdout, name, d, met)
-	if err := writePredictions(g.out, "", rows, labels); err != nil {
+	if err := eval.WritePredictions(g.out, "", rows, labels); err != nil {
 		return err
 	}
 	rep := newReport(g, "striate evaluation: "+name)
-	rep.Data = []eval.Provenance{{Name: d.Name, Source: metas[0].DataSpec, Test: len(labels), Classes: d.Classes,
-		Note: fmt.Sprintf("merged from %d shards", len(metas))}}
+	rep.Data = []eval.Provenance{{Name: d.Name, Source: meta.DataSpec, Test: len(labels), Classes: d.Classes,
+		Note: fmt.Sprintf("merged from %d shards", mg.Shards)}}
 	rep.Models = []eval.ModelResult{{Name: name, Data: d.Name, Metrics: met}}
 	return writeReport(g, rep)
 }

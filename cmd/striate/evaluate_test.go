@@ -219,11 +219,11 @@ func TestCLIEvaluateReport(t *testing.T) {
 		t.Errorf("report lacks the robustness sweep over six kinds or the invariance probe")
 	}
 	// The predictions file agrees with the scores.
-	p, err := readNPY(filepath.Join(out, "predictions.npy"))
+	p, err := datasets.ReadNPYFile(filepath.Join(out, "predictions.npy"))
 	if err != nil {
 		t.Fatal(err)
 	}
-	l, err := readNPY(filepath.Join(out, "labels.npy"))
+	l, err := datasets.ReadNPYFile(filepath.Join(out, "labels.npy"))
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -300,7 +300,7 @@ func TestCLIExtractShardsMerge(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	feat, err := readNPY(filepath.Join(whole, "features.npy"))
+	feat, err := datasets.ReadNPYFile(filepath.Join(whole, "features.npy"))
 	if err != nil {
 		t.Fatal(err)
 	}

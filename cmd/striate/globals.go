@@ -2,11 +2,13 @@ package main
 
 import (
 	"flag"
+	"fmt"
 	"io"
 	"os"
 	"runtime"
 
 	"github.com/schollz/progressbar/v3"
+	"github.com/striate/striate/eval"
 	"golang.org/x/term"
 )
 
@@ -86,6 +88,16 @@ func (p *progress) Done() {
 		_ = p.bar.Finish()
 	}
 }
+
+// jobMonitor shows a library job's steps as progress bars and its result
+// lines on stdout.
+type jobMonitor struct{ g *globals }
+
+func (m jobMonitor) Start(total int, what string) eval.JobProgress {
+	return m.g.newProgress(total, what)
+}
+
+func (m jobMonitor) Logf(format string, a ...any) { fmt.Fprintf(m.g.stdout, format+"\n", a...) }
 
 func isTerminal(w io.Writer) bool {
 	f, ok := w.(*os.File)

@@ -10,6 +10,7 @@ import (
 
 	"github.com/striate/striate/datasets"
 	"github.com/striate/striate/eval"
+	"github.com/striate/striate/internal/safefile"
 	"github.com/striate/striate/learn"
 	"github.com/striate/striate/pipeline"
 )
@@ -116,7 +117,7 @@ func runLearn(g *globals, a learnArgs) error {
 		fmt.Fprintf(g.stderr, "striate learn: no histograms: %v\n", err)
 	}
 	for name, b := range files {
-		if err := os.WriteFile(filepath.Join(g.out, name), b, 0o644); err != nil {
+		if err := safefile.WriteBytes(filepath.Join(g.out, name), b); err != nil {
 			return err
 		}
 	}

@@ -3,13 +3,7 @@ package main
 import (
 	"flag"
 	"fmt"
-	"image"
-	"io/fs"
-	"os"
-	"path/filepath"
-	"slices"
 	"sort"
-	"strings"
 
 	"github.com/striate/striate/datasets"
 	"github.com/striate/striate/eval"
@@ -42,42 +36,6 @@ Output: one line per image, tab-separated: path, class, probability
 	})
 }
 
-// imageFiles expands args into image files: files as given, folders walked
-// recursively for the extensions datasets.FolderExtensions lists, in sorted
-// order.
-func imageFiles(args []string) ([]string, error) {
-	var out []string
-	for _, a := range args {
-		st, err := os.Stat(a)
-		if err != nil {
-			return nil, err
-		}
-		if !st.IsDir() {
-			out = append(out, a)
-			continue
-		}
-		var found []string
-		err = filepath.WalkDir(a, func(p string, d fs.DirEntry, err error) error {
-			if err != nil {
-				return err
-			}
-			if !d.IsDir() && slices.Contains(datasets.FolderExtensions, strings.ToLower(filepath.Ext(p))) {
-				found = append(found, p)
-			}
-			return nil
-		})
-		if err != nil {
-			return nil, err
-		}
-		if len(found) == 0 {
-			return nil, fmt.Errorf("folder %s holds no images (%s)", a, strings.Join(datasets.FolderExtensions, " "))
-		}
-		sort.Strings(found)
-		out = append(out, found...)
-	}
-	return out, nil
-}
-
 func runPredict(g *globals, modelPath string, top, batch int, args []string) error {
 	m, err := loadModel(modelPath)
 	if err != nil {
@@ -89,7 +47,7 @@ func runPredict(g *globals, modelPath string, top, batch int, args []string) err
 	if batch < 1 {
 		return usagef("--batch %d; want at least 1", batch)
 	}
-	files, err := imageFiles(args)
+	files, err := datasets.ListImages(args...)
 	if err != nil {
 		return err
 	}
@@ -103,9 +61,12 @@ func runPredict(g *globals, modelPath string, top, batch int, args []string) err
 		var imgs [][]float32
 		var names []string
 		for _, p := range files[lo:hi] {
-			img, err := decodeImage(p)
+			// The guarded decoder refuses empty images and declared sizes
+			// above datasets.MaxImagePixels; such a file is reported and
+			// skipped, and the others are still predicted.
+			img, err := datasets.DecodeImageFile(p)
 			if err != nil {
-				fmt.Fprintf(g.stderr, "striate predict: %s: %v\n", p, err)
+				fmt.Fprintf(g.stderr, "striate predict: skipped: %v\n", err)
 				failed++
 				continue
 			}
@@ -134,17 +95,4 @@ func runPredict(g *globals, modelPath string, top, batch int, args []string) err
 		return fmt.Errorf("%d of %d files could not be read as images", failed, len(files))
 	}
 	return nil
-}
-
-func decodeImage(path string) (image.Image, error) {
-	f, err := os.Open(path)
-	if err != nil {
-		return nil, err
-	}
-	defer f.Close()
-	img, _, err := image.Decode(f)
-	if err != nil {
-		return nil, fmt.Errorf("not a readable image (%v)", err)
-	}
-	return img, nil
 }

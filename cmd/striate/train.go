@@ -7,6 +7,7 @@ import (
 	"time"
 
 	"github.com/striate/striate/datasets"
+	"github.com/striate/striate/internal/safefile"
 	"github.com/striate/striate/pipeline"
 )
 
@@ -52,16 +53,6 @@ func init() {
 	})
 }
 
-// trainSpecs turns --data into the specs loadSpec reads for the training
-// split and, when there is one, the test split: mnist, fashion and IDX
-// folders have both; a folder of class subfolders is training data only.
-func trainSpecs(data string) (train, test string) {
-	if data == "mnist" || data == "fashion" || hasIDX(data) {
-		return data + ":train", data + ":test"
-	}
-	return data, ""
-}
-
 // autoPreset is the preset --preset auto picks for --data.
 func autoPreset(data string) string {
 	switch data {
@@ -88,14 +79,24 @@ func runTrain(g *globals, data string, perClass int, preset string, mirror bool)
 	}
 	cfg.Seed = g.seed
 	cfg.Mirror = cfg.Mirror || mirror
-	trainSpec, testSpec := trainSpecs(data)
+	trainSpec, testSpec := datasets.SpecSplits(data)
 	in := cfg.Input
 	if in.Height == 0 || in.Width == 0 {
 		in = pipeline.DefaultConfig().Input
 	}
+	// Check the output and both splits before the long work starts.
+	if err := safefile.CheckDir(g.out); err != nil {
+		return err
+	}
 	train, err := loadSpec(trainSpec, in.Height, in.Width, g.stderr)
 	if err != nil {
 		return err
+	}
+	var test *datasets.Set
+	if testSpec != "" {
+		if test, err = loadSpec(testSpec, in.Height, in.Width, g.stderr); err != nil {
+			return err
+		}
 	}
 	opts := pipeline.FitOptions{Workers: g.workers}
 	if perClass > 0 {
@@ -110,7 +111,7 @@ func runTrain(g *globals, data string, perClass int, preset string, mirror bool)
 	if err != nil {
 		return err
 	}
-	if err := m.SaveFile(g.out); err != nil {
+	if err := safefile.Write(g.out, m.Save); err != nil {
 		return err
 	}
 	fmt.Fprintf(g.stdout, "trained on %d images of %s (%d features) in %v: unsupervised %v, features %v, head %v (%d epochs)\n",
@@ -125,10 +126,6 @@ func runTrain(g *globals, data string, perClass int, preset string, mirror bool)
 	if testSpec == "" {
 		fmt.Fprintf(g.stdout, "no test split in %s to score on (score with: striate evaluate --model %s --data FOLDER)\n", data, g.out)
 		return nil
-	}
-	test, err := loadSpec(testSpec, in.Height, in.Width, g.stderr)
-	if err != nil {
-		return err
 	}
 	bar = g.newProgress(test.N, "test")
 	acc, err := pipeline.Accuracy(m, test, nil, g.workers, bar)

@@ -1,17 +1,54 @@
-package main
+package eval
 
 import (
 	"fmt"
-	"os"
-	"strings"
 	"time"
 
 	"github.com/striate/striate/datasets"
-	"github.com/striate/striate/eval"
 	"github.com/striate/striate/learn"
 	"github.com/striate/striate/pipeline"
 	"github.com/striate/striate/v1layer"
 )
+
+// MainJobData holds the four splits the main job uses: the published
+// training and test splits of Fashion-MNIST and MNIST.
+type MainJobData struct {
+	FashionTrain, FashionTest, MNISTTrain, MNISTTest *datasets.Set
+}
+
+// MainJobConfig configures MainJob. The zero value runs the full job with
+// seed 0, the presets and one worker.
+type MainJobConfig struct {
+	// Quick runs small subsets (300 labelled images per class, the first
+	// 2,000 test images, smaller unsupervised budgets): figures are
+	// indicative only.
+	Quick bool
+	// Config, when not nil, is trained on both datasets in place of the
+	// presets (digits for MNIST, garments for Fashion-MNIST) with
+	// MainJobHead.
+	Config *pipeline.Config
+	// Seed seeds every fit, subset and sweep.
+	Seed uint64
+	// Workers is the number of goroutines for batch work, passed to every fit,
+	// prediction and sweep.
+	Workers int
+	// Command is recorded in the report (the command line that ran it).
+	Command string
+}
+
+// JobProgress is the progress of one step of a long job; Done ends it.
+type JobProgress interface {
+	Progress
+	Done()
+}
+
+// JobMonitor receives a long job's progress and results, for the caller to
+// show (a library never prints): Start begins a step of total units (0 when
+// not known in advance), Logf is one line of result text without a newline.
+type JobMonitor interface {
+	Start(total int, what string) JobProgress
+	Logf(format string, a ...any)
+}
 
 // jobSizes sets how much work the main job does. The full job must stay
 // within about 15 minutes on two cores and the quick one within about two.
@@ -29,10 +66,10 @@ type jobSizes struct {
 	bankAtoms     int // atoms of the learned bank; 0 = default (fewer atoms, fewer channels for the templates)
 }
 
-// demoLevels are the robustness levels of the full job: the conditions the
-// accuracy targets name, fewer in-between levels than eval.StandardLevels so
+// mainJobLevels are the robustness levels of the full job: the conditions the
+// accuracy targets name, fewer in-between levels than StandardLevels so
 // that four models are swept within the time budget.
-var demoLevels = map[datasets.PerturbKind][]float64{
+var mainJobLevels = map[datasets.PerturbKind][]float64{
 	datasets.Noise:    {0, 0.1, 0.3, 0.5},
 	datasets.Blur:     {0, 1, 2},
 	datasets.Contrast: {0.25, 0.5, 1},
@@ -44,10 +81,10 @@ var demoLevels = map[datasets.PerturbKind][]float64{
 func sizesFor(quick bool) jobSizes {
 	if quick {
 		return jobSizes{trainPerClass: 300, test: 2000, sweepTest: 1000, labelBudgets: []int{10, 100},
-			levels: eval.QuickLevels, speedImages: 500, headMinSteps: 600, unlabeled: 3000, bankPatches: 6000, bankEpochs: 4, bankAtoms: 12}
+			levels: QuickLevels, speedImages: 500, headMinSteps: 600, unlabeled: 3000, bankPatches: 6000, bankEpochs: 4, bankAtoms: 12}
 	}
 	return jobSizes{trainPerClass: 0, test: 0, sweepTest: 5000, labelBudgets: []int{10, 100, 1000},
-		levels: demoLevels, speedImages: 2000}
+		levels: mainJobLevels, speedImages: 2000}
 }
 
 // shrink applies the quick job's smaller budgets to c.
@@ -79,11 +116,11 @@ type modelSpec struct {
 	cfg        pipeline.Config
 }
 
-// demoHead is the head of the main job's pipelines: the default MLP with 128
+// MainJobHead is the head of the main job's pipelines: the default MLP with 128
 // hidden units and 8 epochs instead of 512 and 15, which trains about six
 // times faster and costs a few tenths of a point; the accuracy runs of the
 // pipeline package (and "striate train") use the full default.
-var demoHead = learn.HeadConfig{Kind: learn.KindMLP, Hidden: 128, Epochs: 8, Schedule: learn.ScheduleCosine, ValFrac: -1}
+var MainJobHead = learn.HeadConfig{Kind: learn.KindMLP, Hidden: 128, Epochs: 8, Schedule: learn.ScheduleCosine, ValFrac: -1}
 
 // mainJobSpecs returns the hand-set and the learned pipeline built on base
 // (the demo's own defaults unless --config names a file). The learned one
@@ -106,37 +143,39 @@ func mainJobSpecs(base pipeline.Config, seed uint64) []modelSpec {
 
 // demoConfig is the pipeline the main job trains on one dataset: the
 // preset for its images (garments for Fashion-MNIST, digits for MNIST) with
-// demoHead, or the file named by --config for both.
-func demoConfig(path, preset string) (pipeline.Config, error) {
-	if path != "" {
-		return pipeline.LoadConfig(path)
+// MainJobHead, or c for both when it is not nil.
+func demoConfig(c *pipeline.Config, preset string) (pipeline.Config, error) {
+	if c != nil {
+		return *c, nil
 	}
-	c, err := pipeline.Preset(preset)
-	c.Head = demoHead
-	if c.Mirror {
+	p, err := pipeline.Preset(preset)
+	p.Head = MainJobHead
+	if p.Mirror {
 		// Mirror doubles the training rows: half the epochs keep the
 		// number of head steps, and so the demo's time, as without it.
-		c.Head.Epochs = max(1, demoHead.Epochs/2)
+		p.Head.Epochs = max(1, MainJobHead.Epochs/2)
 	}
-	return c, err
+	return p, err
 }
 
-// runMainJob learns a bank, trains the hand-set and learned pipelines on
+// MainJob is the job "striate demo" runs: it learns a bank, trains the hand-set and learned pipelines on
 // Fashion-MNIST (the garment-sorting station) and MNIST, compares them, runs
-// the robustness and label-efficiency sweeps and writes the report.
-func runMainJob(g *globals, d *demoData, quick bool) error {
+// the robustness and label-efficiency sweeps and returns the report (which
+// the caller writes with WriteReport). Progress and one-line results go to
+// mon. The full job takes about 15 minutes on two cores, the quick one
+// (cfg.Quick) about two.
+func MainJob(d *MainJobData, cfg MainJobConfig, mon JobMonitor) (*Report, error) {
 	start := time.Now()
-	sz := sizesFor(quick)
-	w := g.stdout
-	rep := &eval.Report{
+	sz := sizesFor(cfg.Quick)
+	rep := &Report{
 		Title: "striate: hand-set and learned V1-like front ends",
 		Summary: "A garment-sorting station at a second-hand clothing depot sorts items by type on a small CPU board. " +
 			"This report trains two recognizers that differ only in their simple-cell bank (hand-set Gabor filters, or " +
 			"filters learned by sparse coding of whitened natural-photo patches) on Fashion-MNIST (the garments) and " +
 			"MNIST, and evaluates them on the published test splits.",
-		Command: "striate " + strings.Join(os.Args[1:], " "),
+		Command: cfg.Command,
 	}
-	if quick {
+	if cfg.Quick {
 		rep.Notes = append(rep.Notes, fmt.Sprintf("Quick run: %d labelled training images per class and the first %d test images; "+
 			"figures are indicative only. Run without --quick for the full result.", sz.trainPerClass, sz.test))
 	}
@@ -144,16 +183,16 @@ func runMainJob(g *globals, d *demoData, quick bool) error {
 	var specs [2][]modelSpec
 	configs := map[string]pipeline.Config{}
 	for k, ds := range []struct{ name, preset string }{{"Fashion-MNIST", "garments"}, {"MNIST", "digits"}} {
-		base, err := demoConfig(g.config, ds.preset)
+		base, err := demoConfig(cfg.Config, ds.preset)
 		if err != nil {
-			return err
+			return nil, err
 		}
-		specs[k] = mainJobSpecs(base, g.seed)
+		specs[k] = mainJobSpecs(base, cfg.Seed)
 		for i := range specs[k] {
 			sz.shrink(&specs[k][i].cfg)
 			configs[specs[k][i].name+" on "+ds.name] = specs[k][i].cfg
 		}
-		if g.config == "" {
+		if cfg.Config == nil {
 			rep.Notes = append(rep.Notes, fmt.Sprintf("On %s both pipelines use the %q preset (%s).", ds.name, ds.preset, pipeline.PresetAbout(ds.preset)))
 		}
 	}
@@ -162,110 +201,98 @@ func runMainJob(g *globals, d *demoData, quick bool) error {
 	type dataPair struct {
 		train, test *datasets.Set
 	}
-	sets := []dataPair{{d.fashionTrain, d.fashionTest}, {d.mnistTrain, d.mnistTest}}
+	sets := []dataPair{{d.FashionTrain, d.FashionTest}, {d.MNISTTrain, d.MNISTTest}}
 	var mnistModels = map[string]*pipeline.Model{}
 	var banksDrawn bool
 	for k, dp := range sets {
 		specs := specs[k]
 		train := dp.train
 		if sz.trainPerClass > 0 {
-			train = train.Subset(datasets.PerClass(train.Labels, sz.trainPerClass, g.seed))
+			train = train.Subset(datasets.PerClass(train.Labels, sz.trainPerClass, cfg.Seed))
 		}
 		test := firstN(dp.test, sz.test)
-		td := eval.FromSet(test)
-		rep.Data = append(rep.Data, eval.Provenance{Name: dp.test.Name, Source: dp.test.Source, Train: train.N, Test: test.N,
+		td := FromSet(test)
+		rep.Data = append(rep.Data, Provenance{Name: dp.test.Name, Source: dp.test.Source, Train: train.N, Test: test.N,
 			H: test.H, W: test.W, Classes: test.Classes})
 		preds := map[string][]int{}
 		for _, s := range specs {
-			fmt.Fprintf(w, "training %s on %s (%d images)\n", s.name, train.Name, train.N)
-			bar := g.newProgress(train.N, s.name)
+			mon.Logf("training %s on %s (%d images)", s.name, train.Name, train.N)
+			bar := mon.Start(train.N, s.name)
 			t0 := time.Now()
-			m, frep, err := pipeline.FitReported(s.cfg, train, pipeline.FitOptions{Workers: g.workers, Progress: bar})
+			m, frep, err := pipeline.FitReported(s.cfg, train, pipeline.FitOptions{Workers: cfg.Workers, Progress: bar})
 			bar.Done()
 			if err != nil {
-				return fmt.Errorf("training %s on %s: %w", s.name, train.Name, err)
+				return nil, fmt.Errorf("training %s on %s: %w", s.name, train.Name, err)
 			}
 			secs := time.Since(t0).Seconds()
 			if !banksDrawn && frep.Bank != nil {
 				if err := addBankFigures(rep, m, frep); err != nil {
-					return err
+					return nil, err
 				}
 				banksDrawn = true
 			}
-			bar = g.newProgress(len(td.Images), "test "+s.name)
-			probs, err := eval.Predict(m, td.Images, td.H, td.W, eval.RunOptions{Workers: g.workers, Progress: bar})
+			bar = mon.Start(len(td.Images), "test "+s.name)
+			probs, met, err := PredictScore(m, td, RunOptions{Workers: cfg.Workers, Progress: bar})
 			bar.Done()
 			if err != nil {
-				return err
+				return nil, err
 			}
-			met, err := eval.Score(td.Labels, probs, td.Classes, eval.MetricsConfig{})
-			if err != nil {
-				return err
-			}
-			preds[s.name] = eval.Classify(probs)
-			mr := eval.ModelResult{Name: s.name, Data: dp.test.Name, Description: s.desc, TrainSeconds: secs, Metrics: met}
+			preds[s.name] = Classify(probs)
+			mr := ModelResult{Name: s.name, Data: dp.test.Name, Description: s.desc, TrainSeconds: secs, Metrics: met}
 			n := min(sz.speedImages, len(td.Images))
-			sp, err := eval.MeasureSpeed(m, func(imgs [][]float32, h, w, workers int) error {
-				_, err := m.ExtractFloats(imgs, h, w, workers)
-				return err
-			}, td.Images[:n], td.H, td.W, eval.SpeedConfig{Workers: g.workers})
-			if err != nil {
-				return err
+			if mr.Speed, err = ModelSpeed(m, td.Images[:n], td.H, td.W, cfg.Workers); err != nil {
+				return nil, err
 			}
-			if sp.ModelBytes, err = eval.ModelSize(m.Save); err != nil {
-				return err
-			}
-			mr.Speed = sp
 			rep.Models = append(rep.Models, mr)
-			fmt.Fprintf(w, "  %s on %s: accuracy %.2f%% [%.2f, %.2f] (trained in %.0f s)\n", s.name, test.Name,
+			mon.Logf("  %s on %s: accuracy %.2f%% [%.2f, %.2f] (trained in %.0f s)", s.name, test.Name,
 				100*met.Accuracy, 100*met.CI.Lo, 100*met.CI.Hi, secs)
 
-			bar = g.newProgress(0, "robustness "+s.name)
-			conds, err := eval.StandardConditions(sz.levels)
+			bar = mon.Start(0, "robustness "+s.name)
+			conds, err := StandardConditions(sz.levels)
 			if err != nil {
-				return err
+				return nil, err
 			}
-			rob, err := eval.RobustnessSweep(s.name, m, firstData(td, sz.sweepTest), conds, eval.RobustnessConfig{Seed: g.seed,
-				Run: eval.RunOptions{Workers: g.workers, Progress: bar}})
+			rob, err := RobustnessSweep(s.name, m, firstData(td, sz.sweepTest), conds, RobustnessConfig{Seed: cfg.Seed,
+				Run: RunOptions{Workers: cfg.Workers, Progress: bar}})
 			bar.Done()
 			if err != nil {
-				return err
+				return nil, err
 			}
 			rob.Data = dp.test.Name
 			rep.Robustness = append(rep.Robustness, rob)
-			if dp.train == d.mnistTrain {
+			if dp.train == d.MNISTTrain {
 				mnistModels[s.name] = m
 			}
 		}
-		cmp, err := eval.Compare(specs[0].name, specs[1].name, td.Labels, preds[specs[0].name], preds[specs[1].name],
-			eval.CompareConfig{Seed: g.seed})
+		cmp, err := Compare(specs[0].name, specs[1].name, td.Labels, preds[specs[0].name], preds[specs[1].name],
+			CompareConfig{Seed: cfg.Seed})
 		if err != nil {
-			return err
+			return nil, err
 		}
 		rep.Comparisons = append(rep.Comparisons, cmp)
-		fmt.Fprintf(w, "  %s vs %s on %s: difference %+.2f points [%+.2f, %+.2f], exact McNemar p = %.3g\n",
+		mon.Logf("  %s vs %s on %s: difference %+.2f points [%+.2f, %+.2f], exact McNemar p = %.3g",
 			cmp.NameA, cmp.NameB, test.Name, 100*cmp.Diff, 100*cmp.DiffCI.Lo, 100*cmp.DiffCI.Hi, cmp.PValue)
 	}
 
 	// Label efficiency on MNIST: the unsupervised stages see the whole
 	// training split without labels; the head sees only the budget.
-	mt := firstN(d.mnistTest, sz.test)
-	mtd := eval.FromSet(mt)
+	mt := firstN(d.MNISTTest, sz.test)
+	mtd := FromSet(mt)
 	hand := specs[1][0] // hand-set on MNIST
-	fmt.Fprintf(w, "label efficiency of %s on MNIST: %v labels per class\n", hand.name, sz.labelBudgets)
-	bar := g.newProgress(len(sz.labelBudgets), "label efficiency")
-	curve, err := eval.LabelEfficiency(hand.name, func(idx []int) (eval.Predictor, error) {
-		return pipeline.Fit(hand.cfg, d.mnistTrain.Subset(idx), pipeline.FitOptions{Workers: g.workers, Unlabeled: d.mnistTrain})
-	}, d.mnistTrain.Labels, mtd, eval.LabelConfig{PerClass: sz.labelBudgets, Seed: g.seed,
-		Run: eval.RunOptions{Workers: g.workers, Progress: bar}})
+	mon.Logf("label efficiency of %s on MNIST: %v labels per class", hand.name, sz.labelBudgets)
+	bar := mon.Start(len(sz.labelBudgets), "label efficiency")
+	curve, err := LabelEfficiency(hand.name, func(idx []int) (Predictor, error) {
+		return pipeline.Fit(hand.cfg, d.MNISTTrain.Subset(idx), pipeline.FitOptions{Workers: cfg.Workers, Unlabeled: d.MNISTTrain})
+	}, d.MNISTTrain.Labels, mtd, LabelConfig{PerClass: sz.labelBudgets, Seed: cfg.Seed,
+		Run: RunOptions{Workers: cfg.Workers, Progress: bar}})
 	bar.Done()
 	if err != nil {
-		return err
+		return nil, err
 	}
 	curve.Data = mt.Name
 	rep.Labels = append(rep.Labels, curve)
 	for _, p := range curve.Points {
-		fmt.Fprintf(w, "  %4d labels per class: %.2f%%\n", p.PerClass, 100*p.Accuracy)
+		mon.Logf("  %4d labels per class: %.2f%%", p.PerClass, 100*p.Accuracy)
 	}
 
 	// The front end's invariance: grating probe of each pipeline's front end.
@@ -274,36 +301,27 @@ func runMainJob(g *globals, d *demoData, quick bool) error {
 		if m == nil {
 			continue
 		}
-		fe, err := v1layer.New(m.Config().Front)
+		iv, _, err := FrontInvariance(s.name, m)
 		if err != nil {
-			return err
+			return nil, err
 		}
-		rows, err := eval.Invariance(fe.Apply, eval.InvarianceConfig{})
-		if err != nil {
-			return err
-		}
-		rep.Invariance = append(rep.Invariance, eval.InvarianceResult{Model: s.name, Channels: fe.Channels(), Rows: rows})
+		rep.Invariance = append(rep.Invariance, iv)
 	}
 
-	rep.Notes = append(rep.Notes, fmt.Sprintf("The whole job took %s with %d workers.", time.Since(start).Round(time.Second), g.workers))
-	files, err := eval.WriteReport(g.out, rep)
-	if err != nil {
-		return err
-	}
-	fmt.Fprintf(w, "report written to %s (%d files) in %s\n", g.out, len(files), time.Since(start).Round(time.Second))
-	return nil
+	rep.Notes = append(rep.Notes, fmt.Sprintf("The whole job took %s with %d workers.", time.Since(start).Round(time.Second), cfg.Workers))
+	return rep, nil
 }
 
 // addBankFigures puts the hand-set and the learned bank side by side in the
 // report, with the learned atoms' Gabor-fit statistics and histograms.
-func addBankFigures(rep *eval.Report, learned *pipeline.Model, frep pipeline.FitReport) error {
+func addBankFigures(rep *Report, learned *pipeline.Model, frep pipeline.FitReport) error {
 	hb, err := v1layer.GaborBank(v1layer.GaborConfig{})
 	if err != nil {
 		return err
 	}
 	rep.Banks = append(rep.Banks,
-		eval.BankPanel{Name: "hand-set", Bank: hb},
-		eval.BankPanel{Name: "learned", Bank: learned.Config().Front.Bank, Report: frep.Bank})
+		BankPanel{Name: "hand-set", Bank: hb},
+		BankPanel{Name: "learned", Bank: learned.Config().Front.Bank, Report: frep.Bank})
 	return nil
 }
 
@@ -321,7 +339,7 @@ func firstN(s *datasets.Set, n int) *datasets.Set {
 }
 
 // firstData returns the first n images of d (all when n is 0 or ≥ len).
-func firstData(d *eval.Data, n int) *eval.Data {
+func firstData(d *Data, n int) *Data {
 	if n <= 0 || n >= len(d.Images) {
 		return d
 	}

@@ -1,0 +1,137 @@
+package eval
+
+import (
+	"bytes"
+	"os"
+	"path/filepath"
+	"strings"
+	"testing"
+)
+
+// shardData is a deterministic N×cols array and N labels standing for a
+// run's features: row r, column c holds (r·cols + c)/7 − 3, not exactly
+// representable, so any reordering or rounding shows in the bytes.
+func shardData(n, cols int) ([]float32, []int) {
+	flat := make([]float32, n*cols)
+	for i := range flat {
+		flat[i] = float32(i)/7 - 3
+	}
+	labels := make([]int, n)
+	for i := range labels {
+		labels[i] = (i * 5) % 3
+	}
+	return flat, labels
+}
+
+// writeShards writes the n shards of flat/labels into dir in the given order.
+func writeShards(t *testing.T, dir string, order []int, n int, flat []float32, cols int, labels []int) {
+	t.Helper()
+	for _, i := range order {
+		lo, hi := ShardRange(i, n, len(labels))
+		m := ShardMeta{Kind: "features", Model: "m.stm", ModelSHA256: "ab12", Data: "depot-test", Total: len(labels),
+			Shard: i, Shards: n, Lo: lo, Hi: hi, Cols: cols, Classes: []string{"coat", "shirt", "bag"}}
+		if err := WriteShard(dir, m, flat[lo*cols:hi*cols], labels[lo:hi]); err != nil {
+			t.Fatal(err)
+		}
+	}
+}
+
+// TestMergeEqualsSingleRun: for several shard counts (including more shards
+// than images, so some are empty) and any writing order, the merged arrays
+// written out are byte for byte the files of one unsharded run.
+func TestMergeEqualsSingleRun(t *testing.T) {
+	const cols = 6
+	for _, c := range []struct{ rows, n int }{{17, 1}, {17, 3}, {17, 4}, {5, 7}, {0, 2}} {
+		flat, labels := shardData(c.rows, cols)
+		whole := t.TempDir()
+		if err := WriteArrays(whole, "features", "", flat, cols, labels); err != nil {
+			t.Fatal(err)
+		}
+		sh := t.TempDir()
+		order := make([]int, c.n)
+		for i := range order {
+			order[i] = c.n - 1 - i // last shard first
+		}
+		writeShards(t, sh, order, c.n, flat, cols, labels)
+		m, err := MergeShards(sh, "features")
+		if err != nil {
+			t.Fatalf("%d rows in %d shards: %v", c.rows, c.n, err)
+		}
+		if m.Shards != c.n || m.Meta.Shards != 1 || m.Meta.Lo != 0 || m.Meta.Hi != c.rows || len(m.Rows()) != c.rows {
+			t.Errorf("merged meta %+v of %d shards", m.Meta, m.Shards)
+		}
+		merged := t.TempDir()
+		if err := WriteArrays(merged, "features", "", m.Flat, m.Meta.Cols, m.Labels); err != nil {
+			t.Fatal(err)
+		}
+		for _, f := range []string{"features.npy", "labels.npy"} {
+			a, _ := os.ReadFile(filepath.Join(whole, f))
+			b, _ := os.ReadFile(filepath.Join(merged, f))
+			if len(a) == 0 || !bytes.Equal(a, b) {
+				t.Errorf("%d rows in %d shards: merged %s (%d bytes) differs from the single run's (%d bytes)", c.rows, c.n, f, len(b), len(a))
+			}
+		}
+	}
+}
+
+// TestShardRangeTiles: the ranges of shards 0..n-1 tile [0, total) in order
+// and differ in size by at most one.
+func TestShardRangeTiles(t *testing.T) {
+	for _, total := range []int{0, 1, 9, 10000} {
+		for _, n := range []int{1, 2, 3, 7, 64} {
+			next, small, big := 0, total, 0
+			for i := range n {
+				lo, hi := ShardRange(i, n, total)
+				if lo != next || hi < lo {
+					t.Fatalf("total %d, shard %d/%d: [%d, %d) after %d", total, i, n, lo, hi, next)
+				}
+				next, small, big = hi, min(small, hi-lo), max(big, hi-lo)
+			}
+			if next != total || big-small > 1 {
+				t.Errorf("total %d in %d shards: end %d, sizes %d..%d", total, n, next, small, big)
+			}
+		}
+	}
+}
+
+// TestMergeRefusesBadSets: a missing shard, a shard of another model and a
+// damaged array are each refused with a message saying what is wrong.
+func TestMergeRefusesBadSets(t *testing.T) {
+	const cols = 3
+	flat, labels := shardData(10, cols)
+	if _, err := MergeShards(t.TempDir(), "features"); err == nil || !strings.Contains(err.Error(), "no features shards") {
+		t.Errorf("empty folder: %v", err)
+	}
+	partial := t.TempDir()
+	writeShards(t, partial, []int{0, 2}, 3, flat, cols, labels)
+	if _, err := MergeShards(partial, "features"); err == nil || !strings.Contains(err.Error(), "found 2 of 3 shards (have 0, 2)") {
+		t.Errorf("missing shard: %v", err)
+	}
+	mixed := t.TempDir()
+	writeShards(t, mixed, []int{0, 1}, 2, flat, cols, labels)
+	lo, hi := ShardRange(1, 2, 10)
+	other := ShardMeta{Kind: "features", ModelSHA256: "ffff", Data: "depot-test", Total: 10, Shard: 1, Shards: 2, Lo: lo, Hi: hi, Cols: cols,
+		Classes: []string{"coat", "shirt", "bag"}}
+	if err := WriteShard(mixed, other, flat[lo*cols:hi*cols], labels[lo:hi]); err != nil {
+		t.Fatal(err)
+	}
+	if _, err := MergeShards(mixed, "features"); err == nil || !strings.Contains(err.Error(), "does not belong") {
+		t.Errorf("shard of another model: %v", err)
+	}
+	torn := t.TempDir()
+	writeShards(t, torn, []int{0, 1}, 2, flat, cols, labels)
+	p := filepath.Join(torn, "features"+ShardSuffix(1, 2)+".npy")
+	b, _ := os.ReadFile(p)
+	os.WriteFile(p, b[:len(b)-4], 0o644)
+	if _, err := MergeShards(torn, "features"); err == nil || !strings.Contains(err.Error(), "NPY") {
+		t.Errorf("truncated shard array: %v", err)
+	}
+	for _, s := range []string{"3/3", "-1/2", "1", "a/b", "0/0"} {
+		if _, _, err := ParseShard(s); err == nil {
+			t.Errorf("ParseShard(%q) accepted", s)
+		}
+	}
+	if i, n, err := ParseShard("2/5"); err != nil || i != 2 || n != 5 {
+		t.Errorf("ParseShard(2/5) = %d, %d, %v", i, n, err)
+	}
+}

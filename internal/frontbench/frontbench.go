@@ -1,0 +1,143 @@
+// Package frontbench times striate's front end on the reference work of
+// internal/benchwork, for `striate bench`. It is apart from benchwork
+// because v1layer's own benchmarks read benchwork's images, so benchwork
+// cannot import v1layer.
+package frontbench
+
+import (
+	"fmt"
+	"math"
+	"strings"
+	"time"
+
+	"github.com/striate/striate/internal/benchwork"
+	"github.com/striate/striate/v1layer"
+)
+
+// Row is one line of the benchmark table: striate's throughput on one
+// stage, size and thread count beside the fastest general-purpose peer's.
+type Row struct {
+	Stage    string  // what was timed
+	Size     string  // input size, e.g. "28×28"
+	Threads  int     // goroutines used
+	Striate  float64 // striate's throughput
+	Unit     string  // unit of Striate and Peer, e.g. "img/s"
+	Peer     float64 // fastest general-purpose peer's figure, 0 if none
+	PeerName string
+	Build    string // which build produced the figure (plain or simd)
+}
+
+// FrontEndConfig says how FrontEnd times.
+type FrontEndConfig struct {
+	Quick   bool  // 1,000 MNIST images and 16 crops instead of all
+	Threads []int // thread counts to time
+	Repeats int   // timed repeats after one warm-up; the median is reported
+}
+
+// FrontEndReport is what FrontEnd measured, with the facts a reader of the
+// table needs: how far the default kernels are from the reference bank, and
+// which image sets were timed.
+type FrontEndReport struct {
+	Rows      []Row
+	KernelMax float64  // max |Δ| between the default kernels and filterbank_kernels.json
+	Kernels   int      // kernels compared
+	Sets      []string // "name: N images from source" per set timed
+}
+
+// Progress is the step report long work gives (the same method as
+// learn.Progress).
+type Progress interface {
+	Step(done, total int, msg string)
+}
+
+// MaxKernelDiff is the largest difference allowed between the default front
+// end's kernels and the reference bank (both float32 renderings of the same
+// formulas; 1e-6 is a few float32 ulps at the kernels' scale).
+const MaxKernelDiff = 1e-6
+
+// FrontEnd times the default front end (the reference bank of
+// filterbank_kernels.json in dir, checked kernel by kernel first) over the
+// MNIST test set and the photo crops: images / median wall time of the whole
+// set, output allocation included, the reference README's protocol. p (may
+// be nil) sees each timing done.
+func FrontEnd(dir string, cfg FrontEndConfig, p Progress) (*FrontEndReport, error) {
+	fe, err := v1layer.New(v1layer.Config{})
+	if err != nil {
+		return nil, err
+	}
+	ref, err := benchwork.Kernels(dir)
+	if err != nil {
+		return nil, err
+	}
+	ks := fe.Kernels()
+	if len(ks) != len(ref) {
+		return nil, fmt.Errorf("frontbench: the default front end has %d kernels, the reference bank %d", len(ks), len(ref))
+	}
+	rep := &FrontEndReport{Kernels: len(ks)}
+	for i, k := range ref {
+		if ks[i].Size != k.Size {
+			return nil, fmt.Errorf("frontbench: kernel %s: size %d, reference %d", k.Name, ks[i].Size, k.Size)
+		}
+		for j, v := range k.W {
+			rep.KernelMax = math.Max(rep.KernelMax, math.Abs(float64(ks[i].W[j])-v))
+		}
+	}
+	if rep.KernelMax > MaxKernelDiff {
+		return nil, fmt.Errorf("frontbench: the default kernels differ from filterbank_kernels.json by %.3g (want ≤ %g)", rep.KernelMax, MaxKernelDiff)
+	}
+	peers, err := benchwork.Peers(dir)
+	if err != nil {
+		return nil, err
+	}
+	nm, nc := 0, 0
+	if cfg.Quick {
+		nm, nc = 1000, 16
+	}
+	mnist := benchwork.MNIST(nm)
+	crops, err := benchwork.Crops(dir, nc)
+	if err != nil {
+		return nil, err
+	}
+	build := "plain"
+	if strings.HasPrefix(v1layer.Build(), "simd") {
+		build = "simd"
+	}
+	sets := []*benchwork.Set{mnist, crops}
+	total := len(sets) * len(cfg.Threads)
+	step := 0
+	for _, s := range sets {
+		rep.Sets = append(rep.Sets, fmt.Sprintf("%s: %d images from %s", s.Name, len(s.Images), s.Source))
+		for _, t := range cfg.Threads {
+			c, oh, ow, err := fe.OutShape(s.H, s.W)
+			if err != nil {
+				return nil, err
+			}
+			d := benchwork.Median(cfg.Repeats, func() {
+				// Output allocation is part of the timed work, as for the
+				// peers: one N×C×OH×OW block, like one output tensor.
+				n := c * oh * ow
+				slab := make([]float32, len(s.Images)*n)
+				dst := make([]v1layer.Maps, len(s.Images))
+				for i := range dst {
+					dst[i] = v1layer.Maps{C: c, H: oh, W: ow, Pix: slab[i*n : (i+1)*n : (i+1)*n]}
+				}
+				fe.ApplyBatch(dst, s.Images, s.H, s.W, t)
+			})
+			pr, pv := benchwork.Fastest(peers, s.W, t)
+			name := pr.Name
+			if i := strings.Index(name, " ("); i > 0 {
+				name = name[:i]
+			}
+			if t > 2 {
+				pv, name = 0, "(peers timed at 1 and 2 threads)"
+			}
+			rep.Rows = append(rep.Rows, Row{Stage: "front end", Size: fmt.Sprintf("%d×%d", s.H, s.W), Threads: t,
+				Striate: float64(len(s.Images)) / d.Seconds(), Unit: "img/s", Peer: pv, PeerName: name, Build: build})
+			step++
+			if p != nil {
+				p.Step(step, total, fmt.Sprintf("%s, %d threads: %v", s.Name, t, d.Round(time.Millisecond)))
+			}
+		}
+	}
+	return rep, nil
+}

@@ -5,7 +5,7 @@ import (
 )
 
 // Config describes a whole front end. Its zero value is the documented
-// default front end — the reference work of ../shared/bench/filterbank.json:
+// default front end — the reference work of internal/benchwork/data/filterbank.json:
 // on/off DoG at σ_c = 1 and 2 px, Gabor quadrature pairs at 4 orientations
 // and λ = 4, 8 px, quadrature energy, 3×3 stride-2 max pooling, zero border,
 // no contrast or divisive normalisation, no end-stopping.

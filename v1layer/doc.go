@@ -20,7 +20,7 @@
 // with u the column offset (rightwards) and v the row offset (downwards).
 // Angles use the image y axis pointing up (y = −v), counter-clockwise from
 // +x. These are the conventions of the reference work
-// ../shared/bench/filterbank.json.
+// internal/benchwork/data/filterbank.json.
 //
 // # Retina / LGN: difference of Gaussians
 //
@@ -107,7 +107,7 @@
 // 8.8× (28×28) and 15× (64×64) faster in the SIMD build than the scalar
 // row-AXPY loops it replaced, 2.4× and 2.8× in the plain build).
 // FFT correlation was costed and not used: gonum's real 2-D FFT of
-// 256×256 takes ~1.2 ms each way (../shared/bench/README.md), and the
+// 256×256 takes ~1.2 ms each way (the reference work, internal/benchwork), and the
 // reference bank would need one forward and nine inverse transforms
 // (even+i·odd pairs), ~12 ms, against ~6 ms for the separable passes.
 //
@@ -166,15 +166,7 @@
 //
 // Both builds give the same results to float32 rounding
 // (TestSIMDMatchesPortable); `striate bench` prints which build timed the
-// figures it shows. On the reference work (`striate bench`, 5 repeats,
-// median; 2-core AMD EPYC with AVX-512, 2 December 2026, under the
-// project's heavy-work lock, three runs alternating with the previous
-// build) the SIMD build ran MNIST at 16,939–17,231 img/s on one thread
-// and 36,565–37,732 on two, 256×256 crops at 303.7–324.7 and 540.0–697.3
-// img/s (peers: 6,486 / 10,124 and 108 / 135); the build before the
-// paired passes and bands measured 175.8–177.4 and 282.3–391.0 img/s at
-// 256×256 in the same runs. (Plain build, before these changes: 1,608 /
-// 3,521 and 21.7 / 46.3 img/s.)
+// figures it shows (the measured figures are in the README).
 //
 // # Concurrency
 //

@@ -10,7 +10,7 @@ import (
 // quadrature pair at each, wavelengths 4 and 8 px (2 octave-spaced scales),
 // a half-amplitude bandwidth of 1 octave, aspect ratio 1 and a support
 // radius of 3σ — exactly the bank of the reference work in
-// ../shared/bench/filterbank.json.
+// internal/benchwork/data/filterbank.json.
 type GaborConfig struct {
 	// Disable drops the Gabor stage (a DoG-only front end, or a learned
 	// bank given in Config.Bank).
@@ -134,7 +134,7 @@ func gaborGrid(p GaborParams, rx, ry int) []float64 {
 	}
 	// Zero mean: subtract the envelope-weighted mean of the carrier, so the
 	// kernel keeps its Gaussian taper (the correction the reference work
-	// ../shared/bench/filterbank.json uses; for odd phases it is zero by symmetry).
+	// internal/benchwork/data/filterbank.json uses; for odd phases it is zero by symmetry).
 	dc := sc / se
 	var n2 float64
 	for i := range env {

@@ -37,7 +37,7 @@ type ScanConfig struct {
 	InkFraction float64 `json:"ink_fraction,omitempty"`
 	// Gap joins ink pixels up to Gap px apart (a square dilation of that
 	// radius) into one item, so broken strokes and the parts of a sandal
-	// stay together. Default 2; range [1, 16].
+	// stay together. Default 1; range [1, 16].
 	Gap int `json:"gap,omitempty"`
 	// Frames are the candidate window sides as multiples of the item's
 	// longer box side; the recogniser's most confident window wins (the
@@ -77,7 +77,7 @@ type ScanConfig struct {
 // Defaults of ScanConfig's zero fields.
 const (
 	DefaultInkFraction  = 0.25
-	DefaultGap          = 2
+	DefaultGap          = 1
 	DefaultThreshold    = 0.5
 	DefaultNMSIoU       = 0.3
 	DefaultMaxItems     = 10
@@ -361,22 +361,22 @@ func (s *Scanner) scan(dst *ScanResult, img []float32, h, w, workers int) ([]Sca
 		rect [4]int
 	}
 	var regions []region
+	win := wta{m: wk.sal, mh: mh, mw: mw, scale: float64(s.sal.Scale())}
 	var peak0 float32
-	sc := float64(s.sal.Scale())
 	for len(dst.Fixations) < s.cfg.MaxFixations {
-		k, v := argmaxFirst(wk.sal)
+		k, fx, fy, v := win.next()
 		if len(dst.Fixations) == 0 {
 			peak0 = v
 		}
 		if v <= 0 || float64(v) < s.cfg.StopFraction*float64(peak0) {
 			break
 		}
-		fy, fx := (float64(k/mw)+0.5)*sc-0.5, (float64(k%mw)+0.5)*sc-0.5
 		g, rect, ok := s.attend(wk, img, h, w, fx, fy)
 		dst.Fixations = append(dst.Fixations, Fixation{X: fx, Y: fy, Salience: v, Item: ok})
-		inhibit := [4]int{}
+		var inhibit [4]int
 		if ok {
-			inhibit = g.box
+			mg := s.cfg.ItemSize / 4
+			inhibit = [4]int{g.box[0] - mg, g.box[1] - mg, g.box[2] + mg, g.box[3] + mg}
 			dup := false
 			for _, r := range regions {
 				dup = dup || r.box == g.box
@@ -388,8 +388,7 @@ func (s *Scanner) scan(dst *ScanResult, img []float32, h, w, workers int) ([]Sca
 			r := s.cfg.ItemSize / 4
 			inhibit = [4]int{int(fx) - r, int(fy) - r, int(fx) + r + 1, int(fy) + r + 1}
 		}
-		inhibitBox(wk.sal, mh, mw, sc, inhibit)
-		wk.sal[k] = 0 // the winner itself, always
+		win.inhibit(k, inhibit)
 	}
 	if len(regions) == 0 {
 		return nil, nil
@@ -464,30 +463,41 @@ func (s *Scanner) clearBorder(m []float32, mh, mw, h, w int) {
 	}
 }
 
-// argmaxFirst returns the index and value of m's maximum, the first in
-// order on ties (the winner-take-all's deterministic tie rule).
-func argmaxFirst(m []float32) (int, float32) {
-	k, v := 0, m[0]
-	for i, x := range m {
-		if x > v {
-			k, v = i, x
-		}
-	}
-	return k, v
+// wta is the winner-take-all over a saliency map with inhibition of return
+// (Koch & Ullman 1985): next returns the map's maximum, the first in
+// row-major order on ties, and inhibit clears the winner and every map
+// pixel whose centre lies in a frame box. Map pixel (i, j) is centred on
+// frame position ((j+0.5)·scale − 0.5, (i+0.5)·scale − 0.5).
+type wta struct {
+	m      []float32 // mh×mw, modified in place
+	mh, mw int
+	scale  float64
 }
 
-// inhibitBox zeroes the map pixels (scale sc frame px per map px) whose
-// centres lie in the half-open frame box b: inhibition of return.
-func inhibitBox(m []float32, mh, mw int, sc float64, b [4]int) {
-	for i := range mh {
-		y := (float64(i)+0.5)*sc - 0.5
+// next returns the winner's index, frame position and value.
+func (t *wta) next() (k int, x, y float64, v float32) {
+	v = t.m[0]
+	for i, u := range t.m {
+		if u > v {
+			k, v = i, u
+		}
+	}
+	return k, (float64(k%t.mw)+0.5)*t.scale - 0.5, (float64(k/t.mw)+0.5)*t.scale - 0.5, v
+}
+
+// inhibit zeroes map pixel k and the map pixels whose centres lie in the
+// half-open frame box b.
+func (t *wta) inhibit(k int, b [4]int) {
+	t.m[k] = 0
+	for i := range t.mh {
+		y := (float64(i)+0.5)*t.scale - 0.5
 		if y < float64(b[1])-0.5 || y >= float64(b[3])-0.5 {
 			continue
 		}
-		for j := range mw {
-			x := (float64(j)+0.5)*sc - 0.5
+		for j := range t.mw {
+			x := (float64(j)+0.5)*t.scale - 0.5
 			if x >= float64(b[0])-0.5 && x < float64(b[2])-0.5 {
-				m[i*mw+j] = 0
+				t.m[i*t.mw+j] = 0
 			}
 		}
 	}

@@ -45,6 +45,12 @@ type ScanConfig struct {
 	// Fashion-MNIST fills nearly the whole 28 px (about 1.0). Default
 	// [1.0, 1.2, 1.4]; at most 8 factors, each in [1, 3].
 	Frames []float64 `json:"frames,omitempty"`
+	// Sizes are the window sides, as multiples of ItemSize, tried around
+	// the fixation when the ink group is more than 1.25·ItemSize long and
+	// may hold several touching items (the scale search at the item's own
+	// size). Default [1.0, 1.4, 1.8]: items of 0.8-1.6·ItemSize framed
+	// about 1.2×; at most 8 factors, each in [0.5, 3].
+	Sizes []float64 `json:"sizes,omitempty"`
 	// KeepSurround passes the window's other ink (neighbours, lint) to the
 	// recogniser too; by default only the attended item's ink (dilated by
 	// Gap) is kept and the rest of the window is set to background.
@@ -84,8 +90,12 @@ const (
 	DefaultStopFraction = 0.05
 )
 
-// DefaultFrames is the default of ScanConfig.Frames.
-var DefaultFrames = []float64{1.0, 1.2, 1.4}
+// DefaultFrames and DefaultSizes are the defaults of ScanConfig.Frames
+// and ScanConfig.Sizes.
+var (
+	DefaultFrames = []float64{1.0, 1.2, 1.4}
+	DefaultSizes  = []float64{1.0, 1.4, 1.8}
+)
 
 // Limits of ScanConfig.
 const (
@@ -118,6 +128,11 @@ func (c ScanConfig) withDefaults(m *Model) ScanConfig {
 		c.Frames = slices.Clone(DefaultFrames)
 	} else {
 		c.Frames = slices.Clone(c.Frames)
+	}
+	if len(c.Sizes) == 0 {
+		c.Sizes = slices.Clone(DefaultSizes)
+	} else {
+		c.Sizes = slices.Clone(c.Sizes)
 	}
 	if c.Threshold == 0 {
 		c.Threshold = DefaultThreshold
@@ -164,6 +179,14 @@ func (c ScanConfig) validate() error {
 		return fmt.Errorf("pipeline: ScanConfig.StopFraction %v out of range (0,1); 0 means %v", c.StopFraction, DefaultStopFraction)
 	case c.Border > c.ItemSize:
 		return fmt.Errorf("pipeline: ScanConfig.Border %d px is above ItemSize %d; 0 means ItemSize/4, negative none", c.Border, c.ItemSize)
+	}
+	if len(c.Sizes) > maxScanFrames {
+		return fmt.Errorf("pipeline: ScanConfig.Sizes has %d factors; at most %d (default %v)", len(c.Sizes), maxScanFrames, DefaultSizes)
+	}
+	for _, z := range c.Sizes {
+		if !(z >= 0.5 && z <= maxScanFrameMult) {
+			return fmt.Errorf("pipeline: ScanConfig.Sizes factor %v out of range [0.5,%d]; the default is %v", z, maxScanFrameMult, DefaultSizes)
+		}
 	}
 	for _, f := range c.Frames {
 		if !(f >= 1 && f <= maxScanFrameMult) {
@@ -291,7 +314,7 @@ func NewScanner(m *Model, cfg ScanConfig) (*Scanner, error) {
 // Config returns the scanner's configuration with every default filled in.
 func (s *Scanner) Config() ScanConfig {
 	c := s.cfg
-	c.Frames = slices.Clone(c.Frames)
+	c.Frames, c.Sizes = slices.Clone(c.Frames), slices.Clone(c.Sizes)
 	c.Saliency = s.sal.Config()
 	return c
 }
@@ -307,7 +330,7 @@ func (s *Scanner) MinSide() int { return max(s.sal.MinSide(), s.ih, s.iw) }
 // larger than v1layer.MaxSide, for img shorter than h·w and for NaN or
 // infinite pixels.
 func (s *Scanner) Scan(dst *ScanResult, img []float32, h, w, workers int) error {
-	cands, err := s.scan(dst, img, h, w, workers)
+	cands, err := s.scan(dst, img, h, w, workers, s.cfg.Threshold)
 	if err != nil {
 		return err
 	}
@@ -318,7 +341,7 @@ func (s *Scanner) Scan(dst *ScanResult, img []float32, h, w, workers int) error 
 // scan runs steps 1-4 of the method and the recogniser, and returns every
 // fixation's most confident window (all of them, whatever their score),
 // in fixation order; dst gets the fixations.
-func (s *Scanner) scan(dst *ScanResult, img []float32, h, w, workers int) ([]ScanItem, error) {
+func (s *Scanner) scan(dst *ScanResult, img []float32, h, w, workers int, stopAt float64) ([]ScanItem, error) {
 	if dst == nil {
 		panic("pipeline: Scan into a nil *ScanResult")
 	}
@@ -352,18 +375,13 @@ func (s *Scanner) scan(dst *ScanResult, img []float32, h, w, workers int) ([]Sca
 	wk.sal = append(wk.sal[:0], wk.maps.Pix[:mh*mw]...)
 	s.clearBorder(wk.sal, mh, mw, h, w)
 
-	type region struct {
-		fix  int
-		box  [4]int
-		bg   float32
-		rng  float32
-		dil  []bool // the attended group's dilated ink over rect
-		rect [4]int
-	}
-	var regions []region
 	win := wta{m: wk.sal, mh: mh, mw: mw, scale: float64(s.sal.Scale())}
+	var cands []ScanItem
+	var done [][4]int // groups whose whole-group window won: nothing more to find in them
 	var peak0 float32
-	for len(dst.Fixations) < s.cfg.MaxFixations {
+	found := 0
+	mg := s.cfg.ItemSize / 4
+	for len(dst.Fixations) < s.cfg.MaxFixations && found < s.cfg.MaxItems {
 		k, fx, fy, v := win.next()
 		if len(dst.Fixations) == 0 {
 			peak0 = v
@@ -373,58 +391,100 @@ func (s *Scanner) scan(dst *ScanResult, img []float32, h, w, workers int) ([]Sca
 		}
 		g, rect, ok := s.attend(wk, img, h, w, fx, fy)
 		dst.Fixations = append(dst.Fixations, Fixation{X: fx, Y: fy, Salience: v, Item: ok})
-		var inhibit [4]int
-		if ok {
-			mg := s.cfg.ItemSize / 4
-			inhibit = [4]int{g.box[0] - mg, g.box[1] - mg, g.box[2] + mg, g.box[3] + mg}
-			dup := false
-			for _, r := range regions {
-				dup = dup || r.box == g.box
+		r := s.cfg.ItemSize / 4
+		inhibit := [4]int{int(fx) - r, int(fy) - r, int(fx) + r + 1, int(fy) + r + 1}
+		if ok && slices.Contains(done, g.box) {
+			inhibit = grow(g.box, mg)
+		} else if ok {
+			wins, boxes := s.candidates(wk, img, h, w, g, rect, fx, fy)
+			probs, err := s.m.PredictBatch(wins, s.ih, s.iw, workers)
+			if err != nil {
+				return nil, fmt.Errorf("pipeline: scan: %w", err)
 			}
-			if !dup {
-				regions = append(regions, region{fix: len(dst.Fixations) - 1, box: g.box, bg: g.bg, rng: g.rng, dil: slices.Clone(g.mask), rect: rect})
+			bj, bc, bp := 0, 0, float32(-1)
+			for j, p := range probs {
+				if c := argmax(p); p[c] > bp {
+					bj, bc, bp = j, c, p[c]
+				}
 			}
-		} else {
-			r := s.cfg.ItemSize / 4
-			inhibit = [4]int{int(fx) - r, int(fy) - r, int(fx) + r + 1, int(fy) + r + 1}
+			it := ScanItem{Class: bc, Score: bp, Box: boxes[bj], Fixation: len(dst.Fixations) - 1}
+			cands = append(cands, it)
+			if bj < len(s.cfg.Frames) {
+				done = append(done, g.box)
+			}
+			if float64(bp) >= stopAt {
+				found++
+			}
+			inhibit = grow(it.Box, mg)
 		}
 		win.inhibit(k, inhibit)
 	}
-	if len(regions) == 0 {
-		return nil, nil
-	}
-
-	// Every candidate window of every region, in one batch.
-	nf := len(s.cfg.Frames)
-	wins := make([][]float32, 0, len(regions)*nf)
-	for _, r := range regions {
-		side := max(r.box[2]-r.box[0], r.box[3]-r.box[1])
-		cx, cy := float64(r.box[0]+r.box[2])/2, float64(r.box[1]+r.box[3])/2
-		for _, f := range s.cfg.Frames {
-			n := max(2, int(math.Round(f*float64(side))))
-			x0, y0 := int(math.Round(cx-float64(n)/2)), int(math.Round(cy-float64(n)/2))
-			wk.win = growScan(wk.win, n*n)
-			s.window(wk.win, img, h, w, x0, y0, n, r.bg, r.rng, r.dil, r.rect)
-			wins = append(wins, s.resize(wk.win, n))
-		}
-	}
-	probs, err := s.m.PredictBatch(wins, s.ih, s.iw, workers)
-	if err != nil {
-		return nil, fmt.Errorf("pipeline: scan: %w", err)
-	}
-	cands := make([]ScanItem, len(regions))
-	for i, r := range regions {
-		bc, bp := 0, float32(-1)
-		for j := range nf {
-			p := probs[i*nf+j]
-			if c := argmax(p); p[c] > bp {
-				bc, bp = c, p[c]
-			}
-		}
-		cands[i] = ScanItem{Class: bc, Score: bp, Box: r.box, Fixation: r.fix}
-	}
 	return cands, nil
 }
+
+// splitPerItem: an ink group whose box's longer side exceeds splitPerItem·
+// ItemSize may hold several touching items, so windows of the item's own
+// scale around the fixation (ScanConfig.Sizes) are tried as well.
+const splitPerItem = 1.25
+
+// candidates returns the candidate windows of the attended group g (at the
+// model's input size) and the item box each stands for: first one window
+// per Frames factor around the group's box, then, for a group that may
+// hold several items, one per Sizes factor around the ink near the
+// fixation, whose box is the group's ink inside the window.
+func (s *Scanner) candidates(wk *scanWork, img []float32, h, w int, g inkGroup, rect [4]int, fx, fy float64) ([][]float32, [][4]int) {
+	var wins [][]float32
+	var boxes [][4]int
+	add := func(cx, cy float64, n int, box [4]int) {
+		x0, y0 := int(math.Round(cx-float64(n)/2)), int(math.Round(cy-float64(n)/2))
+		wk.win = growScan(wk.win, n*n)
+		s.window(wk.win, img, h, w, x0, y0, n, g.bg, g.rng, g.mask, rect)
+		wins = append(wins, s.resize(wk.win, n))
+		boxes = append(boxes, box)
+	}
+	side := max(g.box[2]-g.box[0], g.box[3]-g.box[1])
+	cx, cy := float64(g.box[0]+g.box[2])/2, float64(g.box[1]+g.box[3])/2
+	for _, f := range s.cfg.Frames {
+		add(cx, cy, max(2, int(math.Round(f*float64(side)))), g.box)
+	}
+	if float64(side) <= splitPerItem*float64(s.cfg.ItemSize) {
+		return wins, boxes
+	}
+	// The centre of the group's ink within ItemSize/2 of the fixation.
+	rw := rect[2] - rect[0]
+	near := centredRect(fx, fy, s.cfg.ItemSize, h, w)
+	var m, mx, my float64
+	for y := max(near[1], rect[1]); y < min(near[3], rect[3]); y++ {
+		for x := max(near[0], rect[0]); x < min(near[2], rect[2]); x++ {
+			if p := (y-rect[1])*rw + x - rect[0]; wk.ink[p] && g.mask[p] {
+				v := float64(img[y*w+x] - g.bg)
+				m, mx, my = m+v, mx+v*float64(x), my+v*float64(y)
+			}
+		}
+	}
+	if m > 0 {
+		fx, fy = mx/m, my/m
+	}
+	for _, z := range s.cfg.Sizes {
+		n := max(2, int(math.Round(z*float64(s.cfg.ItemSize))))
+		x0, y0 := int(math.Round(fx-float64(n)/2)), int(math.Round(fy-float64(n)/2))
+		box := [4]int{x0 + n, y0 + n, x0, y0}
+		for y := max(y0, rect[1]); y < min(y0+n, rect[3]); y++ {
+			for x := max(x0, rect[0]); x < min(x0+n, rect[2]); x++ {
+				if p := (y-rect[1])*rw + x - rect[0]; wk.ink[p] && g.mask[p] {
+					box = [4]int{min(box[0], x), min(box[1], y), max(box[2], x+1), max(box[3], y+1)}
+				}
+			}
+		}
+		if box[2] > box[0] && max(box[2]-box[0], box[3]-box[1]) >= s.cfg.MinItemSide {
+			add(fx, fy, n, box)
+		}
+	}
+	return wins, boxes
+}
+
+// grow returns box b grown by m px on every side.
+func grow(b [4]int, m int) [4]int { return [4]int{b[0] - m, b[1] - m, b[2] + m, b[3] + m} }
 
 // decide appends to dst the items of cands (in fixation order) that reach
 // threshold, at most MaxItems of them (the stop rule: the first MaxItems
@@ -800,7 +860,7 @@ func (s *Scanner) ChooseThreshold(scenes []datasets.Scene, workers int) (Thresho
 	var res ScanResult
 	for i := range scenes {
 		sc := &scenes[i]
-		c, err := s.scan(&res, sc.Pix, sc.H, sc.W, workers)
+		c, err := s.scan(&res, sc.Pix, sc.H, sc.W, workers, math.Inf(1))
 		if err != nil {
 			return ThresholdChoice{}, fmt.Errorf("pipeline: ChooseThreshold: scene %d: %w", i, err)
 		}

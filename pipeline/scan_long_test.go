@@ -208,4 +208,3 @@ func clutterError(t *testing.T, s *pipeline.Scanner, set *datasets.Set, cfg data
 	}
 	return float64(wrong) / float64(n)
 }
-

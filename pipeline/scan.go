@@ -35,9 +35,10 @@ type ScanConfig struct {
 	// the region's background (its median) by more than InkFraction of
 	// the region's range (max − median). Default 0.25; range (0, 1).
 	InkFraction float64 `json:"ink_fraction,omitempty"`
-	// Gap joins ink pixels up to Gap px apart (a square dilation of that
-	// radius) into one item, so broken strokes and the parts of a sandal
-	// stay together. Default 1; range [1, 16].
+	// Gap joins ink across background gaps of up to 2·Gap px (a square
+	// dilation of radius Gap before 8-connected grouping), so broken
+	// strokes and the parts of a sandal stay together. Default 1; range
+	// [1, 16].
 	Gap int `json:"gap,omitempty"`
 	// Frames are the candidate window sides as multiples of the item's
 	// longer box side; the recogniser's most confident window wins (the
@@ -235,36 +236,46 @@ type ScanResult struct {
 //  2. Winner-take-all with inhibition of return (Koch & Ullman 1985,
 //     "Shifts in selective visual attention", Human Neurobiology 4:219-227):
 //     the map's maximum (the first in row-major order on ties) is the next
-//     fixation; after the region there is attended, the map pixels whose
-//     centres lie in it are set to zero, so attention moves on to the next
-//     most salient place. The scan stops when the winner falls below
-//     StopFraction of the first winner, the map is exhausted, MaxFixations
-//     are made or MaxItems items are found.
+//     fixation; once the item there is recognised, the map pixels whose
+//     centres lie in its box grown by ItemSize/4 are set to zero (an
+//     ItemSize/2 square when the fixation found no ink), so attention moves
+//     on to the next most salient place. The scan stops when the winner
+//     falls below StopFraction of the first winner or is zero (the map is
+//     exhausted), after MaxFixations fixations, or when MaxItems windows
+//     have reached Threshold.
 //  3. The region of a fixation. In a square of 2.25·ItemSize px around the
 //     fixation the background is the median grey b and the range r = max −
-//     b; pixels above b + InkFraction·r are ink, ink pixels up to Gap apart
-//     form groups (8-connected after a square dilation by Gap), and groups
-//     whose box has a longer side below MinItemSide are dropped. The group
-//     nearest the fixation (distance to its box; the larger ink mass on
-//     ties) is the attended item, its tight ink box the item's box; when
-//     it touches the square's side the square is grown 1.5× around it once.
-//     Inhibition of return covers the box; a fixation with no group
-//     inhibits an ItemSize/2 square.
-//  4. Normalised on its own. Each candidate window is a square centred on
-//     the box, of side f·(longer box side) for each f in Frames, taken from
-//     the frame with its own background and range, (v − b)/r clipped to
-//     [0, 1], with everything outside the attended group's dilated ink set
-//     to 0 (unless KeepSurround); pixels outside the frame are 0. It is
+//     b; pixels above b + InkFraction·r are ink, ink pixels up to 2·Gap
+//     apart form groups (8-connected after a square dilation by Gap), and
+//     groups whose box has a longer side below MinItemSide are dropped
+//     (lint, scraps). The group nearest the fixation (distance to its box;
+//     the larger ink mass on ties) is attended; when it touches the
+//     square's side the square is grown 1.5× around it once. A group whose
+//     whole-group window already won at an earlier fixation is not
+//     recognised again.
+//  4. Candidate windows, each normalised on its own. One square per factor
+//     f of Frames, centred on the group's ink box, of side f·(its longer
+//     side), standing for that box; and, when the box is longer than
+//     1.25·ItemSize (touching items may have merged), one square per
+//     factor z of Sizes, of side z·ItemSize, centred on the centre of mass
+//     of the group's ink within ItemSize/2 of the fixation, standing for
+//     the box of the group's ink inside it. A window is taken from the
+//     frame with the region's own background and range, (v − b)/r clipped
+//     to [0, 1], with everything outside the attended group's dilated ink
+//     set to 0 (unless KeepSurround) and pixels outside the frame 0; it is
 //     resized to the model's input (datasets.ToGray's bilinear kernel) and
 //     the model's own input stage then stretches and centres it as it does
 //     every image — never the frame's range or centre.
-//  5. Recognition and decision. All candidate windows of a frame go to
-//     PredictBatch at once; each fixation keeps its most confident window
-//     (scale search). An item is reported when its probability reaches
-//     Threshold (the "no item" decision; ChooseThreshold picks it on
-//     validation scenes); then greedy non-maximum suppression at NMSIoU
-//     (NMS) keeps the more confident of overlapping items.
+//  5. Recognition and decision. The fixation's windows go to PredictBatch
+//     together; the most confident window (the first on ties) gives the
+//     item's class, score (its probability) and box (the scale search).
+//     An item is reported when its score reaches Threshold (the "no item"
+//     decision; ChooseThreshold picks it on validation scenes); of the
+//     first MaxItems such items, greedy non-maximum suppression at NMSIoU
+//     (NMS) keeps the more confident of overlapping ones.
 //
+// The fixation sequence never depends on Threshold, which is what lets
+// ChooseThreshold try every threshold on one scan of each scene.
 // A frame whose grey range is below 4/255, blank or all black, has no items.
 // A Scanner is immutable and safe for concurrent use; its results are
 // identical for any number of workers.

@@ -125,16 +125,7 @@ func (c ScanConfig) withDefaults(m *Model) ScanConfig {
 	if c.Gap == 0 {
 		c.Gap = DefaultGap
 	}
-	if len(c.Frames) == 0 {
-		c.Frames = slices.Clone(DefaultFrames)
-	} else {
-		c.Frames = slices.Clone(c.Frames)
-	}
-	if len(c.Sizes) == 0 {
-		c.Sizes = slices.Clone(DefaultSizes)
-	} else {
-		c.Sizes = slices.Clone(c.Sizes)
-	}
+	c.Frames, c.Sizes = factorsOr(c.Frames, DefaultFrames), factorsOr(c.Sizes, DefaultSizes)
 	if c.Threshold == 0 {
 		c.Threshold = DefaultThreshold
 	}
@@ -154,6 +145,14 @@ func (c ScanConfig) withDefaults(m *Model) ScanConfig {
 		c.Border = c.ItemSize / 4
 	}
 	return c
+}
+
+// factorsOr returns a copy of v, or of def when v is empty.
+func factorsOr(v, def []float64) []float64 {
+	if len(v) == 0 {
+		return slices.Clone(def)
+	}
+	return slices.Clone(v)
 }
 
 func (c ScanConfig) validate() error {

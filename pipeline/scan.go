@@ -44,7 +44,11 @@ type ScanConfig struct {
 	// longer box side; the recogniser's most confident window wins (the
 	// scale search). MNIST frames a 20-px digit in 28 px (1.4),
 	// Fashion-MNIST fills nearly the whole 28 px (about 1.0). Default
-	// [1.0, 1.2, 1.4]; at most 8 factors, each in [1, 3].
+	// [1.0, 1.2, 1.4, 1.6]: on 500 cluttered 60×60 canvases of MNIST
+	// training images 50,000-50,499 (validation, never test images) with a
+	// model fitted on 2,000 other training images, it gave 4.4% error
+	// without fragments and 12.8% with four, against 5.0% and 13.8% for
+	// [1.0, 1.2, 1.4]. At most 8 factors, each in [1, 3].
 	Frames []float64 `json:"frames,omitempty"`
 	// Sizes are the window sides, as multiples of ItemSize, tried around
 	// the fixation when the ink group is more than 1.25·ItemSize long and
@@ -94,7 +98,7 @@ const (
 // DefaultFrames and DefaultSizes are the defaults of ScanConfig.Frames
 // and ScanConfig.Sizes.
 var (
-	DefaultFrames = []float64{1.0, 1.2, 1.4}
+	DefaultFrames = []float64{1.0, 1.2, 1.4, 1.6}
 	DefaultSizes  = []float64{1.0, 1.4, 1.8}
 )
 

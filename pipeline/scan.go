@@ -342,7 +342,7 @@ func (s *Scanner) MinSide() int { return max(s.sal.MinSide(), s.ih, s.iw) }
 // using workers goroutines (≤ 0 means 1) for the saliency map and the
 // recogniser. It returns an error for a frame smaller than MinSide or
 // larger than v1layer.MaxSide, for img shorter than h·w and for NaN or
-// infinite pixels.
+// infinite pixels (dst is then emptied). It panics if dst is nil.
 func (s *Scanner) Scan(dst *ScanResult, img []float32, h, w, workers int) error {
 	cands, err := s.scan(dst, img, h, w, workers, s.cfg.Threshold)
 	if err != nil {

@@ -1,0 +1,87 @@
+package pipeline
+
+import (
+	"math"
+	"testing"
+)
+
+// Winner-take-all with inhibition of return (Koch & Ullman 1985) visits the
+// peaks of a map in decreasing order of height, each once: on a synthetic
+// map of four Gaussian bumps of known heights and places, inhibiting a box
+// around each winner gives the bumps' order and positions.
+func TestWTAVisitsPeaksInOrder(t *testing.T) {
+	const mh, mw, scale = 12, 16, 8.0
+	peaks := []struct {
+		i, j int
+		v    float64
+	}{{3, 12, 0.6}, {8, 3, 1.0}, {9, 13, 0.8}, {2, 2, 0.4}} // map rows, columns, heights
+	m := make([]float32, mh*mw)
+	for i := range mh {
+		for j := range mw {
+			for _, p := range peaks {
+				d2 := float64((i-p.i)*(i-p.i) + (j-p.j)*(j-p.j))
+				m[i*mw+j] += float32(p.v * math.Exp(-d2/2)) // σ = 1 map pixel
+			}
+		}
+	}
+	w := wta{m: m, mh: mh, mw: mw, scale: scale}
+	wantOrder := []int{1, 2, 0, 3} // by decreasing height
+	for n, pi := range wantOrder {
+		p := peaks[pi]
+		k, x, y, v := w.next()
+		if k != p.i*mw+p.j {
+			t.Fatalf("fixation %d at map pixel (%d, %d); want peak %d at (%d, %d)", n, k/mw, k%mw, pi, p.i, p.j)
+		}
+		// Map pixel centres in frame coordinates: (j+0.5)·8 − 0.5.
+		if wx, wy := (float64(p.j)+0.5)*scale-0.5, (float64(p.i)+0.5)*scale-0.5; x != wx || y != wy {
+			t.Errorf("fixation %d at frame (%v, %v); want (%v, %v)", n, x, y, wx, wy)
+		}
+		if math.Abs(float64(v)-p.v) > 0.02 { // the other bumps' tails add < 0.02 at a peak
+			t.Errorf("fixation %d value %v; want about %v", n, v, p.v)
+		}
+		// Inhibit the frame box of ±2.5 map pixels around the winner.
+		r := int(2.5 * scale)
+		w.inhibit(k, [4]int{int(x) - r, int(y) - r, int(x) + r + 1, int(y) + r + 1})
+		for di := -2; di <= 2; di++ {
+			for dj := -2; dj <= 2; dj++ {
+				if ii, jj := p.i+di, p.j+dj; ii >= 0 && ii < mh && jj >= 0 && jj < mw && m[ii*mw+jj] != 0 {
+					t.Errorf("after fixation %d, map pixel (%d, %d) is %v; want it inhibited", n, ii, jj, m[ii*mw+jj])
+				}
+			}
+		}
+	}
+	// What is left are the bumps' far tails: at least 3 map pixels from
+	// every peak, so below e^(−9/2) times the sum of the heights.
+	if _, _, _, v := w.next(); v > float32(2.8*math.Exp(-4.5)) {
+		t.Errorf("after the four peaks the winner is %v; want only tails below %v", v, 2.8*math.Exp(-4.5))
+	}
+	// Ties go to the first pixel in row-major order.
+	flat := wta{m: []float32{0, 2, 2, 1}, mh: 2, mw: 2, scale: 1}
+	if k, _, _, _ := flat.next(); k != 1 {
+		t.Errorf("tie won by pixel %d; want 1 (first in row-major order)", k)
+	}
+}
+
+// The stop rule on a map: Scan's loop ends when the winner falls below
+// StopFraction of the first winner. Checked on the same kind of map via
+// the fixation values alone.
+func TestWTAStopFraction(t *testing.T) {
+	m := []float32{1, 0, 0.5, 0, 0.04, 0, 0.3, 0}
+	w := wta{m: m, mh: 1, mw: 8, scale: 1}
+	var got []float32
+	first := float32(0)
+	for {
+		k, _, _, v := w.next()
+		if first == 0 {
+			first = v
+		}
+		if v <= 0 || v < 0.05*first {
+			break
+		}
+		got = append(got, v)
+		w.inhibit(k, [4]int{})
+	}
+	if len(got) != 3 || got[0] != 1 || got[1] != 0.5 || got[2] != 0.3 {
+		t.Errorf("visited %v; want [1 0.5 0.3] (0.04 is below 5%% of the first peak)", got)
+	}
+}

@@ -9,6 +9,7 @@ import (
 	"errors"
 	"math"
 	"os"
+	"path/filepath"
 	"reflect"
 	"strings"
 	"testing"
@@ -322,5 +323,54 @@ func TestModelFileSaveRejectsBadTensor(t *testing.T) {
 	var buf bytes.Buffer
 	if err := encodeFile(&buf, c); err == nil || !strings.Contains(err.Error(), "shape") {
 		t.Fatalf("encode with a wrong shape: %v; want an error naming the shape", err)
+	}
+}
+
+// TestSaveFileReplacesAtomically: SaveFile over an existing model writes a
+// new file and renames it into place (POSIX rename(2) replaces the name in
+// one step; common practice for crash-safe saves), so the old file is never
+// truncated and rewritten in place: the path ends up naming a different
+// inode, the model loads, no temporary file is left, and a failed save (a
+// folder that does not exist) leaves the existing file as it was.
+func TestSaveFileReplacesAtomically(t *testing.T) {
+	dir := t.TempDir()
+	path := filepath.Join(dir, "model.bin")
+	old := []byte("previous model bytes")
+	if err := os.WriteFile(path, old, 0o644); err != nil {
+		t.Fatal(err)
+	}
+	before, err := os.Stat(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	m, err := LoadFile(smallModel)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := m.SaveFile(filepath.Join(dir, "missing", "model.bin")); err == nil {
+		t.Fatal("save into a missing folder succeeded")
+	}
+	if b, _ := os.ReadFile(path); !bytes.Equal(b, old) {
+		t.Fatal("a failed save changed another file")
+	}
+	if err := m.SaveFile(path); err != nil {
+		t.Fatal(err)
+	}
+	after, err := os.Stat(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if os.SameFile(before, after) {
+		t.Error("SaveFile rewrote the existing file in place; want a new file renamed over it")
+	}
+	got, err := LoadFile(path)
+	if err != nil {
+		t.Fatalf("saved model does not load: %v", err)
+	}
+	if got.NumClasses() != m.NumClasses() {
+		t.Errorf("reloaded model has %d classes, want %d", got.NumClasses(), m.NumClasses())
+	}
+	if left, _ := filepath.Glob(filepath.Join(dir, ".*")); len(left) != 0 {
+		t.Errorf("temporary files left behind: %v", left)
 	}
 }

@@ -8,6 +8,7 @@ import (
 	"os"
 	"strings"
 
+	"github.com/striate/striate/internal/safefile"
 	"github.com/striate/striate/learn"
 	"github.com/striate/striate/v1layer"
 )
@@ -58,23 +59,13 @@ func (m *Model) Save(w io.Writer) error {
 	return encodeFile(w, &fileContents{Config: cj, Classes: m.classes, Tensors: ts})
 }
 
-// SaveFile writes the model to path (created or truncated).
-func (m *Model) SaveFile(path string) (err error) {
-	f, err := os.Create(path)
-	if err != nil {
+// SaveFile writes the model to path atomically: to a temporary file in
+// the same folder, synced, then renamed over path, so an interrupted or
+// failed save leaves the previous file intact (or no file), never a partial
+// model.
+func (m *Model) SaveFile(path string) error {
+	if err := safefile.Write(path, m.Save); err != nil {
 		return fmt.Errorf("pipeline: %w", err)
-	}
-	defer func() {
-		if cerr := f.Close(); err == nil && cerr != nil {
-			err = fmt.Errorf("pipeline: %w", cerr)
-		}
-	}()
-	bw := bufio.NewWriterSize(f, 1<<16)
-	if err := m.Save(bw); err != nil {
-		return err
-	}
-	if err := bw.Flush(); err != nil {
-		return fmt.Errorf("pipeline: writing %s: %w", path, err)
 	}
 	return nil
 }

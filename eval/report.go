@@ -555,7 +555,7 @@ func buildDoc(r *Report) ([]block, error) {
 
 // kindLetters abbreviate channel kinds on crowded axes.
 var kindLetters = map[v1layer.Kind]string{v1layer.KindDoG: "D", v1layer.KindGabor: "G", v1layer.KindLearned: "L",
-	v1layer.KindEnergy: "E", v1layer.KindRectified: "R", v1layer.KindEndStop: "S"}
+	v1layer.KindEnergy: "E", v1layer.KindRectified: "R", v1layer.KindEndStop: "T"} // T: terminated (end-stopped)
 
 // channelLabel names channel i for an axis: its index, kind and tuning,
 // e.g. "5 energy 45° λ4" or "0 dog+ σ1"; short gives "5 E45°" or "0 D+".

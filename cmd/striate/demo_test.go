@@ -147,7 +147,7 @@ func TestDemoQuick(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if !strings.Contains(string(md), "| model | data |") {
+	if !strings.Contains(string(md), "| model | test set | test images | accuracy (%) |") {
 		t.Error("report.md has no accuracy table header")
 	}
 }

@@ -28,7 +28,7 @@ func writeShards(t *testing.T, dir string, order []int, n int, flat []float32, c
 	t.Helper()
 	for _, i := range order {
 		lo, hi := ShardRange(i, n, len(labels))
-		m := ShardMeta{Kind: "features", Model: "m.stm", ModelSHA256: "ab12", Data: "depot-test", Total: len(labels),
+		m := ShardMeta{Kind: "features", Model: "m.striate", ModelSHA256: "ab12", Data: "depot-test", Total: len(labels),
 			Shard: i, Shards: n, Lo: lo, Hi: hi, Cols: cols, Classes: []string{"coat", "shirt", "bag"}}
 		if err := WriteShard(dir, m, flat[lo*cols:hi*cols], labels[lo:hi]); err != nil {
 			t.Fatal(err)

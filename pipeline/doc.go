@@ -75,7 +75,7 @@
 //
 // # Using a fitted model
 //
-//	m, err := pipeline.LoadFile("mnist.stm")
+//	m, err := pipeline.LoadFile("mnist.striate")
 //	feat := m.Extract(img)             // []float32 of length m.FeatureLen()
 //	class, probs := m.Predict(img)     // index into m.Classes()
 //	probs2, err := m.PredictBatch(imgs, 28, 28, runtime.GOMAXPROCS(0))

@@ -35,6 +35,11 @@ import (
 // spells those meanings out (see configFromV1), so a version-1 model loads
 // and predicts as it did.
 const (
+	// FileExt is the file-name extension striate gives model files (older
+	// builds used ".stm"). Readers go by the file's magic bytes, never by
+	// its name, so a model of either name loads.
+	FileExt = ".striate"
+
 	fileMagic = "STRIATEM"
 	// FormatVersion is the model-file format version this build writes.
 	FormatVersion = 2

@@ -13,7 +13,7 @@ import (
 // no temporary file behind.
 func TestWriteReplaces(t *testing.T) {
 	dir := t.TempDir()
-	p := filepath.Join(dir, "model.stm")
+	p := filepath.Join(dir, "model.striate")
 	for _, s := range []string{"first version", "second"} {
 		if err := WriteBytes(p, []byte(s)); err != nil {
 			t.Fatal(err)
@@ -23,7 +23,7 @@ func TestWriteReplaces(t *testing.T) {
 			t.Fatalf("read %q, %v; want %q", b, err, s)
 		}
 	}
-	assertOnly(t, dir, "model.stm")
+	assertOnly(t, dir, "model.striate")
 	st, err := os.Stat(p)
 	if err != nil || st.Mode().Perm()&^0o022 != Perm&^0o022 {
 		t.Errorf("mode %v, %v; want %v (less the umask)", st.Mode(), err, os.FileMode(Perm))
@@ -107,11 +107,11 @@ func assertOnly(t *testing.T, dir string, names ...string) {
 // one fails naming the path.
 func TestCheckDir(t *testing.T) {
 	dir := t.TempDir()
-	if err := CheckDir(filepath.Join(dir, "m.stm")); err != nil {
+	if err := CheckDir(filepath.Join(dir, "m.striate")); err != nil {
 		t.Fatal(err)
 	}
 	assertOnly(t, dir)
-	p := filepath.Join(dir, "missing", "m.stm")
+	p := filepath.Join(dir, "missing", "m.striate")
 	if err := CheckDir(p); err == nil || !strings.Contains(err.Error(), p) {
 		t.Errorf("missing folder: %v", err)
 	}

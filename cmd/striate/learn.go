@@ -1,7 +1,6 @@
 package main
 
 import (
-	"encoding/json"
 	"flag"
 	"fmt"
 	"os"
@@ -10,9 +9,7 @@ import (
 
 	"github.com/striate/striate/datasets"
 	"github.com/striate/striate/eval"
-	"github.com/striate/striate/internal/safefile"
 	"github.com/striate/striate/learn"
-	"github.com/striate/striate/pipeline"
 )
 
 func init() {
@@ -88,38 +85,16 @@ func runLearn(g *globals, a learnArgs) error {
 		return err
 	}
 	fitTime := time.Since(start)
-	bank, rep := pb.Bank, pb.Report
+	rep := pb.Report
 	if err := os.MkdirAll(g.out, 0o755); err != nil {
 		return err
 	}
-	bj, err := json.Marshal(bank)
+	histErr, err := eval.WriteBankFiles(g.out, pb, g.seed)
+	if histErr != nil {
+		fmt.Fprintf(g.stderr, "striate learn: no histograms: %v\n", histErr)
+	}
 	if err != nil {
 		return err
-	}
-	mosaic, err := eval.AtomMosaicPNG(bank, 0, 4)
-	if err != nil {
-		return err
-	}
-	// config.json: the default pipeline with this bank in place of the
-	// hand-set Gabor bank, ready for "striate train --config".
-	pc := pipeline.DefaultConfig()
-	pc.Front.Bank = bank
-	pc.Front.Gabor.Disable = true
-	pc.Seed = g.seed
-	cj, err := pc.MarshalIndent()
-	if err != nil {
-		return err
-	}
-	files := map[string][]byte{"bank.json": bj, "atoms.png": mosaic, "config.json": cj}
-	if hist, err := eval.BankHistogramsPNG(rep); err == nil {
-		files["bank_hist.png"] = hist
-	} else {
-		fmt.Fprintf(g.stderr, "striate learn: no histograms: %v\n", err)
-	}
-	for name, b := range files {
-		if err := safefile.WriteBytes(filepath.Join(g.out, name), b); err != nil {
-			return err
-		}
 	}
 	w := g.stdout
 	wh := fmt.Sprintf("whitening %s f0 %g", a.whiten, a.f0)

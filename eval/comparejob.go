@@ -44,6 +44,9 @@ func CompareModels(names [2]string, models [2]*pipeline.Model, set *datasets.Set
 	if err := Comparable(models[0], models[1]); err != nil {
 		return nil, err
 	}
+	if err := CheckClasses(models[0], set); err != nil {
+		return nil, err
+	}
 	mc := &ModelComparison{Names: names, Models: models, Set: set, Data: FromSet(set), cfg: cfg, run: run, mon: mon}
 	for k, m := range models {
 		bar := mon.Start(len(mc.Data.Images), "predict "+names[k])

@@ -9,6 +9,7 @@ import (
 	"fmt"
 	"os"
 	"path/filepath"
+	"slices"
 	"strings"
 	"time"
 
@@ -84,6 +85,14 @@ func SetProvenance(s *datasets.Set, trainName string, train int) Provenance {
 	return Provenance{Name: s.Name, Source: s.Source, TrainName: trainName, Train: train, Test: s.N, H: s.H, W: s.W, Classes: s.Classes}
 }
 
+// CheckClasses requires the classes of set to be m's, in order.
+func CheckClasses(m *pipeline.Model, set *datasets.Set) error {
+	if mc := m.Classes(); !slices.Equal(mc, set.Classes) {
+		return fmt.Errorf("data %s has classes %v but the model was trained on %v; evaluate on data with the same classes", set.Name, set.Classes, mc)
+	}
+	return nil
+}
+
 // EvaluateConfig configures Evaluate and Evaluation.Report. The zero value
 // scores the clean test set only, with RunOptions' defaults.
 type EvaluateConfig struct {
@@ -123,8 +132,12 @@ type Evaluation struct {
 
 // Evaluate predicts every image of set with m and scores the predictions,
 // then scores m on cfg.Suite (with cfg.Peer attached) when it is not empty.
-// Progress goes to mon. Evaluation.Report adds the remaining sections.
+// Progress goes to mon. Evaluation.Report adds the remaining sections. The
+// classes of set must be m's (CheckClasses).
 func Evaluate(name string, m *pipeline.Model, set *datasets.Set, cfg EvaluateConfig, mon JobMonitor) (*Evaluation, error) {
+	if err := CheckClasses(m, set); err != nil {
+		return nil, err
+	}
 	e := &Evaluation{Name: name, Model: m, Set: set, Data: FromSet(set), cfg: cfg, mon: mon}
 	run := cfg.Run
 	bar := mon.Start(len(e.Data.Images), "predict")
@@ -210,8 +223,11 @@ func sweepModel(name string, p Predictor, d *Data, levels map[datasets.PerturbKi
 // PredictShard predicts shard i of n of set with m (the model file
 // modelPath, read from the data spec) and writes the shard's probabilities,
 // labels and ShardMeta into dir (WriteShard), which it creates. It returns
-// the shard's meta.
+// the shard's meta. The classes of set must be m's (CheckClasses).
 func PredictShard(dir, modelPath, spec string, m *pipeline.Model, set *datasets.Set, i, n int, run RunOptions, mon JobMonitor) (ShardMeta, error) {
+	if err := CheckClasses(m, set); err != nil {
+		return ShardMeta{}, err
+	}
 	lo, hi := ShardRange(i, n, set.N)
 	h, w := m.InputSize()
 	bar := mon.Start(hi-lo, fmt.Sprintf("predict shard %d/%d", i, n))

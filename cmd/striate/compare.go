@@ -60,9 +60,6 @@ func runCompare(g *globals, spec, pathA, pathB string, resamples int, robust str
 	if err != nil {
 		return err
 	}
-	if err := checkClasses(ma, set); err != nil {
-		return err
-	}
 	nameA, nameB := modelName(pathA), modelName(pathB)
 	if nameA == nameB {
 		nameA, nameB = pathA, pathB

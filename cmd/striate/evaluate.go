@@ -7,7 +7,6 @@ import (
 	"io"
 	"os"
 	"path/filepath"
-	"slices"
 	"strings"
 	"text/tabwriter"
 
@@ -18,9 +17,10 @@ import (
 
 func init() {
 	register(&command{
-		name:    "evaluate",
-		summary: "score a model on a test set: accuracy, per-class scores, calibration, report",
-		usage:   "",
+		name:      "evaluate",
+		flagsOnly: true,
+		summary:   "score a model on a test set: accuracy, per-class scores, calibration, report",
+		usage:     "",
 		example: `  striate evaluate --model fashion.stm --data fashion                # print the scores
   striate evaluate --model fashion.stm --data fashion --out rep      # + rep/report.md, report.html, results.json
   striate evaluate --model fashion.stm --data fashion --out rep --robust quick --speed
@@ -46,9 +46,6 @@ func init() {
 			g.addQuiet(fs)
 			g.addOut(fs, "")
 			return func(args []string) error {
-				if len(args) > 0 {
-					return usagef("unexpected argument %q (evaluate takes flags only)", args[0])
-				}
 				return runEvaluate(g, o)
 			}
 		},
@@ -86,14 +83,6 @@ func loadSpec(spec string, h, w int, warn io.Writer) (*datasets.Set, error) {
 		return nil, fmt.Errorf("--data: %w", err)
 	}
 	return s, err
-}
-
-// checkClasses requires the data's classes to be the model's, in order.
-func checkClasses(m *pipeline.Model, s *datasets.Set) error {
-	if mc := m.Classes(); !slices.Equal(mc, s.Classes) {
-		return fmt.Errorf("data %s has classes %v but the model was trained on %v; evaluate on data with the same classes", s.Name, s.Classes, mc)
-	}
-	return nil
 }
 
 // loadModel loads a model file, saying which flag named it.
@@ -152,9 +141,6 @@ func runEvaluate(g *globals, o evalOptions) error {
 	h, w := m.InputSize()
 	set, err := loadSpec(o.data, h, w, g.stderr)
 	if err != nil {
-		return err
-	}
-	if err := checkClasses(m, set); err != nil {
 		return err
 	}
 	run := eval.RunOptions{Workers: g.workers, Batch: o.batch}

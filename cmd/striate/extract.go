@@ -10,9 +10,10 @@ import (
 
 func init() {
 	register(&command{
-		name:    "extract",
-		summary: "write a model's feature vectors for a data set to NPY files",
-		usage:   "",
+		name:      "extract",
+		flagsOnly: true,
+		summary:   "write a model's feature vectors for a data set to NPY files",
+		usage:     "",
 		example: `  striate extract --model fashion.stm --data fashion --out feats
       # feats/features.npy  float32 N×D   (np.load("feats/features.npy"))
       # feats/labels.npy    int32   N
@@ -32,9 +33,6 @@ func init() {
 			g.addQuiet(fs)
 			g.addOut(fs, "features")
 			return func(args []string) error {
-				if len(args) > 0 {
-					return usagef("unexpected argument %q (extract takes flags only)", args[0])
-				}
 				return runExtract(g, o)
 			}
 		},

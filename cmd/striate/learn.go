@@ -14,9 +14,10 @@ import (
 
 func init() {
 	register(&command{
-		name:    "learn",
-		summary: "learn a simple-cell bank by sparse coding of whitened patches from the shipped photos",
-		usage:   "",
+		name:      "learn",
+		flagsOnly: true,
+		summary:   "learn a simple-cell bank by sparse coding of whitened patches from the shipped photos",
+		usage:     "",
 		example: `  striate learn --out bank/                       # 256 atoms of 16×16: bank.json, config.json, atoms.png, bank_hist.png
   striate train --data fashion --config bank/config.json --out learned.stm   # a pipeline on that bank
   striate learn --quick --out /tmp/bank           # a small, fast run (for tests and a first look)
@@ -40,9 +41,6 @@ func init() {
 			g.addQuiet(fs)
 			g.addOut(fs, "bank")
 			return func(args []string) error {
-				if len(args) > 0 {
-					return usagef("unexpected argument %q (learn takes flags only)", args[0])
-				}
 				if *whiten != "of" && *whiten != "zca" {
 					return usagef("--whiten %q; want of or zca", *whiten)
 				}

@@ -46,14 +46,7 @@ func TestCLIEvaluateSuite(t *testing.T) {
 	}
 	out := filepath.Join(dir, "rep")
 	r := mustRun(t, 0, "evaluate", "--model", cliModelA, "--data", cliTest, "--suite", "mnistc", "--peer", peerFile, "--out", out, "--workers", "2")
-	var res eval.Report
-	b, err := os.ReadFile(filepath.Join(out, "results.json"))
-	if err != nil {
-		t.Fatal(err)
-	}
-	if err := json.Unmarshal(b, &res); err != nil {
-		t.Fatal(err)
-	}
+	res := readResults(t, out)
 	if len(res.Suites) != 1 || len(res.Suites[0].Points) != len(suite) || res.Suites[0].Peer == nil {
 		t.Fatalf("results.json suites %+v; want one suite of %d conditions with the peer attached", res.Suites, len(suite))
 	}

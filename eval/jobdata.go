@@ -74,6 +74,25 @@ func MeanGrey(p datasets.Photo) float64 {
 	return sum / float64(len(p.Pix))
 }
 
+// LearnPhotoBank learns a simple-cell bank from the embedded photos
+// (datasets.Photos) by cfg.Learn with seed and workers; mon counts the
+// dictionary's minibatch steps (cfg.Dict.Epochs passes of
+// ⌈cfg.Patches/cfg.Dict.BatchSize⌉ steps, both as given: the bar is only
+// sized, not checked, by them).
+func LearnPhotoBank(cfg learn.PhotoBankConfig, seed uint64, workers int, mon JobMonitor) (*learn.PhotoBank, error) {
+	photos, err := datasets.Photos()
+	if err != nil {
+		return nil, err
+	}
+	steps := 0
+	if b := cfg.Dict.BatchSize; b > 0 {
+		steps = cfg.Dict.Epochs * ((cfg.Patches + b - 1) / b)
+	}
+	bar := mon.Start(steps, "learn")
+	defer bar.Done()
+	return cfg.Learn(photos, seed, workers, bar)
+}
+
 // Files WriteBankFiles writes.
 const (
 	BankJSON      = "bank.json"     // the learned bank (v1layer.Bank as JSON)

@@ -7,7 +7,6 @@ import (
 	"path/filepath"
 	"time"
 
-	"github.com/striate/striate/datasets"
 	"github.com/striate/striate/eval"
 	"github.com/striate/striate/learn"
 )
@@ -68,17 +67,10 @@ type learnArgs struct {
 }
 
 func runLearn(g *globals, a learnArgs) error {
-	photos, err := datasets.Photos()
-	if err != nil {
-		return err
-	}
 	cfg := learn.PhotoBankConfig{PatchSize: a.size, Patches: a.patches, Whiten: a.whiten, ZCAEps: a.eps, F0: a.f0,
 		Dict: learn.DictConfig{Atoms: a.atoms, Lambda: a.lambda, BatchSize: a.batch, Epochs: a.epochs, Forget: a.forget}}
-	steps := a.epochs * ((a.patches + a.batch - 1) / a.batch)
-	bar := g.newProgress(steps, "learn")
 	start := time.Now()
-	pb, err := cfg.Learn(photos, g.seed, g.workers, bar)
-	bar.Done()
+	pb, err := eval.LearnPhotoBank(cfg, g.seed, g.workers, jobMonitor{g})
 	if err != nil {
 		return err
 	}

@@ -212,8 +212,8 @@ func MainJob(d *MainJobData, cfg MainJobConfig, mon JobMonitor) (*Report, error)
 		}
 		test := firstN(dp.test, sz.test)
 		td := FromSet(test)
-		rep.Data = append(rep.Data, Provenance{Name: dp.test.Name, Source: dp.test.Source, Train: train.N, Test: test.N,
-			H: test.H, W: test.W, Classes: test.Classes})
+		rep.Data = append(rep.Data, Provenance{Name: dp.test.Name, Source: dp.test.Source, TrainName: dp.train.Name, Train: train.N,
+			Test: test.N, H: test.H, W: test.W, Classes: test.Classes})
 		preds := map[string][]int{}
 		for _, s := range specs {
 			mon.Logf("training %s on %s (%d images)", s.name, train.Name, train.N)

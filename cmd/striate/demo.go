@@ -62,7 +62,7 @@ func runDemo(g *globals, o demoOptions) error {
 		fmt.Fprintln(w, "  (the SIMD build runs this job about twice as fast: GOEXPERIMENT=simd go run ./cmd/striate demo)")
 	}
 	fmt.Fprintln(w)
-	sets, err := loadDemoData(o)
+	sets, err := eval.LoadMainJobData(o.fashionDir, o.mnistDir)
 	if err != nil {
 		return err
 	}
@@ -93,7 +93,7 @@ func runDemo(g *globals, o demoOptions) error {
 	}
 	start := time.Now()
 	rep, err := eval.MainJob(sets, eval.MainJobConfig{Quick: o.quick, Config: cfg, Seed: g.seed, Workers: g.workers,
-		Command: "striate " + strings.Join(os.Args[1:], " ")}, jobMonitor{g})
+		Command: commandLine()}, jobMonitor{g})
 	if err != nil {
 		return err
 	}
@@ -105,46 +105,14 @@ func runDemo(g *globals, o demoOptions) error {
 	return nil
 }
 
-func loadDemoData(o demoOptions) (*eval.MainJobData, error) {
-	var d eval.MainJobData
-	var err error
-	if d.FashionTrain, err = datasets.LoadFashionMNIST(datasets.Train, o.fashionDir); err != nil {
-		return nil, err
-	}
-	if d.FashionTest, err = datasets.LoadFashionMNIST(datasets.Test, o.fashionDir); err != nil {
-		return nil, err
-	}
-	if d.MNISTTrain, err = datasets.LoadMNIST(datasets.Train, o.mnistDir); err != nil {
-		return nil, err
-	}
-	if d.MNISTTest, err = datasets.LoadMNIST(datasets.Test, o.mnistDir); err != nil {
-		return nil, err
-	}
-	return &d, nil
-}
-
 func printDataSummary(w io.Writer, d *eval.MainJobData) error {
 	fmt.Fprintln(w, "Datasets")
 	tw := tabwriter.NewWriter(w, 0, 4, 2, ' ', 0)
 	fmt.Fprintln(tw, "  set\tsplit\timages\tsize\tclasses\tsmallest class\tlargest class")
-	for _, r := range []struct {
-		split string
-		s     *datasets.Set
-	}{
-		{"train", d.FashionTrain}, {"test", d.FashionTest}, {"train", d.MNISTTrain}, {"test", d.MNISTTest},
-	} {
-		counts := r.s.ClassCounts()
-		lo, hi := 0, 0
-		for c := range counts {
-			if counts[c] < counts[lo] {
-				lo = c
-			}
-			if counts[c] > counts[hi] {
-				hi = c
-			}
-		}
-		fmt.Fprintf(tw, "  %s\t%s\t%d\t%d×%d\t%d\t%s (%d)\t%s (%d)\n", r.s.Name, r.split, r.s.N, r.s.H, r.s.W,
-			len(r.s.Classes), r.s.Classes[lo], counts[lo], r.s.Classes[hi], counts[hi])
+	for _, r := range d.Summaries() {
+		s := r.Set
+		fmt.Fprintf(tw, "  %s\t%s\t%d\t%d×%d\t%d\t%s (%d)\t%s (%d)\n", s.Name, r.Split, s.N, s.H, s.W,
+			len(s.Classes), r.Smallest, r.SmallestN, r.Largest, r.LargestN)
 	}
 	if err := tw.Flush(); err != nil {
 		return err
@@ -158,15 +126,11 @@ func printPhotoSummary(w io.Writer, photos []datasets.Photo) {
 	tw := tabwriter.NewWriter(w, 0, 4, 2, ' ', 0)
 	fmt.Fprintln(tw, "  name\tsize\tmean grey\tlicence")
 	for _, p := range photos {
-		var sum float64
-		for _, v := range p.Pix {
-			sum += float64(v)
-		}
 		lic := p.License
 		if len(lic) > 60 {
 			lic = lic[:57] + "..."
 		}
-		fmt.Fprintf(tw, "  %s\t%d×%d\t%.3f\t%s\n", p.Name, p.H, p.W, sum/float64(len(p.Pix)), lic)
+		fmt.Fprintf(tw, "  %s\t%d×%d\t%.3f\t%s\n", p.Name, p.H, p.W, eval.MeanGrey(p), lic)
 	}
 	tw.Flush()
 	fmt.Fprintln(w)

@@ -7,10 +7,8 @@ import (
 	"io"
 	"os"
 	"path/filepath"
-	"slices"
 	"strings"
 	"text/tabwriter"
-	"time"
 
 	"github.com/striate/striate/datasets"
 	"github.com/striate/striate/eval"
@@ -19,12 +17,14 @@ import (
 
 func init() {
 	register(&command{
-		name:    "evaluate",
-		summary: "score a model on a test set: accuracy, per-class scores, calibration, report",
-		usage:   "",
+		name:      "evaluate",
+		flagsOnly: true,
+		summary:   "score a model on a test set: accuracy, per-class scores, calibration, report",
+		usage:     "",
 		example: `  striate evaluate --model fashion.stm --data fashion                # print the scores
   striate evaluate --model fashion.stm --data fashion --out rep      # + rep/report.md, report.html, results.json
   striate evaluate --model fashion.stm --data fashion --out rep --robust quick --speed
+  striate evaluate --model mnist.stm --data mnist --suite dev --peer lenet5.json   # MNIST-C + grid beside LeNet-5
   striate evaluate --model mnist.stm --data ./depot-photos           # a folder of class sub-folders
 
   # split across 4 machines (job-array index 0..3), then merge:
@@ -37,6 +37,8 @@ func init() {
 			fs.StringVar(&o.shard, "shard", "", "evaluate only shard `i/n` (i = 0..n-1) and write its predictions to --out")
 			fs.BoolVar(&o.merge, "merge", false, "merge the shards found in --out into predictions.npy, scores and a report")
 			fs.StringVar(&o.robust, "robust", "none", "robustness sweep `mode`: none, quick (3 levels per perturbation) or full (4-5 levels)")
+			fs.StringVar(&o.suite, "suite", "none", "development `suite` scored and printed (and reported with --out): none; dev (15 MNIST-C corruptions at severities 1-5 and the perturbation grid, 131 conditions); mnistc (the 15 corruptions at the published severity); grid (the perturbation grid)")
+			fs.StringVar(&o.peer, "peer", "", "peer figures `file` (JSON written by testdata/peer/lenet5.py) shown beside the --suite scores")
 			fs.BoolVar(&o.speed, "speed", false, "also measure throughput, latency and peak heap")
 			fs.IntVar(&o.batch, "batch", 256, "images per prediction batch")
 			g.addSeed(fs)
@@ -44,9 +46,6 @@ func init() {
 			g.addQuiet(fs)
 			g.addOut(fs, "")
 			return func(args []string) error {
-				if len(args) > 0 {
-					return usagef("unexpected argument %q (evaluate takes flags only)", args[0])
-				}
 				return runEvaluate(g, o)
 			}
 		},
@@ -55,6 +54,7 @@ func init() {
 
 type evalOptions struct {
 	model, data, shard, robust string
+	suite, peer                string
 	merge, speed               bool
 	batch                      int
 }
@@ -83,14 +83,6 @@ func loadSpec(spec string, h, w int, warn io.Writer) (*datasets.Set, error) {
 		return nil, fmt.Errorf("--data: %w", err)
 	}
 	return s, err
-}
-
-// checkClasses requires the data's classes to be the model's, in order.
-func checkClasses(m *pipeline.Model, s *datasets.Set) error {
-	if mc := m.Classes(); !slices.Equal(mc, s.Classes) {
-		return fmt.Errorf("data %s has classes %v but the model was trained on %v; evaluate on data with the same classes", s.Name, s.Classes, mc)
-	}
-	return nil
 }
 
 // loadModel loads a model file, saying which flag named it.
@@ -124,11 +116,23 @@ func runEvaluate(g *globals, o evalOptions) error {
 		if o.shard != "" || o.model != "" || o.data != "" {
 			return usagef("--merge reads everything from the shards in --out; drop --model, --data and --shard")
 		}
-		return mergeEvaluate(g)
+		me, err := eval.MergeEvaluation(g.out, "striate evaluation: ", commandLine(), modelName)
+		if err != nil {
+			return err
+		}
+		printScores(g.stdout, me.Name, me.Data, me.Metrics)
+		return writeReport(g, me.Report)
 	}
 	levels, err := robustLevels(o.robust)
 	if err != nil {
 		return err
+	}
+	suite, err := eval.NamedSuite(o.suite)
+	if err != nil {
+		return usageError{"--suite: " + err.Error()}
+	}
+	if o.peer != "" && suite == nil {
+		return usagef("--peer needs --suite (%s), the suite the peer figures were taken on", strings.Join(eval.SuiteNames[1:], ", "))
 	}
 	m, err := loadModel(o.model)
 	if err != nil {
@@ -139,90 +143,71 @@ func runEvaluate(g *globals, o evalOptions) error {
 	if err != nil {
 		return err
 	}
-	if err := checkClasses(m, set); err != nil {
-		return err
-	}
-	data := eval.FromSet(set)
+	run := eval.RunOptions{Workers: g.workers, Batch: o.batch}
 	if o.shard != "" {
 		if g.out == "" {
 			return usagef("--shard needs --out, the folder the shard's predictions go to")
 		}
-		if levels != nil || o.speed {
-			return usagef("--shard evaluates predictions only; run --robust and --speed unsharded")
+		if levels != nil || o.speed || suite != nil {
+			return usagef("--shard evaluates predictions only; run --robust, --suite and --speed unsharded")
 		}
-		return evaluateShard(g, o, m, data)
+		i, n, err := parseShard(o.shard)
+		if err != nil {
+			return err
+		}
+		meta, err := eval.PredictShard(g.out, o.model, o.data, m, set, i, n, run, jobMonitor{g})
+		if err != nil {
+			return err
+		}
+		fmt.Fprintf(g.stdout, "shard %d/%d: images %d to %d of %d predicted into %s\n", i, n, meta.Lo, meta.Hi-1, meta.Total, g.out)
+		return nil
 	}
-	bar := progressFor(g, len(data.Images), "predict")
-	probs, met, err := eval.PredictScore(m, data, eval.RunOptions{Workers: g.workers, Batch: o.batch, Progress: bar})
-	bar.Done()
+	cfg := eval.EvaluateConfig{Levels: levels, Suite: suite, Speed: o.speed, Seed: g.seed, Run: run}
+	if o.peer != "" {
+		if cfg.Peer, err = eval.ReadPeer(o.peer, ""); err != nil {
+			return fmt.Errorf("--peer: %w", err)
+		}
+	}
+	name := modelName(o.model)
+	ev, err := eval.Evaluate(name, m, set, cfg, jobMonitor{g})
 	if err != nil {
 		return err
 	}
-	name := modelName(o.model)
-	printScores(g.stdout, name, data, met)
+	printScores(g.stdout, name, ev.Data, ev.Metrics)
+	if ev.Suite != nil {
+		printSuite(g.stdout, ev.Suite)
+	}
 	if g.out == "" {
 		return nil
 	}
 	if err := os.MkdirAll(g.out, 0o755); err != nil {
 		return err
 	}
-	if err := eval.WritePredictions(g.out, "", probs, data.Labels); err != nil {
+	if err := eval.WritePredictions(g.out, "", ev.Probs, ev.Data.Labels); err != nil {
 		return err
 	}
-	rep := newReport(g, "striate evaluation: "+name)
-	rep.Data = []eval.Provenance{provenance(set, 0)}
-	mr := eval.ModelResult{Name: name, Data: data.Name, Metrics: met}
-	if o.speed {
-		if mr.Speed, err = eval.ModelSpeed(m, data.Images[:min(len(data.Images), 2000)], h, w, g.workers); err != nil {
-			return err
-		}
-	}
-	rep.Models = []eval.ModelResult{mr}
-	rep.Config = map[string]pipeline.Config{name: m.Config()}
-	if levels != nil {
-		rb, err := robustness(g, name, m, data, levels, o.batch)
-		if err != nil {
-			return err
-		}
-		rep.Robustness = []*eval.Robustness{rb}
-	}
-	if iv, bank, err := eval.FrontInvariance(name, m); err == nil {
-		rep.Invariance = []eval.InvarianceResult{iv}
-		rep.Banks = []eval.BankPanel{{Name: name, Bank: bank}}
-	} else {
-		rep.Notes = append(rep.Notes, "invariance probe skipped: "+err.Error())
+	rep, err := ev.Report("striate evaluation: "+name, commandLine())
+	if err != nil {
+		return err
 	}
 	return writeReport(g, rep)
 }
 
+// robustLevels reads --robust (eval.RobustLevels) as a usage error.
 func robustLevels(s string) (map[datasets.PerturbKind][]float64, error) {
-	switch s {
-	case "", "none":
-		return nil, nil
-	case "quick":
-		return eval.QuickLevels, nil
-	case "full":
-		return eval.StandardLevels, nil
+	levels, err := eval.RobustLevels(s)
+	if err != nil {
+		return nil, usageError{"--robust: " + err.Error()}
 	}
-	return nil, usagef("--robust %q; want none, quick or full", s)
+	return levels, nil
 }
 
 func modelName(path string) string {
 	return strings.TrimSuffix(filepath.Base(path), filepath.Ext(path))
 }
 
-func newReport(g *globals, title string) *eval.Report {
-	return &eval.Report{
-		Title:   title,
-		Created: time.Now().UTC(),
-		Command: "striate " + strings.Join(os.Args[1:], " "),
-		Summary: "Garment-sorting station at a second-hand clothing depot: how well striate's recognizers tell item types apart, how sure they are, and how they hold up.",
-	}
-}
-
-func provenance(s *datasets.Set, train int) eval.Provenance {
-	return eval.Provenance{Name: s.Name, Source: s.Source, Train: train, Test: s.N, H: s.H, W: s.W, Classes: s.Classes}
-}
+// commandLine is the command line recorded in reports.
+func commandLine() string { return "striate " + strings.Join(os.Args[1:], " ") }
 
 func writeReport(g *globals, rep *eval.Report) error {
 	files, err := eval.WriteReport(g.out, rep)
@@ -233,75 +218,51 @@ func writeReport(g *globals, rep *eval.Report) error {
 	return nil
 }
 
+// printScores prints the headline scores and the per-class table, with the
+// report's labels: the class mean weighs every class equally, "test images"
+// counts each class's images.
 func printScores(w io.Writer, name string, d *eval.Data, m *eval.Metrics) {
-	fmt.Fprintf(w, "%s on %s (%d images): accuracy %.2f%% (95%% CI %.2f-%.2f%%), macro F1 %.4f, log-loss %.4f nats, ECE %.4f\n",
+	fmt.Fprintf(w, "%s on %s (%d images): accuracy %.2f%% (95%% CI %.2f-%.2f%%), class-mean F1 %.4f, log-loss %.4f nats, ECE %.4f\n",
 		name, d.Name, m.N, 100*m.Accuracy, 100*m.CI.Lo, 100*m.CI.Hi, m.Macro.F1, m.LogLoss, m.ECE)
 	tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', tabwriter.AlignRight)
-	fmt.Fprintln(tw, "class\tprecision\trecall\tF1\tsupport\t")
+	fmt.Fprintln(tw, "class\tprecision\trecall\tF1\ttest images\t")
 	for _, c := range m.PerClass {
 		fmt.Fprintf(tw, "%s\t%.4f\t%.4f\t%.4f\t%d\t\n", c.Class, c.Precision, c.Recall, c.F1, c.Support)
 	}
+	fmt.Fprintf(tw, "class mean\t%.4f\t%.4f\t%.4f\t%d\t\n", m.Macro.Precision, m.Macro.Recall, m.Macro.F1, m.N)
 	tw.Flush()
 }
 
-func robustness(g *globals, name string, m eval.Predictor, d *eval.Data, levels map[datasets.PerturbKind][]float64, batch int) (*eval.Robustness, error) {
-	conds, err := eval.StandardConditions(levels)
-	if err != nil {
-		return nil, err
+// printSuite prints a development suite's per-kind accuracy (beside the
+// peer's when attached), the mean corruption accuracy and the worst kind.
+func printSuite(w io.Writer, r *eval.SuiteResult) {
+	fmt.Fprintf(w, "\ndevelopment suite (%d conditions, suite seed %d): clean accuracy %.2f%%\n", len(r.Points), r.Seed, 100*r.Clean.Accuracy)
+	tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', tabwriter.AlignRight)
+	head := "group\tkind\tconditions\taccuracy (%)\t"
+	if r.Peer != nil {
+		head += r.Peer.Name + " (%)\t"
 	}
-	bar := progressFor(g, len(conds), "robustness "+name)
-	defer bar.Done()
-	return eval.RobustnessSweep(name, m, d, conds, eval.RobustnessConfig{Seed: g.seed, Run: eval.RunOptions{Workers: g.workers, Batch: batch, Progress: bar}})
-}
-
-func evaluateShard(g *globals, o evalOptions, m *pipeline.Model, d *eval.Data) error {
-	i, n, err := parseShard(o.shard)
-	if err != nil {
-		return err
+	fmt.Fprintln(tw, head)
+	for _, k := range r.Kinds {
+		line := fmt.Sprintf("%s\t%s\t%d\t%.2f\t", k.Group, k.Kind, k.Conditions, 100*k.Accuracy)
+		if r.Peer != nil {
+			if pk, ok := r.Peer.Kind(k.Group, k.Kind); ok {
+				line += fmt.Sprintf("%.2f\t", 100*pk.Accuracy)
+			} else {
+				line += "—\t"
+			}
+		}
+		fmt.Fprintln(tw, line)
 	}
-	lo, hi := eval.ShardRange(i, n, len(d.Images))
-	h, w := m.InputSize()
-	bar := progressFor(g, hi-lo, fmt.Sprintf("predict shard %d/%d", i, n))
-	probs, err := eval.Predict(m, d.Images[lo:hi], h, w, eval.RunOptions{Workers: g.workers, Batch: o.batch, Progress: bar})
-	bar.Done()
-	if err != nil {
-		return err
+	tw.Flush()
+	if r.CorruptionKinds > 0 {
+		fmt.Fprintf(w, "mean corruption accuracy over %d MNIST-C kinds: %.2f%%", r.CorruptionKinds, 100*r.MeanCorruption)
+		if r.Peer != nil && r.Peer.CorruptionKinds > 0 {
+			fmt.Fprintf(w, " (%s %.2f%%)", r.Peer.Name, 100*r.Peer.MeanCorruption)
+		}
+		fmt.Fprintln(w)
 	}
-	sum, err := eval.FileSHA256(o.model)
-	if err != nil {
-		return err
+	if r.Worst != nil {
+		fmt.Fprintf(w, "worst kind: %s, %.2f%%\n", r.Worst.Kind, 100*r.Worst.Accuracy)
 	}
-	meta := eval.ShardMeta{Kind: "predictions", Model: o.model, ModelSHA256: sum, Data: d.Name, DataSpec: o.data,
-		Total: len(d.Images), Shard: i, Shards: n, Lo: lo, Hi: hi, Cols: m.NumClasses(), Classes: d.Classes}
-	if err := os.MkdirAll(g.out, 0o755); err != nil {
-		return err
-	}
-	if err := eval.WriteShard(g.out, meta, eval.Flatten(probs), d.Labels[lo:hi]); err != nil {
-		return err
-	}
-	fmt.Fprintf(g.stdout, "shard %d/%d: images %d to %d of %d predicted into %s\n", i, n, lo, hi-1, len(d.Images), g.out)
-	return nil
-}
-
-func mergeEvaluate(g *globals) error {
-	mg, err := eval.MergeShards(g.out, "predictions")
-	if err != nil {
-		return err
-	}
-	meta, rows, labels := mg.Meta, mg.Rows(), mg.Labels
-	met, err := eval.Score(labels, rows, meta.Classes, eval.MetricsConfig{})
-	if err != nil {
-		return err
-	}
-	name := modelName(meta.Model)
-	d := &eval.Data{Name: meta.Data, Classes: meta.Classes}
-	printScores(g.stdout, name, d, met)
-	if err := eval.WritePredictions(g.out, "", rows, labels); err != nil {
-		return err
-	}
-	rep := newReport(g, "striate evaluation: "+name)
-	rep.Data = []eval.Provenance{{Name: d.Name, Source: meta.DataSpec, Test: len(labels), Classes: d.Classes,
-		Note: fmt.Sprintf("merged from %d shards", mg.Shards)}}
-	rep.Models = []eval.ModelResult{{Name: name, Data: d.Name, Metrics: met}}
-	return writeReport(g, rep)
 }

@@ -99,6 +99,20 @@ func cliFixture(t *testing.T) {
 	}
 }
 
+// readResults reads the results.json of the report in dir.
+func readResults(t *testing.T, dir string) eval.Report {
+	t.Helper()
+	var res eval.Report
+	b, err := os.ReadFile(filepath.Join(dir, "results.json"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := json.Unmarshal(b, &res); err != nil {
+		t.Fatal(err)
+	}
+	return res
+}
+
 type buildError struct{ out string }
 
 func (e *buildError) Error() string { return "go build: " + e.out }
@@ -198,14 +212,7 @@ func TestCLIEvaluateReport(t *testing.T) {
 			t.Errorf("missing %s: %v", f, err)
 		}
 	}
-	var res eval.Report
-	b, err := os.ReadFile(filepath.Join(out, "results.json"))
-	if err != nil {
-		t.Fatal(err)
-	}
-	if err := json.Unmarshal(b, &res); err != nil {
-		t.Fatal(err)
-	}
+	res := readResults(t, out)
 	// Stripes against a blob are easy for oriented filters; 90% is a floor
 	// far below what the default front end reaches on them (common practice
 	// for a smoke floor: it fails only when something is broken).
@@ -327,14 +334,7 @@ func TestCLICompare(t *testing.T) {
 	if !strings.Contains(r.stdout, "exact McNemar p =") || !strings.Contains(r.stdout, "paired bootstrap") {
 		t.Errorf("compare printed:\n%s", r.stdout)
 	}
-	var res eval.Report
-	b, err := os.ReadFile(filepath.Join(out, "results.json"))
-	if err != nil {
-		t.Fatal(err)
-	}
-	if err := json.Unmarshal(b, &res); err != nil {
-		t.Fatal(err)
-	}
+	res := readResults(t, out)
 	// Clean images, then each perturbed condition of the quick sweep.
 	if len(res.Comparisons) < 10 || len(res.Models) != 2 || res.Comparisons[0].Condition != "" || res.Comparisons[1].Condition == "" {
 		t.Fatalf("results.json: %d comparisons, %d models; want clean + per-condition comparisons of 2 models", len(res.Comparisons), len(res.Models))

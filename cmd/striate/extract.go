@@ -3,7 +3,6 @@ package main
 import (
 	"flag"
 	"fmt"
-	"os"
 	"path/filepath"
 
 	"github.com/striate/striate/eval"
@@ -11,9 +10,10 @@ import (
 
 func init() {
 	register(&command{
-		name:    "extract",
-		summary: "write a model's feature vectors for a data set to NPY files",
-		usage:   "",
+		name:      "extract",
+		flagsOnly: true,
+		summary:   "write a model's feature vectors for a data set to NPY files",
+		usage:     "",
 		example: `  striate extract --model fashion.stm --data fashion --out feats
       # feats/features.npy  float32 N×D   (np.load("feats/features.npy"))
       # feats/labels.npy    int32   N
@@ -33,9 +33,6 @@ func init() {
 			g.addQuiet(fs)
 			g.addOut(fs, "features")
 			return func(args []string) error {
-				if len(args) > 0 {
-					return usagef("unexpected argument %q (extract takes flags only)", args[0])
-				}
 				return runExtract(g, o)
 			}
 		},
@@ -53,14 +50,8 @@ func runExtract(g *globals, o extractOptions) error {
 		if o.model != "" || o.data != "" || o.shard != "" {
 			return usagef("--merge reads everything from the shards in --out; drop --model, --data and --shard")
 		}
-		m, err := eval.MergeShards(g.out, "features")
+		m, err := eval.MergeFeatures(g.out)
 		if err != nil {
-			return err
-		}
-		if err := eval.WriteArrays(g.out, "features", "", m.Flat, m.Meta.Cols, m.Labels); err != nil {
-			return err
-		}
-		if err := eval.WriteShardMeta(filepath.Join(g.out, "extract.json"), m.Meta); err != nil {
 			return err
 		}
 		fmt.Fprintf(g.stdout, "merged %d shards: %d×%d features into %s\n", m.Shards, len(m.Labels), m.Meta.Cols, filepath.Join(g.out, "features.npy"))
@@ -85,31 +76,10 @@ func runExtract(g *globals, o extractOptions) error {
 	if err != nil {
 		return err
 	}
-	lo, hi := eval.ShardRange(i, n, set.N)
-	d := m.FeatureLen()
-	bar := progressFor(g, hi-lo, "extract")
-	feats, err := eval.ExtractRange(m, set, lo, hi, o.batch, g.workers, bar)
-	bar.Done()
+	meta, err := eval.ExtractShard(g.out, o.model, o.data, m, set, i, n, o.shard != "", o.batch, g.workers, jobMonitor{g})
 	if err != nil {
 		return err
 	}
-	sum, err := eval.FileSHA256(o.model)
-	if err != nil {
-		return err
-	}
-	if err := os.MkdirAll(g.out, 0o755); err != nil {
-		return err
-	}
-	meta := eval.ShardMeta{Kind: "features", Model: o.model, ModelSHA256: sum, Data: set.Name, DataSpec: o.data,
-		Total: set.N, Shard: i, Shards: n, Lo: lo, Hi: hi, Cols: d, Classes: set.Classes}
-	if o.shard != "" {
-		err = eval.WriteShard(g.out, meta, feats, set.Labels[lo:hi])
-	} else if err = eval.WriteArrays(g.out, "features", "", feats, d, set.Labels); err == nil {
-		err = eval.WriteShardMeta(filepath.Join(g.out, "extract.json"), meta)
-	}
-	if err != nil {
-		return err
-	}
-	fmt.Fprintf(g.stdout, "%d×%d features of %s (images %d to %d) written to %s\n", hi-lo, d, set.Name, lo, hi-1, g.out)
+	fmt.Fprintf(g.stdout, "%d×%d features of %s (images %d to %d) written to %s\n", meta.Hi-meta.Lo, meta.Cols, set.Name, meta.Lo, meta.Hi-1, g.out)
 	return nil
 }

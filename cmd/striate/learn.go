@@ -1,25 +1,22 @@
 package main
 
 import (
-	"encoding/json"
 	"flag"
 	"fmt"
 	"os"
 	"path/filepath"
 	"time"
 
-	"github.com/striate/striate/datasets"
 	"github.com/striate/striate/eval"
-	"github.com/striate/striate/internal/safefile"
 	"github.com/striate/striate/learn"
-	"github.com/striate/striate/pipeline"
 )
 
 func init() {
 	register(&command{
-		name:    "learn",
-		summary: "learn a simple-cell bank by sparse coding of whitened patches from the shipped photos",
-		usage:   "",
+		name:      "learn",
+		flagsOnly: true,
+		summary:   "learn a simple-cell bank by sparse coding of whitened patches from the shipped photos",
+		usage:     "",
 		example: `  striate learn --out bank/                       # 256 atoms of 16×16: bank.json, config.json, atoms.png, bank_hist.png
   striate train --data fashion --config bank/config.json --out learned.stm   # a pipeline on that bank
   striate learn --quick --out /tmp/bank           # a small, fast run (for tests and a first look)
@@ -43,9 +40,6 @@ func init() {
 			g.addQuiet(fs)
 			g.addOut(fs, "bank")
 			return func(args []string) error {
-				if len(args) > 0 {
-					return usagef("unexpected argument %q (learn takes flags only)", args[0])
-				}
 				if *whiten != "of" && *whiten != "zca" {
 					return usagef("--whiten %q; want of or zca", *whiten)
 				}
@@ -73,53 +67,24 @@ type learnArgs struct {
 }
 
 func runLearn(g *globals, a learnArgs) error {
-	photos, err := datasets.Photos()
-	if err != nil {
-		return err
-	}
 	cfg := learn.PhotoBankConfig{PatchSize: a.size, Patches: a.patches, Whiten: a.whiten, ZCAEps: a.eps, F0: a.f0,
 		Dict: learn.DictConfig{Atoms: a.atoms, Lambda: a.lambda, BatchSize: a.batch, Epochs: a.epochs, Forget: a.forget}}
-	steps := a.epochs * ((a.patches + a.batch - 1) / a.batch)
-	bar := g.newProgress(steps, "learn")
 	start := time.Now()
-	pb, err := cfg.Learn(photos, g.seed, g.workers, bar)
-	bar.Done()
+	pb, err := eval.LearnPhotoBank(cfg, g.seed, g.workers, jobMonitor{g})
 	if err != nil {
 		return err
 	}
 	fitTime := time.Since(start)
-	bank, rep := pb.Bank, pb.Report
+	rep := pb.Report
 	if err := os.MkdirAll(g.out, 0o755); err != nil {
 		return err
 	}
-	bj, err := json.Marshal(bank)
+	histErr, err := eval.WriteBankFiles(g.out, pb, g.seed)
+	if histErr != nil {
+		fmt.Fprintf(g.stderr, "striate learn: no histograms: %v\n", histErr)
+	}
 	if err != nil {
 		return err
-	}
-	mosaic, err := eval.AtomMosaicPNG(bank, 0, 4)
-	if err != nil {
-		return err
-	}
-	// config.json: the default pipeline with this bank in place of the
-	// hand-set Gabor bank, ready for "striate train --config".
-	pc := pipeline.DefaultConfig()
-	pc.Front.Bank = bank
-	pc.Front.Gabor.Disable = true
-	pc.Seed = g.seed
-	cj, err := pc.MarshalIndent()
-	if err != nil {
-		return err
-	}
-	files := map[string][]byte{"bank.json": bj, "atoms.png": mosaic, "config.json": cj}
-	if hist, err := eval.BankHistogramsPNG(rep); err == nil {
-		files["bank_hist.png"] = hist
-	} else {
-		fmt.Fprintf(g.stderr, "striate learn: no histograms: %v\n", err)
-	}
-	for name, b := range files {
-		if err := safefile.WriteBytes(filepath.Join(g.out, name), b); err != nil {
-			return err
-		}
 	}
 	w := g.stdout
 	wh := fmt.Sprintf("whitening %s f0 %g", a.whiten, a.f0)

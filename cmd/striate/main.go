@@ -37,6 +37,8 @@ type command struct {
 	summary string
 	usage   string // one line: arguments after the flags
 	example string // shown under -h
+	// flagsOnly rejects arguments after the flags as a usage error.
+	flagsOnly bool
 	// setup declares the command's flags on fs and returns the function that
 	// runs it with the remaining arguments.
 	setup func(fs *flag.FlagSet, g *globals) func(args []string) error
@@ -91,7 +93,13 @@ func run(args []string, stdout, stderr io.Writer) int {
 		return exitUsage
 	}
 	g.stdout, g.stderr = stdout, stderr
-	if err := runFn(fs.Args()); err != nil {
+	var err error
+	if c.flagsOnly && fs.NArg() > 0 {
+		err = usagef("unexpected argument %q (%s takes flags only)", fs.Arg(0), c.name)
+	} else {
+		err = runFn(fs.Args())
+	}
+	if err != nil {
 		fmt.Fprintf(stderr, "striate %s: %v\n", c.name, err)
 		var ue usageError
 		if errors.As(err, &ue) {

@@ -3,7 +3,6 @@ package main
 import (
 	"flag"
 	"fmt"
-	"sort"
 
 	"github.com/striate/striate/datasets"
 	"github.com/striate/striate/eval"
@@ -51,45 +50,22 @@ func runPredict(g *globals, modelPath string, top, batch int, args []string) err
 	if err != nil {
 		return err
 	}
-	h, w := m.InputSize()
 	classes := m.Classes()
-	failed := 0
 	bar := progressFor(g, len(files), "predict")
 	defer bar.Done()
-	for lo := 0; lo < len(files); lo += batch {
-		hi := min(lo+batch, len(files))
-		var imgs [][]float32
-		var names []string
-		for _, p := range files[lo:hi] {
-			// The guarded decoder refuses empty images and declared sizes
-			// above datasets.MaxImagePixels; such a file is reported and
-			// skipped, and the others are still predicted.
-			img, err := datasets.DecodeImageFile(p)
-			if err != nil {
-				fmt.Fprintf(g.stderr, "striate predict: skipped: %v\n", err)
-				failed++
-				continue
+	skip := func(err error) { fmt.Fprintf(g.stderr, "striate predict: skipped: %v\n", err) }
+	failed, err := eval.PredictFiles(m, files, eval.RunOptions{Workers: g.workers, Batch: batch, Progress: bar}, skip,
+		func(preds []eval.FilePrediction) {
+			for _, p := range preds {
+				line := p.Path
+				for _, c := range eval.MostProbable(p.Probs, top) {
+					line += fmt.Sprintf("\t%s\t%.4f", classes[c], p.Probs[c])
+				}
+				fmt.Fprintln(g.stdout, line)
 			}
-			imgs = append(imgs, datasets.ToGray(nil, img, h, w))
-			names = append(names, p)
-		}
-		probs, err := eval.Predict(m, imgs, h, w, eval.RunOptions{Workers: g.workers, Batch: batch})
-		if err != nil {
-			return err
-		}
-		for i, p := range probs {
-			order := make([]int, len(p))
-			for c := range order {
-				order[c] = c
-			}
-			sort.SliceStable(order, func(a, b int) bool { return p[order[a]] > p[order[b]] })
-			line := names[i]
-			for _, c := range order[:top] {
-				line += fmt.Sprintf("\t%s\t%.4f", classes[c], p[c])
-			}
-			fmt.Fprintln(g.stdout, line)
-		}
-		bar.Step(hi, len(files), "predict")
+		})
+	if err != nil {
+		return err
 	}
 	if failed > 0 {
 		return fmt.Errorf("%d of %d files could not be read as images", failed, len(files))

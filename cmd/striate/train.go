@@ -7,15 +7,17 @@ import (
 	"time"
 
 	"github.com/striate/striate/datasets"
+	"github.com/striate/striate/eval"
 	"github.com/striate/striate/internal/safefile"
 	"github.com/striate/striate/pipeline"
 )
 
 func init() {
 	register(&command{
-		name:    "train",
-		summary: "fit a pipeline on MNIST, Fashion-MNIST, an IDX folder or a folder of class subfolders and save the model",
-		usage:   "",
+		name:      "train",
+		flagsOnly: true,
+		summary:   "fit a pipeline on MNIST, Fashion-MNIST, an IDX folder or a folder of class subfolders and save the model",
+		usage:     "",
 		example: `  striate train --data mnist --out mnist.stm
   striate train --data fashion --out fashion.stm                 # preset "garments" (auto for fashion)
   striate train --data /srv/depot/photos --preset garments --out garments.stm
@@ -34,9 +36,6 @@ func init() {
 			g.addQuiet(fs)
 			fs.StringVar(&g.out, "out", "model.stm", "model `file` to write")
 			return func(args []string) error {
-				if len(args) > 0 {
-					return usagef("unexpected argument %q (train takes flags only)", args[0])
-				}
 				if *labels < 0 {
 					return usagef("--labels %d; want 0 (all) or a positive count per class", *labels)
 				}
@@ -98,16 +97,8 @@ func runTrain(g *globals, data string, perClass int, preset string, mirror bool)
 			return err
 		}
 	}
-	opts := pipeline.FitOptions{Workers: g.workers}
-	if perClass > 0 {
-		opts.Unlabeled = train
-		train = train.Subset(datasets.PerClass(train.Labels, perClass, g.seed))
-	}
-	bar := g.newProgress(train.N, "train")
-	opts.Progress = bar
 	start := time.Now()
-	m, rep, err := pipeline.FitReported(cfg, train, opts)
-	bar.Done()
+	m, rep, train, err := eval.FitLabelled(cfg, train, perClass, g.seed, g.workers, jobMonitor{g})
 	if err != nil {
 		return err
 	}
@@ -127,7 +118,7 @@ func runTrain(g *globals, data string, perClass int, preset string, mirror bool)
 		fmt.Fprintf(g.stdout, "no test split in %s to score on (score with: striate evaluate --model %s --data FOLDER)\n", data, g.out)
 		return nil
 	}
-	bar = g.newProgress(test.N, "test")
+	bar := g.newProgress(test.N, "test")
 	acc, err := pipeline.Accuracy(m, test, nil, g.workers, bar)
 	bar.Done()
 	if err != nil {

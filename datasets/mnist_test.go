@@ -25,9 +25,8 @@ func loadOrSkip(t *testing.T, load func(Split, string) (*Set, error), split Spli
 // TestMNISTFacts checks the published facts of MNIST (LeCun, Cortes & Burges,
 // "THE MNIST DATABASE of handwritten digits"): 60,000 training and 10,000
 // test images of 28×28, labels 0..9, and the per-class counts of both splits.
-// The per-class counts are widely published (e.g. in many tutorials'
-// np.bincount of the labels); they are quoted here from memory, and this test
-// is what confirms them.
+// The per-class counts are widely published (an np.bincount of the labels);
+// they are quoted here from memory, and this test is what confirms them.
 func TestMNISTFacts(t *testing.T) {
 	want := map[Split][]int{
 		Train: {5923, 6742, 5958, 6131, 5842, 5421, 5918, 6265, 5851, 5949},

@@ -44,7 +44,7 @@ type DictConfig struct {
 	Steps     int     `json:"steps"`      // minibatch steps in total; 0 means Epochs passes
 	Seed      uint64  `json:"seed"`       // initial atoms and the shuffle order
 	// Forget > 0 is ρ in the past-scaling factor β_t = (1 − n_t/N_t)^ρ;
-	// 0 keeps scikit-learn's schedule (see above). On the bench protocol
+	// 0 keeps the default schedule above (the one scikit-learn uses). On the bench protocol
 	// ρ = 10 reaches in one pass a held-out objective that scikit-learn's
 	// schedule needs 8 passes for; its more converged atoms are also more
 	// edge-like (TestNaturalImageAtoms' long run: median spatial-frequency

@@ -13,10 +13,10 @@ func init() {
 	register(&command{
 		name:    "compare",
 		summary: "compare two models on the same test images: McNemar test and bootstrap interval",
-		usage:   "A.stm B.stm",
-		example: `  striate compare --data fashion hand.stm learned.stm
-  striate compare --data fashion --out cmp --robust quick hand.stm learned.stm
-  striate compare --data mnist --resamples 10000 --seed 3 a.stm b.stm`,
+		usage:   "A.striate B.striate",
+		example: `  striate compare --data fashion hand.striate learned.striate
+  striate compare --data fashion --out cmp --robust quick hand.striate learned.striate
+  striate compare --data mnist --resamples 10000 --seed 3 a.striate b.striate`,
 		setup: func(fs *flag.FlagSet, g *globals) func([]string) error {
 			data := fs.String("data", "", dataFlagHelp)
 			resamples := fs.Int("resamples", 2000, "paired bootstrap resamples")

@@ -21,14 +21,14 @@ func init() {
 		flagsOnly: true,
 		summary:   "score a model on a test set: accuracy, per-class scores, calibration, report",
 		usage:     "",
-		example: `  striate evaluate --model fashion.stm --data fashion                # print the scores
-  striate evaluate --model fashion.stm --data fashion --out rep      # + rep/report.md, report.html, results.json
-  striate evaluate --model fashion.stm --data fashion --out rep --robust quick --speed
-  striate evaluate --model mnist.stm --data mnist --suite dev --peer lenet5.json   # MNIST-C + grid beside LeNet-5
-  striate evaluate --model mnist.stm --data ./depot-photos           # a folder of class sub-folders
+		example: `  striate evaluate --model fashion.striate --data fashion                # print the scores
+  striate evaluate --model fashion.striate --data fashion --out rep      # + rep/report.md, report.html, results.json
+  striate evaluate --model fashion.striate --data fashion --out rep --robust quick --speed
+  striate evaluate --model mnist.striate --data mnist --suite dev --peer lenet5.json   # MNIST-C + grid beside LeNet-5
+  striate evaluate --model mnist.striate --data ./depot-photos           # a folder of class sub-folders
 
   # split across 4 machines (job-array index 0..3), then merge:
-  striate evaluate --model m.stm --data mnist --out shards --shard 2/4
+  striate evaluate --model m.striate --data mnist --out shards --shard 2/4
   striate evaluate --merge --out shards`,
 		setup: func(fs *flag.FlagSet, g *globals) func([]string) error {
 			var o evalOptions

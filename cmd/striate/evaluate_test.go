@@ -88,7 +88,7 @@ func cliFixture(t *testing.T) {
 				cliErr = err
 				return
 			}
-			*path = filepath.Join(cliDir, []string{"hand.stm", "coarse.stm"}[i])
+			*path = filepath.Join(cliDir, []string{"hand.striate", "coarse.striate"}[i])
 			if cliErr = m.SaveFile(*path); cliErr != nil {
 				return
 			}
@@ -413,18 +413,18 @@ func TestCLIInspect(t *testing.T) {
 func TestCLIErrors(t *testing.T) {
 	cliFixture(t)
 	dir := t.TempDir()
-	missing := filepath.Join(dir, "nope.stm")
+	missing := filepath.Join(dir, "nope.striate")
 	b, err := os.ReadFile(cliModelA)
 	if err != nil {
 		t.Fatal(err)
 	}
-	corrupt := filepath.Join(dir, "corrupt.stm")
+	corrupt := filepath.Join(dir, "corrupt.striate")
 	c := append([]byte{}, b...)
 	c[len(c)/2] ^= 0x40
 	if err := os.WriteFile(corrupt, c, 0o644); err != nil {
 		t.Fatal(err)
 	}
-	truncated := filepath.Join(dir, "truncated.stm")
+	truncated := filepath.Join(dir, "truncated.striate")
 	if err := os.WriteFile(truncated, b[:len(b)/3], 0o644); err != nil {
 		t.Fatal(err)
 	}
@@ -433,7 +433,7 @@ func TestCLIErrors(t *testing.T) {
 		code int
 		want string
 	}{
-		{[]string{"evaluate", "--model", missing, "--data", cliTest}, 1, "nope.stm"},
+		{[]string{"evaluate", "--model", missing, "--data", cliTest}, 1, "nope.striate"},
 		{[]string{"evaluate", "--model", corrupt, "--data", cliTest}, 1, "checksum"},
 		{[]string{"inspect", corrupt}, 1, "checksum"},
 		{[]string{"inspect", truncated}, 1, "truncated"},
@@ -445,7 +445,7 @@ func TestCLIErrors(t *testing.T) {
 		{[]string{"evaluate", "--model", cliModelA, "--data", cliTest, "--out", dir, "--shard", "3/3"}, 2, "i from 0 to n-1"},
 		{[]string{"evaluate", "--model", cliModelA, "--data", cliTest, "--robust", "extreme"}, 2, "none, quick or full"},
 		{[]string{"evaluate", "--merge", "--out", dir}, 1, "no predictions shards"},
-		{[]string{"compare", "--data", cliTest, cliModelA, missing}, 1, "nope.stm"},
+		{[]string{"compare", "--data", cliTest, cliModelA, missing}, 1, "nope.striate"},
 		{[]string{"extract", "--merge", "--out", dir, "--model", cliModelA}, 2, "drop --model"},
 	} {
 		r := runCLI(t, tc.args...)

@@ -14,13 +14,13 @@ func init() {
 		flagsOnly: true,
 		summary:   "write a model's feature vectors for a data set to NPY files",
 		usage:     "",
-		example: `  striate extract --model fashion.stm --data fashion --out feats
+		example: `  striate extract --model fashion.striate --data fashion --out feats
       # feats/features.npy  float32 N×D   (np.load("feats/features.npy"))
       # feats/labels.npy    int32   N
       # feats/extract.json  what was extracted, from which model and data
 
   # split across 8 machines (job-array index 0..7), then merge:
-  striate extract --model m.stm --data mnist:train --out feats --shard 5/8
+  striate extract --model m.striate --data mnist:train --out feats --shard 5/8
   striate extract --merge --out feats       # byte-identical to the unsharded files`,
 		setup: func(fs *flag.FlagSet, g *globals) func([]string) error {
 			var o extractOptions

@@ -15,9 +15,9 @@ func init() {
 	register(&command{
 		name:    "inspect",
 		summary: "show a model file's header, configuration and tensor table",
-		usage:   "MODEL.stm",
-		example: `  striate inspect fashion.stm
-  striate inspect --json fashion.stm | jq .tensors`,
+		usage:   "MODEL.striate",
+		example: `  striate inspect fashion.striate
+  striate inspect --json fashion.striate | jq .tensors`,
 		setup: func(fs *flag.FlagSet, g *globals) func([]string) error {
 			asJSON := fs.Bool("json", false, "print the file's JSON header (config, classes, tensors) instead of tables")
 			return func(args []string) error {

@@ -18,7 +18,7 @@ func init() {
 		summary:   "learn a simple-cell bank by sparse coding of whitened patches from the shipped photos",
 		usage:     "",
 		example: `  striate learn --out bank/                       # 256 atoms of 16×16: bank.json, config.json, atoms.png, bank_hist.png
-  striate train --data fashion --config bank/config.json --out learned.stm   # a pipeline on that bank
+  striate train --data fashion --config bank/config.json --out learned.striate   # a pipeline on that bank
   striate learn --quick --out /tmp/bank           # a small, fast run (for tests and a first look)
   striate learn --atoms 192 --epochs 8 --out bank192/
   striate learn --forget 10 --epochs 1 --out bank-fast/    # one pass with a fast-forgetting past (Mairal et al.'s ρ)
@@ -28,13 +28,13 @@ func init() {
 			atoms := fs.Int("atoms", 256, "dictionary atoms K")
 			size := fs.Int("size", 16, "patch side in pixels (atoms are size×size)")
 			patches := fs.Int("patches", 50000, "training patches sampled from the photos")
-			lambda := fs.Float64("lambda", 2, "sparsity weight λ in ½‖x − Dᵀa‖² + λ‖a‖₁ (patches have unit pixel variance with --whiten of)")
-			whiten := fs.String("whiten", "of", "whitening: `of` (Olshausen & Field's f·exp(−(f/f0)⁴) filter on the photos) or zca (on the patches)")
+			lambda := fs.Float64("lambda", 2, "sparsity weight λ in ½‖x − Dᵀa‖² + λ‖a‖₁ (patches have unit pixel variance after Olshausen & Field's whitening, --whiten of)")
+			whiten := fs.String("whiten", "of", "whitening `kind`: of (Olshausen & Field's f·exp(−(f/f0)⁴) filter on the photos) or zca (on the patches)")
 			f0 := fs.Float64("f0", 0.25, "cut-off of the of filter, cycles/pixel")
 			eps := fs.Float64("eps", 0.01, "ZCA regulariser ε (squared [0,1] pixel units), with --whiten zca")
 			epochs := fs.Int("epochs", 6, "passes over the training patches")
 			batch := fs.Int("batch", 256, "minibatch size")
-			forget := fs.Float64("forget", 0, "ρ of the past scaling (1 − n/N)^ρ of the dictionary update (Mairal et al. 2010); 0 keeps scikit-learn's schedule")
+			forget := fs.Float64("forget", 0, "ρ of the past scaling (1 − n/N)^ρ of the dictionary update (Mairal et al. 2010 §3.4.2); 0 keeps the default, which averages the first minibatch-size steps evenly and then remembers about that many steps")
 			g.addSeed(fs)
 			g.addWorkers(fs)
 			g.addQuiet(fs)

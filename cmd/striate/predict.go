@@ -13,9 +13,9 @@ func init() {
 		name:    "predict",
 		summary: "classify image files or folders of images",
 		usage:   "IMAGE|FOLDER...",
-		example: `  striate predict --model fashion.stm shirt.png
-  striate predict --model fashion.stm --top 3 incoming/          # every image under incoming/
-  striate predict --model fashion.stm bin1/ bin2/ > sorted.tsv
+		example: `  striate predict --model fashion.striate shirt.png
+  striate predict --model fashion.striate --top 3 incoming/          # every image under incoming/
+  striate predict --model fashion.striate bin1/ bin2/ > sorted.tsv
 
 Output: one line per image, tab-separated: path, class, probability
 (with --top k: k class/probability pairs, most probable first).`,

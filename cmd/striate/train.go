@@ -18,13 +18,13 @@ func init() {
 		flagsOnly: true,
 		summary:   "fit a pipeline on MNIST, Fashion-MNIST, an IDX folder or a folder of class subfolders and save the model",
 		usage:     "",
-		example: `  striate train --data mnist --out mnist.stm
-  striate train --data fashion --out fashion.stm                 # preset "garments" (auto for fashion)
-  striate train --data /srv/depot/photos --preset garments --out garments.stm
-  striate train --data fashion --config fashion.json --seed 7 --out fashion.stm
-  striate train --data mnist --labels 100 --out mnist-100.stm      # 100 labels per class
-  striate train --data /srv/depot/idx --out garments.stm           # train-/t10k-*-idx?-ubyte[.gz] files
-  striate train --data /srv/depot/photos --out garments.stm        # one subfolder of images per class`,
+		example: `  striate train --data mnist --out mnist.striate
+  striate train --data fashion --out fashion.striate                 # preset "garments" (auto for fashion)
+  striate train --data /srv/depot/photos --preset garments --out garments.striate
+  striate train --data fashion --config fashion.json --seed 7 --out fashion.striate
+  striate train --data mnist --labels 100 --out mnist-100.striate      # 100 labels per class
+  striate train --data /srv/depot/idx --out garments.striate           # train-/t10k-*-idx?-ubyte[.gz] files
+  striate train --data /srv/depot/photos --out garments.striate        # one subfolder of images per class`,
 		setup: func(fs *flag.FlagSet, g *globals) func([]string) error {
 			data := fs.String("data", "mnist", "training data: `mnist`, fashion, a folder of IDX files named like MNIST's, or a folder with one subfolder of images per class")
 			labels := fs.Int("labels", 0, "use only this many labelled images per class (seeded; 0 = all); the unsupervised stages still see every training image without its label")
@@ -34,7 +34,7 @@ func init() {
 			g.addWorkers(fs)
 			g.addConfig(fs)
 			g.addQuiet(fs)
-			fs.StringVar(&g.out, "out", "model.stm", "model `file` to write")
+			fs.StringVar(&g.out, "out", "model.striate", "model `file` to write")
 			return func(args []string) error {
 				if *labels < 0 {
 					return usagef("--labels %d; want 0 (all) or a positive count per class", *labels)

@@ -17,7 +17,7 @@ import (
 // is far above chance (1/3) without being a threshold that cannot fail.
 func TestCLITrainFolder(t *testing.T) {
 	cliFixture(t)
-	out := filepath.Join(t.TempDir(), "shapes.stm")
+	out := filepath.Join(t.TempDir(), "shapes.striate")
 	r := mustRun(t, 0, "train", "--data", filepath.Join(cliDir, "train"), "--out", out, "--workers", "2", "--quiet", "--seed", "3")
 	if !strings.Contains(r.stdout, "model written to "+out) || !strings.Contains(r.stdout, "no test split") {
 		t.Errorf("train printed:\n%s", r.stdout)
@@ -45,7 +45,7 @@ func TestCLITrainFolder(t *testing.T) {
 func TestCLITrainErrors(t *testing.T) {
 	cliFixture(t)
 	missing := filepath.Join(t.TempDir(), "nowhere")
-	r := runCLI(t, "train", "--data", missing, "--out", filepath.Join(t.TempDir(), "x.stm"), "--quiet")
+	r := runCLI(t, "train", "--data", missing, "--out", filepath.Join(t.TempDir(), "x.striate"), "--quiet")
 	if r.code == 0 || !strings.Contains(r.stderr, "--data") || !strings.Contains(r.stderr, "nowhere") {
 		t.Errorf("train on a missing folder: exit %d, stderr:\n%s", r.code, r.stderr)
 	}
@@ -65,7 +65,7 @@ func TestCLITrainErrors(t *testing.T) {
 // cost accuracy; same 0.9 floor as TestCLITrainFolder).
 func TestCLITrainMirror(t *testing.T) {
 	cliFixture(t)
-	out := filepath.Join(t.TempDir(), "shapes-mirror.stm")
+	out := filepath.Join(t.TempDir(), "shapes-mirror.striate")
 	mustRun(t, 0, "train", "--data", filepath.Join(cliDir, "train"), "--mirror", "--out", out, "--workers", "2", "--quiet", "--seed", "3")
 	m, err := pipeline.LoadFile(out)
 	if err != nil {

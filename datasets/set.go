@@ -76,6 +76,19 @@ func (s *Set) Subset(idx []int) *Set {
 	return out
 }
 
+// First returns the first n images of s: s itself when n is 0 or at least
+// s.N, else a Subset of images 0 … n−1 (a fixed, unshuffled prefix).
+func (s *Set) First(n int) *Set {
+	if n <= 0 || n >= s.N {
+		return s
+	}
+	idx := make([]int, n)
+	for i := range idx {
+		idx[i] = i
+	}
+	return s.Subset(idx)
+}
+
 // Mirrored returns a new Set holding the left–right mirror image of every
 // image of s (pixel (y, x) from (y, W−1−x)), with the same labels.
 func (s *Set) Mirrored() *Set {

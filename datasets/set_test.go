@@ -29,3 +29,16 @@ func TestMirrored(t *testing.T) {
 		t.Error("the mirrored set shares pixels with the original")
 	}
 }
+
+// TestFirst: First(n) is the unshuffled prefix — the images and labels of
+// Subset(0 … n−1) — and First of 0 or ≥ N is the set itself.
+func TestFirst(t *testing.T) {
+	s := &Set{Name: "t", N: 4, H: 1, W: 2, Pix: []uint8{1, 2, 3, 4, 5, 6, 7, 8}, Labels: []int{0, 1, 0, 1}, Classes: []string{"a", "b"}}
+	f := s.First(3)
+	if f.N != 3 || string(f.Pix) != string([]uint8{1, 2, 3, 4, 5, 6}) || f.Labels[2] != 0 || len(f.Classes) != 2 {
+		t.Errorf("First(3) = %+v", f)
+	}
+	if s.First(0) != s || s.First(4) != s || s.First(9) != s {
+		t.Error("First of 0 or ≥ N should return the set itself")
+	}
+}

@@ -210,7 +210,7 @@ func MainJob(d *MainJobData, cfg MainJobConfig, mon JobMonitor) (*Report, error)
 		if sz.trainPerClass > 0 {
 			train = train.Subset(datasets.PerClass(train.Labels, sz.trainPerClass, cfg.Seed))
 		}
-		test := firstN(dp.test, sz.test)
+		test := dp.test.First(sz.test)
 		td := FromSet(test)
 		rep.Data = append(rep.Data, Provenance{Name: dp.test.Name, Source: dp.test.Source, TrainName: dp.train.Name, Train: train.N,
 			Test: test.N, H: test.H, W: test.W, Classes: test.Classes})
@@ -276,7 +276,7 @@ func MainJob(d *MainJobData, cfg MainJobConfig, mon JobMonitor) (*Report, error)
 
 	// Label efficiency on MNIST: the unsupervised stages see the whole
 	// training split without labels; the head sees only the budget.
-	mt := firstN(d.MNISTTest, sz.test)
+	mt := d.MNISTTest.First(sz.test)
 	mtd := FromSet(mt)
 	hand := specs[1][0] // hand-set on MNIST
 	mon.Logf("label efficiency of %s on MNIST: %v labels per class", hand.name, sz.labelBudgets)
@@ -323,19 +323,6 @@ func addBankFigures(rep *Report, learned *pipeline.Model, frep pipeline.FitRepor
 		BankPanel{Name: "hand-set", Bank: hb},
 		BankPanel{Name: "learned", Bank: learned.Config().Front.Bank, Report: frep.Bank})
 	return nil
-}
-
-// firstN returns the first n images of s (all of them when n is 0 or at
-// least s.N): a fixed, unshuffled prefix of a published test split.
-func firstN(s *datasets.Set, n int) *datasets.Set {
-	if n <= 0 || n >= s.N {
-		return s
-	}
-	idx := make([]int, n)
-	for i := range idx {
-		idx[i] = i
-	}
-	return s.Subset(idx)
 }
 
 // firstData returns the first n images of d (all when n is 0 or ≥ len).

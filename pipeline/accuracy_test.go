@@ -186,19 +186,7 @@ func loadPair(t *testing.T, fashion bool, sc runScale) (train, test *datasets.Se
 	if err != nil {
 		t.Fatal(err)
 	}
-	return front(train, sc.train), front(test, sc.test)
-}
-
-// front is the first n images of s (all of them when n is 0 or more than s has).
-func front(s *datasets.Set, n int) *datasets.Set {
-	if n <= 0 || n >= s.N {
-		return s
-	}
-	idx := make([]int, n)
-	for i := range idx {
-		idx[i] = i
-	}
-	return s.Subset(idx)
+	return train.First(sc.train), test.First(sc.test)
 }
 
 // Targets and floors. A target is a full-scale figure the project aims at;

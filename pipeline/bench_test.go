@@ -22,7 +22,7 @@ func BenchmarkFit(b *testing.B) {
 		b.Run(itoa(n), func(b *testing.B) {
 			set := train
 			if n < train.N {
-				set = firstN(train, n)
+				set = train.First(n)
 			}
 			b.ReportAllocs()
 			var last FitReport
@@ -46,7 +46,7 @@ func BenchmarkFit(b *testing.B) {
 // (fitted on 2000 digits) on 28×28 images, single image and batched.
 func BenchmarkPredict(b *testing.B) {
 	train, test := mnist(b)
-	m, err := Fit(DefaultConfig(), firstN(train, 2000), FitOptions{Workers: runtime.GOMAXPROCS(0)})
+	m, err := Fit(DefaultConfig(), train.First(2000), FitOptions{Workers: runtime.GOMAXPROCS(0)})
 	if err != nil {
 		b.Fatal(err)
 	}

@@ -111,7 +111,7 @@ func TestCrossArchModel(t *testing.T) {
 
 func writeSmallModel(t *testing.T) {
 	train, test := mnist(t)
-	m, err := Fit(smallConfig(), firstN(train, 1000), FitOptions{Workers: 2})
+	m, err := Fit(smallConfig(), train.First(1000), FitOptions{Workers: 2})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -122,7 +122,7 @@ func writeSmallModel(t *testing.T) {
 	if err := os.WriteFile(smallModel, buf.Bytes(), 0o644); err != nil {
 		t.Fatal(err)
 	}
-	if err := os.WriteFile(smallDigits, firstN(test, 32).Pix, 0o644); err != nil {
+	if err := os.WriteFile(smallDigits, test.First(32).Pix, 0o644); err != nil {
 		t.Fatal(err)
 	}
 	probs, err := m.PredictBatch(digits32(t), 28, 28, 2)

@@ -17,7 +17,7 @@ func TestMirrorPrediction(t *testing.T) {
 	train, test := mnist(t)
 	cfg := quickConfig()
 	cfg.Mirror = true
-	m, rep, err := FitReported(cfg, firstN(train, 600), FitOptions{Workers: 2})
+	m, rep, err := FitReported(cfg, train.First(600), FitOptions{Workers: 2})
 	if err != nil {
 		t.Fatal(err)
 	}

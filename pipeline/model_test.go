@@ -36,14 +36,6 @@ func mnist(t testing.TB) (train, test *datasets.Set) {
 	return mnistOnce.train, mnistOnce.test
 }
 
-func firstN(s *datasets.Set, n int) *datasets.Set {
-	idx := make([]int, n)
-	for i := range idx {
-		idx[i] = i
-	}
-	return s.Subset(idx)
-}
-
 // quickConfig is a small, fast pipeline for unit tests: the default front
 // end, 2×2 average pooling, a softmax head for a few epochs.
 func quickConfig() Config {
@@ -67,7 +59,7 @@ func quickModel(t testing.TB) *Model {
 	t.Helper()
 	train, _ := mnist(t)
 	quickOnce.Do(func() {
-		quickOnce.m, quickOnce.err = Fit(quickConfig(), firstN(train, 2000), FitOptions{Workers: 2})
+		quickOnce.m, quickOnce.err = Fit(quickConfig(), train.First(2000), FitOptions{Workers: 2})
 	})
 	if quickOnce.err != nil {
 		t.Fatal(quickOnce.err)
@@ -97,7 +89,7 @@ func accuracy(t testing.TB, m *Model, s *datasets.Set, workers int) float64 {
 func TestFitSmallMNIST(t *testing.T) {
 	m := quickModel(t)
 	_, test := mnist(t)
-	acc := accuracy(t, m, firstN(test, 1000), 2)
+	acc := accuracy(t, m, test.First(1000), 2)
 	// Floor: a linear classifier on raw MNIST pixels trained on 2000 images
 	// reaches about 88% (from memory, LeCun et al. 1998 list 88% for a
 	// linear classifier on all 60000); pooled Gabor-energy features should do
@@ -154,7 +146,7 @@ func TestSaveLoadRoundTrip(t *testing.T) {
 // file, whatever the number of workers.
 func TestFitDeterministic(t *testing.T) {
 	train, _ := mnist(t)
-	small := firstN(train, 600)
+	small := train.First(600)
 	cfg := quickConfig()
 	cfg.Head.Epochs = 2
 	var files [2][]byte
@@ -321,7 +313,7 @@ func TestTemplateLayerRoundTrip(t *testing.T) {
 	}
 	cfg.Pool.Keep = new(true)
 	cfg.Unlabeled = 300
-	m, err := Fit(cfg, firstN(train, 500), FitOptions{Workers: 2, Unlabeled: firstN(test, 400)})
+	m, err := Fit(cfg, train.First(500), FitOptions{Workers: 2, Unlabeled: test.First(400)})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -360,7 +352,7 @@ func TestLearnedBankRoundTrip(t *testing.T) {
 	train, test := mnist(t)
 	cfg := quickConfig()
 	cfg.LearnBank = &LearnBankConfig{Patches: 3000, Dict: learn.DictConfig{Atoms: 8, Epochs: 1}}
-	m, err := Fit(cfg, firstN(train, 400), FitOptions{Workers: 2})
+	m, err := Fit(cfg, train.First(400), FitOptions{Workers: 2})
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -103,7 +103,7 @@ func TestSingleAndBatchPathsAgree(t *testing.T) {
 // often as it is used, and is left unchanged by fitting.
 func TestPlanFitMatchesFit(t *testing.T) {
 	train, _ := mnist(t)
-	small := firstN(train, 300)
+	small := train.First(300)
 	cfg := quickConfig()
 	cfg.Head.Epochs = 2
 	save := func(m *Model) []byte {

@@ -3,6 +3,7 @@ module github.com/striate/striate
 go 1.26.0
 
 require (
+	github.com/creack/pty v1.1.24
 	github.com/schollz/progressbar/v3 v3.19.1
 	golang.org/x/image v0.48.0
 	golang.org/x/term v0.44.0

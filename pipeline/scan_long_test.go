@@ -11,8 +11,8 @@ import (
 	"github.com/striate/striate/pipeline"
 )
 
-// The scene run prints the targets table of the attention pathway (issue
-// 11) with met / missed for each row:
+// The scene run prints the project's targets table of the attention
+// pathway with met / missed for each row:
 //
 //	STRIATE_LONG=1 go test -v -timeout 3h -run ScanTargets ./pipeline
 //
@@ -48,7 +48,7 @@ func TestScanTargets(t *testing.T) {
 	}
 }
 
-// scanTarget is one row of the issue's targets table.
+// scanTarget is one row of the targets table.
 type scanTarget struct {
 	what     string
 	value    float64

@@ -387,6 +387,22 @@ func TestCLIPredict(t *testing.T) {
 	}
 	mustRun(t, 2, "predict", "--model", cliModelA)
 	mustRun(t, 2, "predict", "--model", cliModelA, "--top", "9", good)
+
+	// A tab and a newline in a file name are escaped, so the line keeps its
+	// 1 + 2·top tab-separated fields (the text-format escapes; common practice).
+	img, err := os.ReadFile(good)
+	if err != nil {
+		t.Fatal(err)
+	}
+	odd := filepath.Join(dir, "belt\tbin\nA.png")
+	if err := os.WriteFile(odd, img, 0o644); err != nil {
+		t.Fatal(err)
+	}
+	r = mustRun(t, 0, "predict", "--model", cliModelA, "--top", "2", odd)
+	line := strings.TrimSuffix(r.stdout, "\n")
+	if f := strings.Split(line, "\t"); len(f) != 5 || !strings.HasSuffix(f[0], `belt\tbin\nA.png`) || strings.Contains(line, "\n") {
+		t.Errorf("predict of a file named with a tab and a newline printed %q; want the name escaped and 5 fields", r.stdout)
+	}
 }
 
 func TestCLIInspect(t *testing.T) {

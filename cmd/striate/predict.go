@@ -3,6 +3,7 @@ package main
 import (
 	"flag"
 	"fmt"
+	"strings"
 
 	"github.com/striate/striate/datasets"
 	"github.com/striate/striate/eval"
@@ -18,7 +19,8 @@ func init() {
   striate predict --model fashion.striate bin1/ bin2/ > sorted.tsv
 
 Output: one line per image, tab-separated: path, class, probability
-(with --top k: k class/probability pairs, most probable first).`,
+(with --top k: k class/probability pairs, most probable first). A backslash,
+tab, newline or carriage return in a path or class name is written as \\, \t, \n or \r.`,
 		setup: func(fs *flag.FlagSet, g *globals) func([]string) error {
 			model := fs.String("model", "", "model `file` written by striate train")
 			top := fs.Int("top", 1, "print the `k` most probable classes")
@@ -57,9 +59,9 @@ func runPredict(g *globals, modelPath string, top, batch int, args []string) err
 	failed, err := eval.PredictFiles(m, files, eval.RunOptions{Workers: g.workers, Batch: batch, Progress: bar}, skip,
 		func(preds []eval.FilePrediction) {
 			for _, p := range preds {
-				line := p.Path
+				line := tsvField(p.Path)
 				for _, c := range eval.MostProbable(p.Probs, top) {
-					line += fmt.Sprintf("\t%s\t%.4f", classes[c], p.Probs[c])
+					line += fmt.Sprintf("\t%s\t%.4f", tsvField(classes[c]), p.Probs[c])
 				}
 				fmt.Fprintln(g.stdout, line)
 			}
@@ -72,3 +74,11 @@ func runPredict(g *globals, modelPath string, top, batch int, args []string) err
 	}
 	return nil
 }
+
+// tsvEscaper escapes what would break a tab-separated line: a backslash, a
+// tab, a newline or a carriage return in a path or class name becomes \\,
+// \t, \n or \r (the text-format escapes of tab-separated files; common
+// practice), so every output line has exactly 1 + 2·top fields.
+var tsvEscaper = strings.NewReplacer(`\`, `\\`, "\t", `\t`, "\n", `\n`, "\r", `\r`)
+
+func tsvField(s string) string { return tsvEscaper.Replace(s) }

@@ -3,10 +3,8 @@ package main
 import (
 	"flag"
 	"fmt"
-	"math"
 	"strconv"
 	"strings"
-	"text/tabwriter"
 
 	"github.com/striate/striate/internal/benchwork"
 	"github.com/striate/striate/internal/frontbench"
@@ -81,34 +79,15 @@ func init() {
 func runBench(bc *benchContext) error {
 	g := bc.g
 	fmt.Fprintf(g.stdout, "reference work: %s\nbuild: %s\n\n", bc.Dir, v1layer.Build())
-	tw := tabwriter.NewWriter(g.stdout, 2, 4, 2, ' ', tabwriter.AlignRight)
-	fmt.Fprintln(tw, "stage\tsize\tthreads\tstriate\tpeer\tratio\tunit\tfastest peer\tbuild\t")
+	var rows []benchRow
 	for _, s := range benchSections {
-		rows, err := s.Rows(bc)
+		r, err := s.Rows(bc)
 		if err != nil {
 			return fmt.Errorf("section %s: %w", s.Name, err)
 		}
-		for _, r := range rows {
-			peer, ratio := "—", "—"
-			if r.Peer > 0 {
-				peer = fmtRate(r.Peer)
-				ratio = fmt.Sprintf("%.2f×", r.Striate/r.Peer)
-			}
-			fmt.Fprintf(tw, "%s\t%s\t%d\t%s\t%s\t%s\t%s\t%s\t%s\t\n", r.Stage, r.Size, r.Threads, fmtRate(r.Striate), peer, ratio, r.Unit, r.PeerName, r.Build)
-		}
+		rows = append(rows, r...)
 	}
-	return tw.Flush()
-}
-
-func fmtRate(v float64) string {
-	if v >= 1000 {
-		s := strconv.FormatFloat(math.Round(v), 'f', 0, 64)
-		for i := len(s) - 3; i > 0; i -= 3 {
-			s = s[:i] + "," + s[i:]
-		}
-		return s
-	}
-	return strconv.FormatFloat(v, 'f', 1, 64)
+	return frontbench.WriteTable(g.stdout, rows)
 }
 
 // benchFrontEnd times the default front end on the reference work

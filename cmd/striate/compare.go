@@ -70,16 +70,8 @@ func runCompare(g *globals, spec, pathA, pathB string, resamples int, robust str
 	if err != nil {
 		return err
 	}
-	for _, r := range mc.Results {
-		printScores(g.stdout, r.Name, mc.Data, r.Metrics)
-	}
-	cmp := mc.Clean
-	fmt.Fprintf(g.stdout, "\n%s − %s: accuracy difference %+.2f points (95%% paired bootstrap %+.2f to %+.2f, %d resamples, seed %d)\n",
-		nameA, nameB, 100*cmp.Diff, 100*cmp.DiffCI.Lo, 100*cmp.DiffCI.Hi, cmp.Resamples, cmp.Seed)
-	fmt.Fprintf(g.stdout, "discordant images: %d only %s right, %d only %s right; exact McNemar p = %.4g\n",
-		cmp.OnlyA, nameA, cmp.OnlyB, nameB, cmp.PValue)
 	if g.out == "" {
-		return nil
+		return mc.WriteText(g.stdout, nil)
 	}
 	if err := os.MkdirAll(g.out, 0o755); err != nil {
 		return err
@@ -88,12 +80,8 @@ func runCompare(g *globals, spec, pathA, pathB string, resamples int, robust str
 	if err != nil {
 		return err
 	}
-	if levels != nil {
-		fmt.Fprintln(g.stdout, "\nunder perturbation (same perturbed images for both):")
-		for _, c := range under {
-			fmt.Fprintf(g.stdout, "  %-14s %s %.2f%%  %s %.2f%%  diff %+.2f (%+.2f to %+.2f)  McNemar p = %.3g\n",
-				c.Condition, nameA, 100*c.AccuracyA, nameB, 100*c.AccuracyB, 100*c.Diff, 100*c.DiffCI.Lo, 100*c.DiffCI.Hi, c.PValue)
-		}
+	if err := mc.WriteText(g.stdout, under); err != nil {
+		return err
 	}
 	return writeReport(g, rep)
 }

@@ -3,12 +3,10 @@ package main
 import (
 	"flag"
 	"fmt"
-	"io"
 	"os"
 	"path/filepath"
 	"runtime"
 	"strings"
-	"text/tabwriter"
 	"time"
 
 	"github.com/striate/striate/datasets"
@@ -66,14 +64,14 @@ func runDemo(g *globals, o demoOptions) error {
 	if err != nil {
 		return err
 	}
-	if err := printDataSummary(w, sets); err != nil {
+	if err := sets.WriteSummary(w); err != nil {
 		return err
 	}
 	photos, err := datasets.Photos()
 	if err != nil {
 		return err
 	}
-	printPhotoSummary(w, photos)
+	eval.WritePhotoSummary(w, photos)
 	if o.dataOnly {
 		return nil
 	}
@@ -103,35 +101,4 @@ func runDemo(g *globals, o demoOptions) error {
 	}
 	fmt.Fprintf(w, "report written to %s (%d files) in %s\n", g.out, len(files), time.Since(start).Round(time.Second))
 	return nil
-}
-
-func printDataSummary(w io.Writer, d *eval.MainJobData) error {
-	fmt.Fprintln(w, "Datasets")
-	tw := tabwriter.NewWriter(w, 0, 4, 2, ' ', 0)
-	fmt.Fprintln(tw, "  set\tsplit\timages\tsize\tclasses\tsmallest class\tlargest class")
-	for _, r := range d.Summaries() {
-		s := r.Set
-		fmt.Fprintf(tw, "  %s\t%s\t%d\t%d×%d\t%d\t%s (%d)\t%s (%d)\n", s.Name, r.Split, s.N, s.H, s.W,
-			len(s.Classes), r.Smallest, r.SmallestN, r.Largest, r.LargestN)
-	}
-	if err := tw.Flush(); err != nil {
-		return err
-	}
-	fmt.Fprintln(w)
-	return nil
-}
-
-func printPhotoSummary(w io.Writer, photos []datasets.Photo) {
-	fmt.Fprintf(w, "Natural photographs for learning filters: %d embedded\n", len(photos))
-	tw := tabwriter.NewWriter(w, 0, 4, 2, ' ', 0)
-	fmt.Fprintln(tw, "  name\tsize\tmean grey\tlicence")
-	for _, p := range photos {
-		lic := p.License
-		if len(lic) > 60 {
-			lic = lic[:57] + "..."
-		}
-		fmt.Fprintf(tw, "  %s\t%d×%d\t%.3f\t%s\n", p.Name, p.H, p.W, eval.MeanGrey(p), lic)
-	}
-	tw.Flush()
-	fmt.Fprintln(w)
 }

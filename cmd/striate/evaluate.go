@@ -8,7 +8,6 @@ import (
 	"os"
 	"path/filepath"
 	"strings"
-	"text/tabwriter"
 
 	"github.com/striate/striate/datasets"
 	"github.com/striate/striate/eval"
@@ -105,9 +104,6 @@ func parseShard(s string) (i, n int, err error) {
 	return i, n, nil
 }
 
-// progressFor returns the command's progress bar as an eval.Progress.
-func progressFor(g *globals, total int, what string) *progress { return g.newProgress(total, what) }
-
 func runEvaluate(g *globals, o evalOptions) error {
 	if o.merge {
 		if g.out == "" {
@@ -120,7 +116,7 @@ func runEvaluate(g *globals, o evalOptions) error {
 		if err != nil {
 			return err
 		}
-		printScores(g.stdout, me.Name, me.Data, me.Metrics)
+		eval.WriteScores(g.stdout, me.Name, me.Data, me.Metrics)
 		return writeReport(g, me.Report)
 	}
 	levels, err := robustLevels(o.robust)
@@ -173,9 +169,9 @@ func runEvaluate(g *globals, o evalOptions) error {
 	if err != nil {
 		return err
 	}
-	printScores(g.stdout, name, ev.Data, ev.Metrics)
+	eval.WriteScores(g.stdout, name, ev.Data, ev.Metrics)
 	if ev.Suite != nil {
-		printSuite(g.stdout, ev.Suite)
+		eval.WriteSuite(g.stdout, ev.Suite)
 	}
 	if g.out == "" {
 		return nil
@@ -216,53 +212,4 @@ func writeReport(g *globals, rep *eval.Report) error {
 	}
 	fmt.Fprintf(g.stdout, "report: %s (%d files; open %s)\n", g.out, len(files), filepath.Join(g.out, eval.ReportHTML))
 	return nil
-}
-
-// printScores prints the headline scores and the per-class table, with the
-// report's labels: the class mean weighs every class equally, "test images"
-// counts each class's images.
-func printScores(w io.Writer, name string, d *eval.Data, m *eval.Metrics) {
-	fmt.Fprintf(w, "%s on %s (%d images): accuracy %.2f%% (95%% CI %.2f-%.2f%%), class-mean F1 %.4f, log-loss %.4f nats, ECE %.4f\n",
-		name, d.Name, m.N, 100*m.Accuracy, 100*m.CI.Lo, 100*m.CI.Hi, m.Macro.F1, m.LogLoss, m.ECE)
-	tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', tabwriter.AlignRight)
-	fmt.Fprintln(tw, "class\tprecision\trecall\tF1\ttest images\t")
-	for _, c := range m.PerClass {
-		fmt.Fprintf(tw, "%s\t%.4f\t%.4f\t%.4f\t%d\t\n", c.Class, c.Precision, c.Recall, c.F1, c.Support)
-	}
-	fmt.Fprintf(tw, "class mean\t%.4f\t%.4f\t%.4f\t%d\t\n", m.Macro.Precision, m.Macro.Recall, m.Macro.F1, m.N)
-	tw.Flush()
-}
-
-// printSuite prints a development suite's per-kind accuracy (beside the
-// peer's when attached), the mean corruption accuracy and the worst kind.
-func printSuite(w io.Writer, r *eval.SuiteResult) {
-	fmt.Fprintf(w, "\ndevelopment suite (%d conditions, suite seed %d): clean accuracy %.2f%%\n", len(r.Points), r.Seed, 100*r.Clean.Accuracy)
-	tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', tabwriter.AlignRight)
-	head := "group\tkind\tconditions\taccuracy (%)\t"
-	if r.Peer != nil {
-		head += r.Peer.Name + " (%)\t"
-	}
-	fmt.Fprintln(tw, head)
-	for _, k := range r.Kinds {
-		line := fmt.Sprintf("%s\t%s\t%d\t%.2f\t", k.Group, k.Kind, k.Conditions, 100*k.Accuracy)
-		if r.Peer != nil {
-			if pk, ok := r.Peer.Kind(k.Group, k.Kind); ok {
-				line += fmt.Sprintf("%.2f\t", 100*pk.Accuracy)
-			} else {
-				line += "—\t"
-			}
-		}
-		fmt.Fprintln(tw, line)
-	}
-	tw.Flush()
-	if r.CorruptionKinds > 0 {
-		fmt.Fprintf(w, "mean corruption accuracy over %d MNIST-C kinds: %.2f%%", r.CorruptionKinds, 100*r.MeanCorruption)
-		if r.Peer != nil && r.Peer.CorruptionKinds > 0 {
-			fmt.Fprintf(w, " (%s %.2f%%)", r.Peer.Name, 100*r.Peer.MeanCorruption)
-		}
-		fmt.Fprintln(w)
-	}
-	if r.Worst != nil {
-		fmt.Fprintf(w, "worst kind: %s, %.2f%%\n", r.Worst.Kind, 100*r.Worst.Accuracy)
-	}
 }

@@ -47,7 +47,7 @@ func init() {
 					*atoms, *size, *patches, *epochs = 64, 8, 5000, 2
 				}
 				if *forget < 0 {
-					return usagef("--forget %g; want 0 (scikit-learn's schedule) or ρ > 0", *forget)
+					return usagef("--forget %g; want 0 (the default schedule) or ρ > 0", *forget)
 				}
 				if *atoms < 1 || *size < 3 || *patches < *atoms || *epochs < 1 || *batch < 1 {
 					return usagef("--atoms %d, --size %d, --patches %d, --epochs %d, --batch %d: want atoms ≥ 1, size ≥ 3, patches ≥ atoms, epochs ≥ 1, batch ≥ 1",
@@ -75,7 +75,6 @@ func runLearn(g *globals, a learnArgs) error {
 		return err
 	}
 	fitTime := time.Since(start)
-	rep := pb.Report
 	if err := os.MkdirAll(g.out, 0o755); err != nil {
 		return err
 	}
@@ -87,18 +86,9 @@ func runLearn(g *globals, a learnArgs) error {
 		return err
 	}
 	w := g.stdout
-	wh := fmt.Sprintf("whitening %s f0 %g", a.whiten, a.f0)
-	if a.whiten == "zca" {
-		wh = fmt.Sprintf("ZCA ε %g", a.eps)
+	if err := eval.WriteBankSummary(w, cfg, pb.Report, fitTime); err != nil {
+		return err
 	}
-	fmt.Fprintf(w, "learned %d atoms of %d×%d from %d patches (λ %g, %s, %d passes) in %.1fs\n",
-		a.atoms, a.size, a.size, a.patches, a.lambda, wh, a.epochs, fitTime.Seconds())
-	fmt.Fprintf(w, "Gabor-like (fit R² ≥ %.1f): %d of %d (%.1f%%), median R² %.3f\n",
-		learn.GaborLikeR2, rep.GaborLike, len(rep.Fits), 100*rep.FracGaborLike, rep.MedianR2)
-	fmt.Fprintf(w, "orientation quadrants 0-45-90-135-180°: %v\n", rep.Quadrants)
-	fmt.Fprintf(w, "median SF bandwidth %.2f octaves, median orientation bandwidth %.1f°\n",
-		rep.MedianFreqBandwidth, rep.MedianOrientationBandwidth)
-	fmt.Fprintf(w, "quadrature pairs %d, unpaired (rectified) %d\n", rep.Pairs, rep.Unpaired)
 	fmt.Fprintf(w, "wrote %s/{bank.json,config.json,atoms.png,bank_hist.png}\n", g.out)
 	fmt.Fprintf(w, "train a pipeline on this bank: striate train --data fashion --config %s\n", filepath.Join(g.out, "config.json"))
 	return nil

@@ -53,7 +53,7 @@ func runPredict(g *globals, modelPath string, top, batch int, args []string) err
 		return err
 	}
 	classes := m.Classes()
-	bar := progressFor(g, len(files), "predict")
+	bar := g.newProgress(len(files), "predict")
 	defer bar.Done()
 	skip := func(err error) { fmt.Fprintf(g.stderr, "striate predict: skipped: %v\n", err) }
 	failed, err := eval.PredictFiles(m, files, eval.RunOptions{Workers: g.workers, Batch: batch, Progress: bar}, skip,

@@ -105,12 +105,8 @@ func runTrain(g *globals, data string, perClass int, preset string, mirror bool)
 	if err := safefile.Write(g.out, m.Save); err != nil {
 		return err
 	}
-	fmt.Fprintf(g.stdout, "trained on %d images of %s (%d features) in %v: unsupervised %v, features %v, head %v (%d epochs)\n",
-		train.N, train.Name, rep.FeatureLen, time.Since(start).Round(time.Second), rep.Unsupervised.Round(time.Second),
-		rep.Features.Round(time.Second), rep.HeadTime.Round(time.Second), rep.Head.Epochs)
-	if rep.Bank != nil {
-		fmt.Fprintf(g.stdout, "learned bank in %v: %d atoms, %d quadrature pairs, %.0f%% Gabor-like (R² ≥ 0.8)\n",
-			rep.BankTime.Round(time.Second), len(rep.Bank.Fits), rep.Bank.Pairs, 100*rep.Bank.FracGaborLike)
+	if err := eval.WriteFitSummary(g.stdout, train, rep, time.Since(start)); err != nil {
+		return err
 	}
 	fmt.Fprintf(g.stdout, "model written to %s\n", g.out)
 

@@ -6,8 +6,11 @@ package frontbench
 
 import (
 	"fmt"
+	"io"
 	"math"
+	"strconv"
 	"strings"
+	"text/tabwriter"
 	"time"
 
 	"github.com/striate/striate/internal/benchwork"
@@ -140,4 +143,32 @@ func FrontEnd(dir string, cfg FrontEndConfig, p Progress) (*FrontEndReport, erro
 		}
 	}
 	return rep, nil
+}
+
+// WriteTable writes rows as the bench table: each figure beside its peer's
+// and their ratio (a dash where no peer figure is known). Figures of 1,000
+// and more are rounded to whole units with thousands separators.
+func WriteTable(w io.Writer, rows []Row) error {
+	tw := tabwriter.NewWriter(w, 2, 4, 2, ' ', tabwriter.AlignRight)
+	fmt.Fprintln(tw, "stage\tsize\tthreads\tstriate\tpeer\tratio\tunit\tfastest peer\tbuild\t")
+	for _, r := range rows {
+		peer, ratio := "—", "—"
+		if r.Peer > 0 {
+			peer = fmtRate(r.Peer)
+			ratio = fmt.Sprintf("%.2f×", r.Striate/r.Peer)
+		}
+		fmt.Fprintf(tw, "%s\t%s\t%d\t%s\t%s\t%s\t%s\t%s\t%s\t\n", r.Stage, r.Size, r.Threads, fmtRate(r.Striate), peer, ratio, r.Unit, r.PeerName, r.Build)
+	}
+	return tw.Flush()
+}
+
+func fmtRate(v float64) string {
+	if v >= 1000 {
+		s := strconv.FormatFloat(math.Round(v), 'f', 0, 64)
+		for i := len(s) - 3; i > 0; i -= 3 {
+			s = s[:i] + "," + s[i:]
+		}
+		return s
+	}
+	return strconv.FormatFloat(v, 'f', 1, 64)
 }

@@ -203,7 +203,7 @@ func warpMatrix(k CorruptionKind, level float64) [4]float64 {
 // of the edge of the pixel-centre grid: there scipy.ndimage decides inside
 // or outside by its own rounding (scale 0.7 of 21 rows maps row 3 to
 // source row −10/0.7·0.7 = 0 up to 1e-15), while Perturbation counts such
-// points as on the edge (edgeSlack).
+// points as on the edge (raster.EdgeSlack).
 func warpDiff(a, b []float64, h, w int, m [4]float64) float64 {
 	cy, cx := float64(h-1)/2, float64(w-1)/2
 	near := func(v, hi float64) bool { return math.Abs(v) < 1e-9 || math.Abs(v-hi) < 1e-9 }

@@ -1,6 +1,8 @@
 package datasets
 
 import (
+	"github.com/striate/striate/internal/raster"
+
 	"fmt"
 	"math"
 	"strconv"
@@ -233,7 +235,7 @@ func shiftImage(dst, src []float32, h, w, dx, dy int) {
 
 // warp sets dst(q) = bilinear src at c + A·(q − c) with A = [[ayy, ayx],
 // [axy, axx]] acting on (y, x) and c = ((h−1)/2, (w−1)/2); source points
-// outside [0, h−1]×[0, w−1] (beyond edgeSlack) give 0, as in scipy.ndimage's
+// outside [0, h−1]×[0, w−1] (beyond raster.EdgeSlack) give 0, as in scipy.ndimage's
 // mode='constant'.
 func warp(dst, src []float32, h, w int, ayy, ayx, axy, axx float64) {
 	cy, cx := float64(h-1)/2, float64(w-1)/2
@@ -242,51 +244,15 @@ func warp(dst, src []float32, h, w int, ayy, ayx, axy, axx float64) {
 			ty, tx := float64(y)-cy, float64(x)-cx
 			sy := cy + ayy*ty + ayx*tx
 			sx := cx + axy*ty + axx*tx
-			dst[y*w+x] = float32(bilinear(src, h, w, sy, sx))
+			dst[y*w+x] = float32(raster.BilinearInside(src, h, w, sy, sx))
 		}
 	}
-}
-
-// edgeSlack is how far (in pixels) a source point may fall outside the
-// pixel-centre grid by rounding and still count as on its edge; without it
-// a 90° rotation would lose edge rows to errors of 1e-15 px.
-const edgeSlack = 1e-9
-
-// bilinear samples src at (sy, sx); 0 outside the pixel-centre grid.
-func bilinear(src []float32, h, w int, sy, sx float64) float64 {
-	if !(sy >= -edgeSlack && sy <= float64(h-1)+edgeSlack && sx >= -edgeSlack && sx <= float64(w-1)+edgeSlack) {
-		return 0
-	}
-	sy = math.Min(math.Max(sy, 0), float64(h-1))
-	sx = math.Min(math.Max(sx, 0), float64(w-1))
-	y0, x0 := int(sy), int(sx)
-	fy, fx := sy-float64(y0), sx-float64(x0)
-	y1, x1 := min(y0+1, h-1), min(x0+1, w-1)
-	a := float64(src[y0*w+x0])*(1-fx) + float64(src[y0*w+x1])*fx
-	b := float64(src[y1*w+x0])*(1-fx) + float64(src[y1*w+x1])*fx
-	return a*(1-fy) + b*fy
 }
 
 // BlurTruncate is the kernel reach of Blur in standard deviations (the
 // radius is int(BlurTruncate·σ + 0.5) pixels, as scipy.ndimage.gaussian_filter
 // with truncate=4.0).
 const BlurTruncate = 4.0
-
-// gaussKernel returns the normalised 1-D Gaussian weights of radius r.
-func gaussKernel(sigma float64) []float64 {
-	r := int(BlurTruncate*sigma + 0.5)
-	k := make([]float64, 2*r+1)
-	var s float64
-	for i := range k {
-		x := float64(i - r)
-		k[i] = math.Exp(-0.5 * x * x / (sigma * sigma))
-		s += k[i]
-	}
-	for i := range k {
-		k[i] /= s
-	}
-	return k
-}
 
 // blur convolves with a separable Gaussian of σ pixels, zero outside (float32
 // for the perturbations, float64 for the corruptions' intermediate layers).
@@ -295,7 +261,7 @@ func blur[T float32 | float64](dst, src []T, h, w int, sigma float64) {
 		copy(dst, src)
 		return
 	}
-	k := gaussKernel(sigma)
+	k := raster.Gaussian(sigma, int(BlurTruncate*sigma+0.5))
 	r := len(k) / 2
 	tmp := make([]float64, h*w)
 	for y := 0; y < h; y++ {

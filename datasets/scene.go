@@ -1,6 +1,8 @@
 package datasets
 
 import (
+	"github.com/striate/striate/internal/raster"
+
 	"fmt"
 	"math"
 	"math/rand/v2"
@@ -354,9 +356,9 @@ func (b *SceneBuilder) texture(dst *Scene, r *rand.Rand) {
 	ox, oy := r.IntN(max(1, p.W-dst.W+1)), r.IntN(max(1, p.H-dst.H+1))
 	lo, hi := float32(math.Inf(1)), float32(math.Inf(-1))
 	for y := range dst.H {
-		sy := mirror(oy+y, p.H)
+		sy := raster.Reflect(oy+y, p.H)
 		for x := range dst.W {
-			v := p.Pix[sy*p.W+mirror(ox+x, p.W)]
+			v := p.Pix[sy*p.W+raster.Reflect(ox+x, p.W)]
 			dst.Pix[y*dst.W+x] = v
 			lo, hi = min(lo, v), max(hi, v)
 		}
@@ -368,19 +370,6 @@ func (b *SceneBuilder) texture(dst *Scene, r *rand.Rand) {
 	for i, v := range dst.Pix {
 		dst.Pix[i] = (v - lo) * k
 	}
-}
-
-// mirror maps i into [0, n) by reflecting at the edges (… 1 0 | 0 1 … n−1 | n−1 …).
-func mirror(i, n int) int {
-	p := 2 * n
-	i %= p
-	if i < 0 {
-		i += p
-	}
-	if i >= n {
-		i = p - 1 - i
-	}
-	return i
 }
 
 // resize returns buf with length n, reusing it when its capacity suffices.
@@ -404,16 +393,9 @@ func scaleItem(dst []float32, set *Set, i, h, w int) []float32 {
 	dst = resize(dst, h*w)
 	fy, fx := float64(sh)/float64(h), float64(sw)/float64(w)
 	for y := range h {
-		sy := math.Min(math.Max((float64(y)+0.5)*fy-0.5, 0), float64(sh-1))
-		y0 := int(sy)
-		y1, ty := min(y0+1, sh-1), sy-float64(y0)
+		sy := (float64(y)+0.5)*fy - 0.5
 		for x := range w {
-			sx := math.Min(math.Max((float64(x)+0.5)*fx-0.5, 0), float64(sw-1))
-			x0 := int(sx)
-			x1, tx := min(x0+1, sw-1), sx-float64(x0)
-			a := float64(src[y0*sw+x0])*(1-tx) + float64(src[y0*sw+x1])*tx
-			c := float64(src[y1*sw+x0])*(1-tx) + float64(src[y1*sw+x1])*tx
-			dst[y*w+x] = float32((a*(1-ty) + c*ty) / 255)
+			dst[y*w+x] = float32(raster.BilinearEdge(src, sh, sw, sy, (float64(x)+0.5)*fx-0.5) / 255)
 		}
 	}
 	return dst

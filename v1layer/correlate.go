@@ -30,7 +30,8 @@ func padImage(dst, img []float32, h, w, R, pw int, b Border) {
 	}
 }
 
-// reflectIndex maps i in [−n, 2n) into [0, n) by half-sample reflection.
+// reflectIndex maps i in [−n, 2n) into [0, n) by half-sample reflection:
+// raster.Reflect on the one period the hot loops need, without its modulo.
 func reflectIndex(i, n int) int {
 	if i < 0 {
 		return -i - 1

@@ -1,6 +1,8 @@
 package v1layer
 
 import (
+	"github.com/striate/striate/internal/raster"
+
 	"fmt"
 	"math"
 )
@@ -69,18 +71,7 @@ func (c DoGConfig) validate() error {
 
 // Gaussian1D returns the 1-D Gaussian exp(-t²/2σ²) on t = -r..r, normalised
 // to sum 1 over that support, in float64.
-func Gaussian1D(sigma float64, r int) []float64 {
-	g := make([]float64, 2*r+1)
-	var s float64
-	for t := -r; t <= r; t++ {
-		g[t+r] = math.Exp(-float64(t*t) / (2 * sigma * sigma))
-		s += g[t+r]
-	}
-	for i := range g {
-		g[i] /= s
-	}
-	return g
-}
+func Gaussian1D(sigma float64, r int) []float64 { return raster.Gaussian(sigma, r) }
 
 // dogGrid returns the zero-sum, unit-L2 on-centre DoG of centre σ_c and
 // surround σ_s on the square support of radius r, in float64.

@@ -1,6 +1,8 @@
 package v1layer
 
 import (
+	"github.com/striate/striate/internal/raster"
+
 	"fmt"
 	"math"
 )
@@ -76,22 +78,6 @@ func axisStep(theta float64) (dx, dy float64) {
 	return -math.Sin(theta), -math.Cos(theta)
 }
 
-// bilinear samples the h×w map m at (x, y) = (column, row), 0 outside.
-func bilinear(m []float32, h, w int, x, y float64) float32 {
-	x0, y0 := math.Floor(x), math.Floor(y)
-	fx, fy := float32(x-x0), float32(y-y0)
-	ix, iy := int(x0), int(y0)
-	at := func(r, c int) float32 {
-		if r < 0 || r >= h || c < 0 || c >= w {
-			return 0
-		}
-		return m[r*w+c]
-	}
-	a := at(iy, ix)*(1-fx) + at(iy, ix+1)*fx
-	b := at(iy+1, ix)*(1-fx) + at(iy+1, ix+1)*fx
-	return a*(1-fy) + b*fy
-}
-
 // lengthWeights returns the weights g(t), t = −R..R, for σ_L in pixels.
 func lengthWeights(sigma float64) []float32 {
 	g64 := Gaussian1D(sigma, int(math.Ceil(2*sigma)))
@@ -110,7 +96,7 @@ func lengthSum(dst, src []float32, h, w int, theta float64, g []float32) {
 		for x := 0; x < w; x++ {
 			var s float32
 			for t := -r; t <= r; t++ {
-				s += g[t+r] * bilinear(src, h, w, float64(x)+float64(t)*dx, float64(y)+float64(t)*dy)
+				s += g[t+r] * raster.Bilinear(src, h, w, float64(y)+float64(t)*dy, float64(x)+float64(t)*dx)
 			}
 			dst[y*w+x] = s
 		}
@@ -125,7 +111,7 @@ func endStop(dst, src []float32, h, w int, theta, shift, gain float64) {
 	for y := 0; y < h; y++ {
 		for x := 0; x < w; x++ {
 			fx, fy := float64(x), float64(y)
-			f := bilinear(src, h, w, fx+dx, fy+dy) + bilinear(src, h, w, fx-dx, fy-dy)
+			f := raster.Bilinear(src, h, w, fy+dy, fx+dx) + raster.Bilinear(src, h, w, fy-dy, fx-dx)
 			dst[y*w+x] = max(0, src[y*w+x]-g*f)
 		}
 	}

@@ -1,5 +1,7 @@
 package v1layer
 
+import "github.com/striate/striate/internal/raster"
+
 // gaussSep writes the separable correlation of the h×w map src with the
 // odd-length 1-D kernel g along rows and then along columns to dst, with
 // border b; tmp holds h·w values. It is the plain path used by contrast
@@ -17,7 +19,7 @@ func gaussSep(dst, src []float32, h, w int, g []float32, b Border, tmp []float32
 					if b != BorderReflect {
 						continue
 					}
-					xx = reflectAny(xx, w)
+					xx = raster.Reflect(xx, w)
 				}
 				s += g[t+r] * row[xx]
 			}
@@ -33,7 +35,7 @@ func gaussSep(dst, src []float32, h, w int, g []float32, b Border, tmp []float32
 				if b != BorderReflect {
 					continue
 				}
-				yy = reflectAny(yy, h)
+				yy = raster.Reflect(yy, h)
 			}
 			c := g[t+r]
 			in := tmp[yy*w : yy*w+w]
@@ -42,18 +44,4 @@ func gaussSep(dst, src []float32, h, w int, g []float32, b Border, tmp []float32
 			}
 		}
 	}
-}
-
-// reflectAny maps any index into [0,n) by repeated half-sample reflection
-// (scipy.ndimage mode "reflect").
-func reflectAny(i, n int) int {
-	p := 2 * n
-	i %= p
-	if i < 0 {
-		i += p
-	}
-	if i >= n {
-		i = p - 1 - i
-	}
-	return i
 }

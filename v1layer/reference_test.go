@@ -1,6 +1,8 @@
 package v1layer
 
 import (
+	"github.com/striate/striate/internal/raster"
+
 	"compress/gzip"
 	"encoding/json"
 	"math"
@@ -23,7 +25,7 @@ func refCorrelate(img []float64, h, w int, k []float64, size int, b Border) []fl
 					if b != BorderReflect {
 						continue
 					}
-					yy = reflectAny(yy, h)
+					yy = raster.Reflect(yy, h)
 				}
 				for u := 0; u < size; u++ {
 					xx := x + u - r
@@ -31,7 +33,7 @@ func refCorrelate(img []float64, h, w int, k []float64, size int, b Border) []fl
 						if b != BorderReflect {
 							continue
 						}
-						xx = reflectAny(xx, w)
+						xx = raster.Reflect(xx, w)
 					}
 					s += k[v*size+u] * img[yy*w+xx]
 				}

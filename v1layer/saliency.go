@@ -1,6 +1,8 @@
 package v1layer
 
 import (
+	"github.com/striate/striate/internal/raster"
+
 	"fmt"
 	"math"
 	"slices"
@@ -593,7 +595,7 @@ func pyrReduce(dst, src []float32, h, w int, tmp []float32) {
 			}
 			var v float32
 			for k, c := range pyrTaps {
-				v += c * row[reflectAny(2*j-2+k, w)]
+				v += c * row[raster.Reflect(2*j-2+k, w)]
 			}
 			out[j] = v
 		}
@@ -602,7 +604,7 @@ func pyrReduce(dst, src []float32, h, w int, tmp []float32) {
 		out := dst[i*ow : i*ow+ow]
 		var r [6][]float32
 		for k := range r {
-			r[k] = t[reflectAny(2*i-2+k, h)*ow:][:ow]
+			r[k] = t[raster.Reflect(2*i-2+k, h)*ow:][:ow]
 		}
 		r0, r1, r2, r3, r4, r5 := r[0][:len(out)], r[1][:len(out)], r[2][:len(out)], r[3][:len(out)], r[4][:len(out)], r[5][:len(out)]
 		for j := range out {

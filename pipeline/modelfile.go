@@ -342,7 +342,9 @@ const streamChunk = 1 << 20
 // in this order, so the error names the first thing wrong: the magic (from
 // the first 8 bytes: /dev/zero is refused after reading them), the version,
 // the header length against MaxHeaderBytes, the header's JSON and every
-// tensor entry against the hard limits, the file length the header implies
+// tensor entry against the hard limits (a bad header is reported after the
+// checksum when size is known, so that damage reads as ErrChecksum, and at
+// once from a stream of unknown length), the file length the header implies
 // (against size when known, and MaxFileBytes), then early(h) — a caller's
 // check of the header, such as the work-size budget of its configuration —
 // before a byte of the payload is read; then the payload is streamed through
@@ -353,6 +355,9 @@ const streamChunk = 1 << 20
 // When info is not nil it receives the file's version, size, raw header and
 // checksum (its Config, Classes and Tensors are filled by the caller).
 func decodeStream(r io.Reader, size int64, early func(h *fileHeader, ver uint32) error, info *FileInfo) (*fileContents, error) {
+	if size > MaxFileBytes {
+		return nil, fileErr(ErrLimit, -1, "file size", "%d bytes, more than %d (MaxFileBytes)", size, MaxFileBytes)
+	}
 	hr := &hashReader{r: r, sum: sha256.New()}
 	short := func(err error, want int64, format string) error {
 		if errors.Is(err, io.EOF) || errors.Is(err, io.ErrUnexpectedEOF) {
@@ -400,10 +405,17 @@ func decodeStream(r io.Reader, size int64, early func(h *fileHeader, ver uint32)
 		return nil, short(err, dataStart+checksumLen, "file has %d bytes; its header alone needs %d")
 	}
 	h, herr := parseHeader(hb[:hlen])
+	if herr != nil && size < 0 {
+		// A stream of unknown length may not end: refuse it now.
+		herr.Offset = prefixLen
+		herr.Detail += " (checksum not checked: the stream's length is unknown)"
+		return nil, herr
+	}
 	if herr != nil {
-		// Without a header the layout is unknown: stream the rest through
-		// the hash, keeping only its last 32 bytes, so that a damaged file
-		// is told from a malformed one.
+		// Without a header the layout is unknown: stream the rest of the
+		// file (its size is known and bounded) through the hash, keeping
+		// only its last 32 bytes, so that a damaged file is told from a
+		// malformed one.
 		stored, err := hashRest(hr)
 		if err != nil {
 			return nil, err

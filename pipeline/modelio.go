@@ -148,7 +148,44 @@ func headerWork(h *fileHeader, ver uint32, lim Limits) error {
 	if err != nil {
 		return nil
 	}
-	return planWork(p, lim)
+	if err := planWork(p, lim); err != nil {
+		return err
+	}
+	var data int64
+	for _, t := range h.Tensors {
+		data += t.Length
+	}
+	if most := p.tensorBytesBound(cfg, len(h.Classes)); data > most {
+		return fileErr(ErrMalformed, -1, "header.tensors", "%d bytes of tensors; the configuration's stages hold at most %d (learned bank, template layers, guard, head)", data, most)
+	}
+	return nil
+}
+
+// tensorBytesBound is the most bytes of tensors a model of the plan's
+// configuration with the given number of classes holds: the learned bank's
+// kernels, each template layer's mean, whitening matrix, templates and
+// scalars, the guard's three vectors and the head's standardisation and
+// weights (both kinds allowed for). A file declaring more is refused before
+// its payload is read.
+func (p *Plan) tensorBytesBound(cfg Config, classes int) int64 {
+	var n int64
+	if b := cfg.Front.Bank; b != nil {
+		for _, k := range b.Kernels {
+			n += int64(k.Size) * int64(k.Size)
+		}
+	}
+	if ls, err := p.layers(); err == nil {
+		for i, l := range ls {
+			pp := int64(p.cfg.Templates[i].PatchSize)
+			dim := int64(l.c) * pp * pp
+			n += dim + dim*dim + int64(p.cfg.Templates[i].K)*dim + 2
+		}
+	}
+	d := p.featLenBound()
+	hidden := max(int64(p.cfg.Head.Hidden), int64(DefaultHead.Hidden))
+	k := int64(classes)
+	n += 3*d + 2*d + (d+1)*hidden + (hidden+1)*k + (d+1)*k
+	return 4 * n
 }
 
 // maxBankKernel bounds the kernel side headerWork builds a stand-in for; a

@@ -222,4 +222,6 @@ func TestHostileSceneFolders(t *testing.T) {
 }
 
 // deep is n nested JSON arrays.
-func deep(n int) string { return string(bytes.Repeat([]byte("["), n)) + string(bytes.Repeat([]byte("]"), n)) }
+func deep(n int) string {
+	return string(bytes.Repeat([]byte("["), n)) + string(bytes.Repeat([]byte("]"), n))
+}

@@ -148,12 +148,14 @@ func TestHostileModelRejectedAtLoad(t *testing.T) {
 	if got > rejectAllocBound {
 		t.Errorf("rejecting the model allocated %d bytes; want ≤ %d", got, rejectAllocBound)
 	}
+	t.Logf("refused a %d-byte model after allocating %d bytes: %v", st.Size(), got, err)
 	f, _ := os.Open(path)
 	defer f.Close()
 	cr := &countReader{r: f}
 	if _, err := Load(cr); !errors.Is(err, ErrLimit) {
 		t.Fatalf("Load: %v", err)
 	}
+	t.Logf("Load read %d of %d bytes", cr.n, st.Size())
 	if cr.n > 1<<20 {
 		t.Errorf("Load read %d of %d bytes before refusing; want only the header", cr.n, st.Size())
 	}

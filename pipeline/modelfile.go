@@ -56,7 +56,10 @@ const (
 // Hard limits checked before any allocation the file asks for. They are far
 // above any model striate builds (the default model is a few MB) and low enough
 // that a hostile header cannot make a reader allocate more than about 1 GiB,
-// and every product fits a 32-bit int (GOARCH=arm).
+// and every product fits a 32-bit int (GOARCH=arm). Beyond these container
+// limits, Load checks the configuration in the header against the memory
+// budget (Limits, Plan.PredictWork) and the tensor table against what that
+// configuration's stages can hold, both before the payload is read.
 const (
 	// MaxHeaderBytes bounds the JSON header; the default header is a few kB.
 	MaxHeaderBytes = 4 << 20

@@ -199,7 +199,7 @@ func planWork(p *Plan, lim Limits) error {
 		err = w.check(lim)
 	}
 	if err != nil {
-		return fileErr(ErrLimit, -1, "header.config", "%v", err)
+		return fileErr(ErrLimit, -1, "header.config", "%s", strings.TrimPrefix(err.Error(), "pipeline: "))
 	}
 	return nil
 }

@@ -13,6 +13,7 @@ import (
 	"os"
 	"path/filepath"
 	"runtime"
+	"strings"
 	"testing"
 
 	"golang.org/x/image/bmp"
@@ -224,4 +225,39 @@ func TestHostileSceneFolders(t *testing.T) {
 // deep is n nested JSON arrays.
 func deep(n int) string {
 	return string(bytes.Repeat([]byte("["), n)) + string(bytes.Repeat([]byte("]"), n))
+}
+
+// TestIDXGzipTooSmallForHeader: a gzip IDX file whose header declares 1 GiB
+// but whose 64 MiB of zeros compress to about 64 KB cannot hold what it
+// declares (DEFLATE expands at most 1032:1) and is refused from its header,
+// before anything is inflated (before, the payload buffer grew with the 64
+// MiB inflated before the file was found truncated).
+func TestIDXGzipTooSmallForHeader(t *testing.T) {
+	var raw bytes.Buffer
+	raw.Write(idxHeader(IDXUint8, 1<<10, 1<<10, 1<<10))
+	raw.Write(make([]byte, 64<<20))
+	path := filepath.Join(t.TempDir(), "train-images-idx3-ubyte.gz")
+	if err := os.WriteFile(path, gz(raw.Bytes()), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	var err error
+	var m0, m1 runtime.MemStats
+	runtime.ReadMemStats(&m0)
+	_, err = ReadIDXFile(path)
+	runtime.ReadMemStats(&m1)
+	if e := asIDXError(t, err); e.Field != "file size" || !strings.Contains(err.Error(), "1032:1") {
+		t.Fatalf("ReadIDXFile: %v", err)
+	}
+	if d := m1.TotalAlloc - m0.TotalAlloc; d > 1<<20 {
+		t.Errorf("refusing it allocated %d bytes; want under 1 MiB (nothing inflated)", d)
+	}
+	// A good gzip file still reads.
+	x := &IDX{Type: IDXUint8, Dims: []int{3, 4}, Data: make([]byte, 12)}
+	good := filepath.Join(t.TempDir(), "x.idx.gz")
+	if err := WriteIDXFile(good, x); err != nil {
+		t.Fatal(err)
+	}
+	if _, err := ReadIDXFile(good); err != nil {
+		t.Errorf("good gzip file: %v", err)
+	}
 }

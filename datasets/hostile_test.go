@@ -16,71 +16,10 @@ import (
 	"strings"
 	"testing"
 
+	"github.com/striate/striate/internal/hostiletest"
 	"golang.org/x/image/bmp"
 	"golang.org/x/image/tiff"
 )
-
-// hostileAllocBound is the reliability target for rejecting any hostile
-// input: at most 256 MiB allocated (runtime.MemStats.TotalAlloc) for one
-// file, the promise in the README's Reliability section.
-const hostileAllocBound = 256 << 20
-
-// mutants returns hostile variants of a good file b: every truncation
-// (every length for files up to 4 KiB, else 512 evenly spaced lengths), and
-// at each byte position (likewise) the byte replaced by 0x00, 0xFF and its
-// complement. Headers, lengths and checksums are all hit.
-func mutants(b []byte) [][]byte {
-	step := max(1, len(b)/512)
-	if len(b) <= 4<<10 {
-		step = 1
-	}
-	var out [][]byte
-	for n := 0; n < len(b); n += step {
-		out = append(out, b[:n])
-		for _, v := range []byte{0x00, 0xFF, ^b[n]} {
-			if v == b[n] {
-				continue
-			}
-			m := bytes.Clone(b)
-			m[n] = v
-			out = append(out, m)
-		}
-	}
-	return out
-}
-
-// sweep runs read on every input, turning a panic into a test failure and
-// checking that an error is typed (ok) and that no input allocates more
-// than hostileAllocBound. It returns the number of inputs refused.
-func sweep(t *testing.T, what string, inputs [][]byte, read func([]byte) error, ok func(error) bool) int {
-	t.Helper()
-	refused := 0
-	for i, in := range inputs {
-		var err error
-		var m0, m1 runtime.MemStats
-		runtime.ReadMemStats(&m0)
-		func() {
-			defer func() {
-				if r := recover(); r != nil {
-					t.Errorf("%s input %d (%d bytes): panic: %v", what, i, len(in), r)
-				}
-			}()
-			err = read(in)
-		}()
-		runtime.ReadMemStats(&m1)
-		if d := m1.TotalAlloc - m0.TotalAlloc; d > hostileAllocBound {
-			t.Errorf("%s input %d: allocated %d bytes; want ≤ %d", what, i, d, hostileAllocBound)
-		}
-		if err != nil {
-			refused++
-			if !ok(err) {
-				t.Errorf("%s input %d: untyped error %T: %v", what, i, err, err)
-			}
-		}
-	}
-	t.Logf("%s: %d hostile inputs, %d refused, no panic", what, len(inputs), refused)
-	return refused
-}
 
 func isImageError(err error) bool { var e *ImageError; return errors.As(err, &e) }
 func isIDXError(err error) bool   { var e *IDXError; return errors.As(err, &e) }
@@ -108,7 +47,7 @@ func TestHostileImages(t *testing.T) {
 		if err := enc(&b); err != nil {
 			t.Fatal(err)
 		}
-		inputs = append(inputs, mutants(b.Bytes())...)
+		inputs = append(inputs, hostiletest.Mutants(b.Bytes(), 4096, nil)...)
 	}
 	inputs = append(inputs, pngHeader(100000, 100000), pngHeader(0, 0), pngHeader(1<<31-1, 1))
 	// GIF logical screen and image descriptor of 65535×65535 (GIF89a spec §18, §20).
@@ -126,7 +65,7 @@ func TestHostileImages(t *testing.T) {
 	inputs = append(inputs, bm)
 	// JPEG SOF0 declaring 65535×65535, one component (ITU T.81 §B.2.2).
 	inputs = append(inputs, []byte("\xff\xd8\xff\xc0\x00\x0b\x08\xff\xff\xff\xff\x01\x01\x11\x00\xff\xd9"))
-	refused := sweep(t, "images", inputs, func(b []byte) error {
+	refused := hostiletest.Sweep(t, "images", inputs, func(b []byte) error {
 		m, err := DecodeImage(bytes.NewReader(b))
 		if err == nil && m.Bounds().Empty() {
 			return fmt.Errorf("decoded an empty image")
@@ -150,10 +89,10 @@ func TestHostileIDX(t *testing.T) {
 	if err := WriteIDX(&plain, x); err != nil {
 		t.Fatal(err)
 	}
-	inputs := append(mutants(plain.Bytes()), mutants(gz(plain.Bytes()))...)
+	inputs := append(hostiletest.Mutants(plain.Bytes(), 4096, nil), hostiletest.Mutants(gz(plain.Bytes()), 4096, nil)...)
 	claim := append(idxHeader(IDXUint8, 1<<10, 1<<10, 1<<10), make([]byte, 100)...)
 	inputs = append(inputs, claim, gz(claim), idxHeader(IDXFloat64, 1<<14, 1<<14), []byte{0, 0, 0x08, 0xFF})
-	sweep(t, "IDX", inputs, func(b []byte) error {
+	hostiletest.Sweep(t, "IDX", inputs, func(b []byte) error {
 		_, err := ReadIDX(bytes.NewReader(b), "hostile.idx")
 		return err
 	}, isIDXError)
@@ -166,7 +105,7 @@ func TestHostileNPY(t *testing.T) {
 	if err := WriteNPYFloat32(&b, npy3x4(), 3, 4); err != nil {
 		t.Fatal(err)
 	}
-	sweep(t, "NPY", mutants(b.Bytes()), func(b []byte) error {
+	hostiletest.Sweep(t, "NPY", hostiletest.Mutants(b.Bytes(), 4096, nil), func(b []byte) error {
 		_, err := ReadNPY(bytes.NewReader(b))
 		return err
 	}, isNPYError)
@@ -187,7 +126,7 @@ func TestHostileSceneFolders(t *testing.T) {
 		t.Fatal(err)
 	}
 	hdr := `{"layout":"striate scene folder","version":1,"classes":["a","b"],"frames":[`
-	inputs := mutants(good)
+	inputs := hostiletest.Mutants(good, 4096, nil)
 	for _, fr := range []string{
 		`{"file":"../../etc/passwd","width":8,"height":8,"items":[]}`,
 		`{"file":"/etc/passwd","width":8,"height":8,"items":[]}`,
@@ -204,7 +143,7 @@ func TestHostileSceneFolders(t *testing.T) {
 	}
 	inputs = append(inputs, []byte("\xEF\xBB\xBF"+hdr+"]}"), []byte("null"), []byte(hdr+"]} {}"))
 	idx := filepath.Join(dir, SceneIndex)
-	sweep(t, "scene folders", inputs, func(b []byte) error {
+	hostiletest.Sweep(t, "scene folders", inputs, func(b []byte) error {
 		if err := os.WriteFile(idx, b, 0o644); err != nil {
 			t.Fatal(err)
 		}

@@ -14,13 +14,13 @@ import (
 	"testing"
 
 	"github.com/striate/striate/datasets"
+	"github.com/striate/striate/internal/hostiletest"
 	"github.com/striate/striate/learn"
 )
 
 // rejectAllocBound is the reliability target for rejecting any hostile
-// input: at most 256 MiB allocated in total (runtime.MemStats.TotalAlloc),
-// the project's promise in the README's Reliability section.
-const rejectAllocBound = 256 << 20
+// input (see hostiletest.AllocBound).
+const rejectAllocBound = hostiletest.AllocBound
 
 // allocated returns the bytes f allocates (TotalAlloc grows only; other
 // goroutines of the test binary are idle while it runs).

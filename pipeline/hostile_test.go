@@ -5,64 +5,11 @@ import (
 	"encoding/binary"
 	"errors"
 	"os"
-	"runtime"
 	"strings"
 	"testing"
+
+	"github.com/striate/striate/internal/hostiletest"
 )
-
-// hostileSweep runs f on every input, turning a panic into a failure and
-// checking that a refusal passes typed and that no input allocates more
-// than rejectAllocBound. It returns the number refused.
-func hostileSweep(t *testing.T, what string, inputs [][]byte, f func([]byte) error, typed func(error) bool) int {
-	t.Helper()
-	refused := 0
-	for i, in := range inputs {
-		var err error
-		var m0, m1 runtime.MemStats
-		runtime.ReadMemStats(&m0)
-		func() {
-			defer func() {
-				if r := recover(); r != nil {
-					t.Errorf("%s input %d: panic: %v", what, i, r)
-				}
-			}()
-			err = f(in)
-		}()
-		runtime.ReadMemStats(&m1)
-		if d := m1.TotalAlloc - m0.TotalAlloc; d > rejectAllocBound {
-			t.Errorf("%s input %d: allocated %d bytes; want ≤ %d", what, i, d, rejectAllocBound)
-		}
-		if err != nil {
-			refused++
-			if !typed(err) {
-				t.Errorf("%s input %d: error not typed: %v", what, i, err)
-			}
-		}
-	}
-	t.Logf("%s: %d hostile inputs, %d refused, no panic", what, len(inputs), refused)
-	return refused
-}
-
-// modelMutants are hostile variants of the model file b: 120 truncations,
-// and at 120 positions a byte set to 0x00, 0xFF or its complement, each
-// both as is (the checksum catches it) and with the checksum rewritten (the
-// later checks must).
-func modelMutants(b []byte) [][]byte {
-	var out [][]byte
-	step := max(1, len(b)/120)
-	for n := 0; n < len(b); n += step {
-		out = append(out, b[:n])
-		for _, v := range []byte{0x00, 0xFF, ^b[n]} {
-			m := bytes.Clone(b)
-			m[n] = v
-			out = append(out, m)
-			if n < len(b)-checksumLen {
-				out = append(out, resum(bytes.Clone(m)))
-			}
-		}
-	}
-	return out
-}
 
 // withConfig returns model file b with its header's configuration text
 // edited (old → new) and the lengths and checksum fixed: a hostile file
@@ -88,16 +35,17 @@ func withConfig(t *testing.T, b []byte, old, new string) []byte {
 }
 
 // TestHostileModels: the hostile model corpus — truncations and byte edits
-// of the committed small model (with and without a fixed checksum),
+// at 120 places of the committed small model (with and without a fixed
+// checksum),
 // configurations edited to the edge of every range with a valid checksum,
 // and the generated 17 MB stacked model — through Load: no panic, every
-// refusal a *FileError, no input allocating more than rejectAllocBound.
+// refusal a *FileError, no input allocating more than hostiletest.AllocBound.
 func TestHostileModels(t *testing.T) {
 	b, err := os.ReadFile(smallModel)
 	if err != nil {
 		t.Fatal(err)
 	}
-	hostileSweep(t, "model mutants", modelMutants(b), func(in []byte) error {
+	hostiletest.Sweep(t, "model mutants", hostiletest.Mutants(b, 120, resum), func(in []byte) error {
 		_, err := Load(bytes.NewReader(in))
 		return err
 	}, isFileError)
@@ -126,7 +74,7 @@ func TestHostileModels(t *testing.T) {
 	// Some edits stay valid (a larger input with 16 templates, the largest
 	// pyramid, a patch count that only a fit reads): those must load within
 	// the work-size limit; the others must be refused.
-	refused := hostileSweep(t, "crafted models", inputs, func(in []byte) error {
+	refused := hostiletest.Sweep(t, "crafted models", inputs, func(in []byte) error {
 		m, err := Load(bytes.NewReader(in))
 		if err == nil {
 			if w, _ := m.Plan().PredictWork(); w.Bytes > DefaultMaxWorkBytes {
@@ -145,7 +93,7 @@ func isFileError(err error) bool { var fe *FileError; return errors.As(err, &fe)
 // TestHostileConfigs: configurations at and past the edge of every range,
 // of the wrong types, deeply nested or numerically absurd, through
 // ParseConfig: no panic, every refusal a "pipeline:" error, none allocating
-// more than rejectAllocBound.
+// more than hostiletest.AllocBound.
 func TestHostileConfigs(t *testing.T) {
 	var inputs [][]byte
 	for _, s := range []string{
@@ -167,7 +115,7 @@ func TestHostileConfigs(t *testing.T) {
 	} {
 		inputs = append(inputs, []byte(s))
 	}
-	refused := hostileSweep(t, "configs", inputs, func(in []byte) error {
+	refused := hostiletest.Sweep(t, "configs", inputs, func(in []byte) error {
 		_, err := ParseConfig(bytes.NewReader(in))
 		return err
 	}, func(err error) bool { return strings.HasPrefix(err.Error(), "pipeline: ") })

@@ -1,17 +1,15 @@
 package pipeline
 
 import (
-	"bufio"
 	"bytes"
 	"errors"
 	"fmt"
-	"math/rand/v2"
 	"os"
-	"os/exec"
 	"path/filepath"
-	"syscall"
 	"testing"
 	"time"
+
+	"github.com/striate/striate/internal/hostiletest"
 )
 
 // saveChildEnv makes the test binary, re-executed by TestSaveFileKilled,
@@ -66,25 +64,8 @@ func TestSaveFileKilled(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	rng := rand.New(rand.NewPCG(3, 4))
 	midSave := 0
-	for i := 0; i < 6; i++ {
-		cmd := exec.Command(os.Args[0], "-test.run=^$")
-		cmd.Env = append(os.Environ(), saveChildEnv+"="+src, saveChildOut+"="+dst)
-		out, err := cmd.StdoutPipe()
-		if err != nil {
-			t.Fatal(err)
-		}
-		cmd.Stderr = os.Stderr
-		if err := cmd.Start(); err != nil {
-			t.Fatal(err)
-		}
-		if l, _ := bufio.NewReader(out).ReadString('\n'); l != "ready\n" {
-			t.Fatalf("child said %q", l)
-		}
-		time.Sleep(time.Duration(rng.IntN(150)) * time.Millisecond)
-		cmd.Process.Signal(syscall.SIGKILL)
-		cmd.Wait()
+	hostiletest.KillAtRandom(t, []string{saveChildEnv + "=" + src, saveChildOut + "=" + dst}, 6, 150*time.Millisecond, 3, func(i int) {
 		got, err := os.ReadFile(dst)
 		if err != nil || !bytes.Equal(got, want) {
 			t.Fatalf("kill %d: the path holds %d bytes (%v); want the complete %d-byte model", i, len(got), err, len(want))
@@ -94,7 +75,7 @@ func TestSaveFileKilled(t *testing.T) {
 			midSave++
 			os.Remove(p)
 		}
-	}
+	})
 	t.Logf("%d of 6 kills landed inside a save", midSave)
 	if midSave == 0 {
 		t.Errorf("no kill landed inside a save; the test did not exercise the interruption")

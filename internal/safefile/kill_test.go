@@ -1,12 +1,10 @@
 package safefile
 
 import (
-	"bufio"
 	"bytes"
 	"crypto/sha256"
 	"fmt"
 	"io"
-	"math/rand/v2"
 	"os"
 	"os/exec"
 	"os/signal"
@@ -15,6 +13,8 @@ import (
 	"syscall"
 	"testing"
 	"time"
+
+	"github.com/striate/striate/internal/hostiletest"
 )
 
 // childEnv makes the test binary, re-executed by TestKillDuringWrite, run
@@ -97,26 +97,9 @@ func TestKillDuringWrite(t *testing.T) {
 	if err := WriteBytes(path, version(0)); err != nil {
 		t.Fatal(err)
 	}
-	rng := rand.New(rand.NewPCG(5, 5))
 	const trials = 8
 	midWrite := 0
-	for i := 0; i < trials; i++ {
-		cmd := exec.Command(os.Args[0], "-test.run=^$")
-		cmd.Env = append(os.Environ(), childEnv+"="+path)
-		out, err := cmd.StdoutPipe()
-		if err != nil {
-			t.Fatal(err)
-		}
-		cmd.Stderr = os.Stderr
-		if err := cmd.Start(); err != nil {
-			t.Fatal(err)
-		}
-		if l, _ := bufio.NewReader(out).ReadString('\n'); l != "ready\n" {
-			t.Fatalf("child said %q", l)
-		}
-		time.Sleep(time.Duration(5+rng.IntN(60)) * time.Millisecond)
-		cmd.Process.Signal(syscall.SIGKILL)
-		cmd.Wait()
+	hostiletest.KillAtRandom(t, []string{childEnv + "=" + path}, trials, 65*time.Millisecond, 5, func(i int) {
 		b, err := os.ReadFile(path)
 		if err != nil || !complete(b) {
 			t.Fatalf("trial %d: after SIGKILL the path holds %d bytes (%v), not a complete version", i, len(b), err)
@@ -128,7 +111,7 @@ func TestKillDuringWrite(t *testing.T) {
 				os.Remove(filepath.Join(dir, e.Name()))
 			}
 		}
-	}
+	})
 	t.Logf("%d of %d kills landed inside a write", midWrite, trials)
 	if midWrite == 0 {
 		t.Errorf("no kill landed inside a write; the test did not exercise the interruption")

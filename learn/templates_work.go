@@ -21,6 +21,9 @@ type TemplateWork struct {
 	// OutC×OutH×OutW is the shape of the maps EncodeMaps returns, the input
 	// of a stacked layer.
 	OutC, OutH, OutW int
+	// OutLen is the length of the vector Encode returns (OutLen's value
+	// when the maps are large enough for the pooling grids).
+	OutLen int
 }
 
 // Work returns the TemplateWork of c on ch×h×w maps. It returns the
@@ -55,6 +58,9 @@ func (c TemplateConfig) Work(ch, h, w int) (TemplateWork, error) {
 	wk.Fit = 8*n*dim + 3*8*dim*dim + 8*k*dim
 	if r.Method == MethodSparse {
 		wk.Fit += 4 * n * k
+	}
+	for _, g := range r.Grids {
+		wk.OutLen += g * g * int(f)
 	}
 	q := r.MapPool
 	wk.OutC, wk.OutH, wk.OutW = int(f), max(1, oh/q), max(1, ow/q)

@@ -5,6 +5,8 @@ import (
 	"fmt"
 	"sort"
 	"strings"
+
+	"github.com/striate/striate/learn"
 )
 
 // The memory budget. Before anything large is allocated, a plan works out
@@ -127,6 +129,7 @@ type layerWork struct {
 	encode  int64 // Encode/EncodeMaps scratch
 	out     int64 // EncodeMaps' output maps (0 for the last layer)
 	fit     int64 // the layer's own fit buffers
+	outLen  int64 // Encode's vector length
 	fields  string
 }
 
@@ -140,7 +143,7 @@ func (p *Plan) layers() ([]layerWork, error) {
 		if err != nil {
 			return nil, learnErr(fmt.Sprintf("templates[%d]", i), err)
 		}
-		lw := layerWork{c: c, h: h, w: w, encode: wk.Encode, fit: wk.Fit,
+		lw := layerWork{c: c, h: h, w: w, encode: wk.Encode, fit: wk.Fit, outLen: int64(wk.OutLen),
 			fields: fmt.Sprintf("input %d×%d, templates[%d].k %d, .patch_size %d, on %d×%d×%d maps", in.Height, in.Width, i, tc.K, tc.PatchSize, c, h, w)}
 		if i < len(p.cfg.Templates)-1 {
 			lw.out = 4 * int64(wk.OutC) * int64(wk.OutH) * int64(wk.OutW)
@@ -172,28 +175,15 @@ func (p *Plan) perWorker(ls []layerWork, featLen int) []WorkPart {
 }
 
 // featLenBound is the feature length the stages give, from the shapes.
-func (p *Plan) featLenBound() int64 {
+func (p *Plan) featLenBound(ls []layerWork) int64 {
 	n := int64(p.c) * int64(p.ph) * int64(p.pw)
-	if len(p.cfg.Templates) == 0 {
+	if len(ls) == 0 {
 		return n
 	}
 	if !p.cfg.Pool.keep() {
 		n = 0
 	}
-	last := p.cfg.Templates[len(p.cfg.Templates)-1]
-	g := int64(0)
-	grids := last.Grids
-	if len(grids) == 0 {
-		grids = []int{2} // learn's default
-	}
-	for _, v := range grids {
-		g += int64(v) * int64(v)
-	}
-	f := int64(last.K)
-	if last.Encoder != "triangle" {
-		f *= 2
-	}
-	return n + g*f
+	return n + ls[len(ls)-1].outLen
 }
 
 // PredictWork returns the work size of one Extract or Predict call on one
@@ -204,7 +194,7 @@ func (p *Plan) PredictWork() (WorkSize, error) {
 	if err != nil {
 		return WorkSize{}, err
 	}
-	return newWork("predict", p.perWorker(ls, int(min(p.featLenBound(), 1<<40)))), nil
+	return newWork("predict", p.perWorker(ls, int(min(p.featLenBound(ls), 1<<40)))), nil
 }
 
 // FitWork returns the work size of Fit on rows training rows (images, twice
@@ -221,7 +211,7 @@ func (p *Plan) FitWork(rows, unlabeled, workers int) (WorkSize, error) {
 		return WorkSize{}, err
 	}
 	workers = max(workers, 1)
-	fl := p.featLenBound()
+	fl := p.featLenBound(ls)
 	nu := int64(unlabeled)
 	if len(ls) == 0 {
 		nu = 0
@@ -250,7 +240,7 @@ func (p *Plan) FitWork(rows, unlabeled, workers int) (WorkSize, error) {
 	}
 	featW := newWork("fit", append(feat, X))
 	hidden := int64(p.cfg.Head.Hidden)
-	if p.cfg.Head.Kind != "mlp" {
+	if p.cfg.Head.Kind != learn.KindMLP {
 		hidden = 0
 	}
 	var val int64

@@ -174,14 +174,16 @@ func (p *Plan) tensorBytesBound(cfg Config, classes int) int64 {
 			n += int64(k.Size) * int64(k.Size)
 		}
 	}
-	if ls, err := p.layers(); err == nil {
-		for i, l := range ls {
-			pp := int64(p.cfg.Templates[i].PatchSize)
-			dim := int64(l.c) * pp * pp
-			n += dim + dim*dim + int64(p.cfg.Templates[i].K)*dim + 2
-		}
+	ls, err := p.layers()
+	if err != nil {
+		return MaxFileBytes // the full check reports it
 	}
-	d := p.featLenBound()
+	for i, l := range ls {
+		pp := int64(p.cfg.Templates[i].PatchSize)
+		dim := int64(l.c) * pp * pp
+		n += dim + dim*dim + int64(p.cfg.Templates[i].K)*dim + 2
+	}
+	d := p.featLenBound(ls)
 	hidden := max(int64(p.cfg.Head.Hidden), int64(DefaultHead.Hidden))
 	k := int64(classes)
 	n += 3*d + 2*d + (d+1)*hidden + (hidden+1)*k + (d+1)*k

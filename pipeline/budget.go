@@ -155,7 +155,7 @@ func (p *Plan) layers() ([]layerWork, error) {
 }
 
 // perWorker is the scratch of one Extract or Predict call.
-func (p *Plan) perWorker(ls []layerWork, featLen int) []WorkPart {
+func (p *Plan) perWorker(ls []layerWork, featLen int64) []WorkPart {
 	in := p.cfg.Input
 	px := int64(in.Height) * int64(in.Width)
 	inF := fmt.Sprintf("input.height×width %d×%d", in.Height, in.Width)
@@ -163,7 +163,7 @@ func (p *Plan) perWorker(ls []layerWork, featLen int) []WorkPart {
 		{"input images", inF, 3 * 4 * px},
 		{"front-end scratch", inF + ", front", p.front.ScratchBytes(in.Height, in.Width)},
 		{"front-end maps", fmt.Sprintf("%s, %d channels", inF, p.c), 4 * int64(p.c) * int64(p.oh) * int64(p.ow)},
-		{"features", "templates, pool", 2 * 4 * int64(featLen)},
+		{"features", "templates, pool", 2 * 4 * featLen},
 		{"small buffers", "head, classes", smallWork},
 	}
 	for i, l := range ls {
@@ -194,7 +194,7 @@ func (p *Plan) PredictWork() (WorkSize, error) {
 	if err != nil {
 		return WorkSize{}, err
 	}
-	return newWork("predict", p.perWorker(ls, int(min(p.featLenBound(ls), 1<<40)))), nil
+	return newWork("predict", p.perWorker(ls, p.featLenBound(ls))), nil
 }
 
 // FitWork returns the work size of Fit on rows training rows (images, twice
@@ -233,7 +233,7 @@ func (p *Plan) FitWork(rows, unlabeled, workers int) (WorkSize, error) {
 	}
 	X := WorkPart{fmt.Sprintf("features of %d training rows", rows), fmt.Sprintf("%d rows × %d features (templates, pool)", rows, fl), 4 * int64(rows) * fl}
 	var feat []WorkPart
-	for _, q := range p.perWorker(ls, int(min(fl, 1<<40))) {
+	for _, q := range p.perWorker(ls, fl) {
 		q.Bytes *= int64(workers)
 		q.What = fmt.Sprintf("%s × %d workers", q.What, workers)
 		feat = append(feat, q)

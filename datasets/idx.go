@@ -253,6 +253,17 @@ func readPayload(r io.Reader, name string, h header, present bool) ([]byte, erro
 	return buf, nil
 }
 
+// maxDeflateRatio is the most DEFLATE can expand: a compressed stream of n
+// bytes inflates to at most about 1032·n bytes (each 258-byte match costs at
+// least 2 bits; zlib's technical notes give the 1032:1 limit; from memory).
+// maxDeflateSlack allows for the gzip header and a tiny stream. A gzip file
+// too small for the size its IDX header declares is refused before any of
+// it is inflated.
+const (
+	maxDeflateRatio = 1032
+	maxDeflateSlack = 1 << 10
+)
+
 // ReadIDX decodes one IDX array from r, plain or gzip-compressed (told apart
 // by the gzip magic bytes 1F 8B). name is used in error messages only. The
 // header is validated against MaxIDXRank, MaxIDXDim and MaxIDXBytes before any
@@ -269,6 +280,7 @@ func readIDX(r io.Reader, name string, plainSize int64) (*IDX, error) {
 	br := bufio.NewReader(r)
 	var src io.Reader = br
 	magic, _ := br.Peek(2)
+	gzSize := int64(-1)
 	if len(magic) == 2 && magic[0] == 0x1F && magic[1] == 0x8B {
 		zr, err := gzip.NewReader(br)
 		if err != nil {
@@ -276,11 +288,16 @@ func readIDX(r io.Reader, name string, plainSize int64) (*IDX, error) {
 		}
 		defer zr.Close()
 		src = zr
-		plainSize = -1
+		gzSize, plainSize = plainSize, -1
 	}
 	h, err := readHeader(src, name)
 	if err != nil {
 		return nil, err
+	}
+	if gzSize >= 0 && h.size+h.bytes > maxDeflateRatio*gzSize+maxDeflateSlack {
+		return nil, &IDXError{File: name, Offset: h.size, Field: "file size",
+			Want: fmt.Sprintf("at least %d compressed bytes for the %d bytes dimensions %v of %s declare (DEFLATE expands at most %d:1)", (h.size+h.bytes-maxDeflateSlack)/maxDeflateRatio, h.size+h.bytes, h.dims, h.typ, maxDeflateRatio),
+			Got:  fmt.Sprintf("a %d-byte gzip file (truncated, or the header is wrong)", gzSize)}
 	}
 	if plainSize >= 0 && plainSize-h.size != h.bytes {
 		return nil, &IDXError{File: name, Offset: plainSize, Field: "file size",
@@ -309,7 +326,8 @@ func sizeWord(short bool) string {
 
 // ReadIDXFile reads the IDX file at path, plain or gzip-compressed. For a
 // plain file the size implied by the header is checked against the file's
-// length before the payload is read.
+// length before the payload is read; for a gzip file, against the most its
+// length can inflate to (maxDeflateRatio), before anything is inflated.
 func ReadIDXFile(path string) (*IDX, error) {
 	f, err := os.Open(path)
 	if err != nil {

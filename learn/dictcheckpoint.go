@@ -145,8 +145,8 @@ func LoadDictCheckpoint(r io.Reader) (*DictCheckpoint, error) {
 	}
 	k, dim := c.Atoms, c.Dim
 	readF := func(name string, n int) ([]float32, error) {
-		out := make([]float32, n)
-		if err := binary.Read(br, binary.LittleEndian, out); err != nil {
+		out, err := readGrowing[float32](br, n)
+		if err != nil {
 			return nil, bad("%s truncated (want %d float32 values): %v", name, n, err)
 		}
 		return out, nil
@@ -161,8 +161,7 @@ func LoadDictCheckpoint(r io.Reader) (*DictCheckpoint, error) {
 	if c.Bt, err = readF("statistic B", k*dim); err != nil {
 		return nil, err
 	}
-	c.Perm = make([]int32, c.N)
-	if err := binary.Read(br, binary.LittleEndian, c.Perm); err != nil {
+	if c.Perm, err = readGrowing[int32](br, c.N); err != nil {
 		return nil, bad("order truncated (want %d int32 values): %v", c.N, err)
 	}
 	sum := h.Sum32()
@@ -179,4 +178,22 @@ func LoadDictCheckpoint(r io.Reader) (*DictCheckpoint, error) {
 		}
 	}
 	return c, nil
+}
+
+// readGrowing reads n little-endian values from r in chunks of at most
+// 256 Ki values, so that memory grows with the bytes actually present and a
+// header claiming more than the file holds costs little (before, the whole
+// claimed size was allocated first: 1 GiB for a 90-byte file).
+func readGrowing[T float32 | int32](r io.Reader, n int) ([]T, error) {
+	const chunk = 1 << 18
+	out := make([]T, 0, min(n, chunk))
+	for len(out) < n {
+		k := min(n-len(out), chunk)
+		part := make([]T, k)
+		if err := binary.Read(r, binary.LittleEndian, part); err != nil {
+			return nil, err
+		}
+		out = append(out, part...)
+	}
+	return out, nil
 }

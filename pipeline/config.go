@@ -276,8 +276,17 @@ func (c Config) Validate() error {
 
 // ParseConfig reads a JSON configuration from r. Unknown keys are an error
 // that names the key and the keys valid at its level; missing keys keep their
-// zero-value defaults. The result is validated.
-func ParseConfig(r io.Reader) (Config, error) {
+// zero-value defaults. Keys match case-sensitively ("Head" is refused, with
+// the right spelling); a key given twice in one object, a null document, a
+// null for a number, string, boolean or object key, and a UTF-8 byte-order
+// mark are errors naming the JSON path. null is accepted for lists and
+// optional objects (templates, learn_bank, pool.keep, grids...) and means
+// the same as leaving the key out. The result is validated, its work size
+// included (see NewPlan); ParseConfigLimits sets the work-size limit.
+func ParseConfig(r io.Reader) (Config, error) { return ParseConfigLimits(r, Limits{}) }
+
+// ParseConfigLimits is ParseConfig with the work-size limit of lim.
+func ParseConfigLimits(r io.Reader, lim Limits) (Config, error) {
 	b, err := io.ReadAll(io.LimitReader(r, MaxHeaderBytes+1))
 	if err != nil {
 		return Config{}, fmt.Errorf("pipeline: reading config: %w", err)
@@ -289,7 +298,7 @@ func ParseConfig(r io.Reader) (Config, error) {
 	if err := decodeStrict(b, &c, "config"); err != nil {
 		return Config{}, err
 	}
-	if err := c.Validate(); err != nil {
+	if _, err := NewPlanLimits(c, lim); err != nil {
 		return Config{}, err
 	}
 	return c, nil

@@ -103,6 +103,19 @@
 // its own. The same Config and data give a bit-identical model file on the
 // same architecture, whatever FitOptions.Workers is.
 //
+// # Memory budget
+//
+// A plan knows, from its shapes alone, the bytes of buffers it will need:
+// PredictWork for one Extract or Predict call, FitWork for a fit on a given
+// number of rows and unlabeled images (front-end maps, each template layer's
+// patch, response and feature matrices, stacked layers' maps, the template
+// fit's sample, the training features, the head's weights). NewPlan,
+// ParseConfig, Load and Fit refuse a configuration whose work size is above
+// Limits.MaxWorkBytes (default DefaultMaxWorkBytes, 4 GiB) with a
+// *WorkSizeError naming the largest parts and the fields that drive them;
+// NewPlanLimits, ParseConfigLimits, LoadLimits and FitOptions.Limits raise
+// the limit on purpose. The limit is a run-time option, never saved.
+//
 // # Model files
 //
 // Save writes striate's own format, version FormatVersion:
@@ -115,14 +128,18 @@
 // header order. Format version 2 differs from version 1 only in how the
 // configuration reads (version 1 filled the head's and the pool's defaults
 // per whole struct); Load reads both, spelling a version-1 configuration out
-// so that the model predicts as before, and Save writes version 2. Load reads the file into memory (at most MaxFileBytes), then
-// checks, in order: magic, format version (an unknown version says which
-// versions this build reads), header length against MaxHeaderBytes and the
-// file length, the header's strict JSON, every tensor's rank, dimensions and
-// element count against MaxRank, MaxDim and MaxTensorElems, the file length
-// the header implies, the checksum, and every float32 being finite. Only
-// then does it allocate the tensors and rebuild the stages; nothing in a file
-// is ever executed. Every failure is a *FileError whose Kind (ErrTruncated,
+// so that the model predicts as before, and Save writes version 2. Load reads
+// the file in one pass and checks, in order: magic (from the first 8 bytes),
+// format version (an unknown version says which versions this build reads),
+// header length against MaxHeaderBytes, the header's strict JSON, every
+// tensor's rank, dimensions and element count against MaxRank, MaxDim and
+// MaxTensorElems, the file length the header implies (against the file's
+// size when it has one), the work size of the header's configuration
+// against the memory budget and the tensor table against what its stages
+// can hold; only then does it stream the payload through the SHA-256 in
+// chunks, then check the checksum and that every float32 is finite, and
+// rebuild the stages; nothing in a file is ever executed. Every failure is a
+// *FileError whose Kind (ErrTruncated,
 // ErrChecksum, ...) can be tested with errors.Is and whose message gives the
 // byte offset or field. Files are portable across architectures: the layout
 // is fixed little-endian, and a model saved on amd64 predicts the same

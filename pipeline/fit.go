@@ -25,6 +25,10 @@ type FitOptions struct {
 	// on (its labels are never read). Otherwise they are fitted on training
 	// images with their labels ignored.
 	Unlabeled *datasets.Set
+	// Limits bounds the fit's work size (FitWork with the training rows,
+	// the unlabeled images and Workers), checked before the first large
+	// allocation; the zero value is DefaultMaxWorkBytes.
+	Limits Limits
 }
 
 // FitReport describes a finished fit. It is not stored in model files.
@@ -53,7 +57,7 @@ func Fit(cfg Config, train *datasets.Set, opts FitOptions) (*Model, error) {
 
 // FitReported is Fit that also returns timings and the head's report.
 func FitReported(cfg Config, train *datasets.Set, opts FitOptions) (*Model, FitReport, error) {
-	p, err := NewPlan(cfg)
+	p, err := NewPlanLimits(cfg, opts.Limits)
 	if err != nil {
 		return nil, FitReport{}, err
 	}
@@ -81,6 +85,9 @@ func (p *Plan) Fit(train *datasets.Set, opts FitOptions) (*Model, FitReport, err
 		cfg.Head.Seed = stageSeed(cfg.Seed, seedHead)
 	}
 	rep.NTrain = train.N
+	if err := p.checkFit(train, opts); err != nil {
+		return nil, rep, err
+	}
 
 	if p.bankPending {
 		t0 := time.Now()
@@ -90,7 +97,7 @@ func (p *Plan) Fit(train *datasets.Set, opts FitOptions) (*Model, FitReport, err
 		}
 		cfg.Front.Bank = bank
 		cfg.Front.Gabor.Disable = true
-		if p, err = NewPlan(cfg); err != nil {
+		if p, err = NewPlanLimits(cfg, opts.Limits); err != nil {
 			return nil, rep, fmt.Errorf("pipeline: the learned bank does not fit the pipeline: %w", err)
 		}
 		rep.Bank = brep
@@ -158,6 +165,27 @@ func (p *Plan) Fit(train *datasets.Set, opts FitOptions) (*Model, FitReport, err
 	m, err := newModel(p.withConfig(cfg), train.Classes, tmpl, g, head)
 	rep.Total = time.Since(start)
 	return m, rep, err
+}
+
+// checkFit checks the fit's work size with the data's sizes known.
+func (p *Plan) checkFit(train *datasets.Set, opts FitOptions) error {
+	rows := train.N
+	if p.cfg.Mirror {
+		rows *= 2
+	}
+	src := train
+	if opts.Unlabeled != nil {
+		src = opts.Unlabeled
+	}
+	nu := src.N
+	if p.cfg.Unlabeled >= 0 {
+		nu = min(nu, p.cfg.Unlabeled)
+	}
+	w, err := p.FitWork(rows, nu, opts.Workers)
+	if err != nil {
+		return err
+	}
+	return w.check(opts.Limits)
 }
 
 func checkSet(s *datasets.Set, what string) error {

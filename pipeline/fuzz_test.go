@@ -52,7 +52,7 @@ func FuzzModelFile(f *testing.F) {
 // and a model it accepts must save to a file that loads back to the same
 // bytes.
 func fuzzModel(t *testing.T, b []byte) {
-	m, err := loadBytes(b)
+	m, err := Load(bytes.NewReader(b))
 	if err != nil {
 		return
 	}
@@ -60,7 +60,7 @@ func fuzzModel(t *testing.T, b []byte) {
 	if err := m.Save(&out); err != nil {
 		t.Fatalf("loaded model does not save: %v", err)
 	}
-	m2, err := loadBytes(out.Bytes())
+	m2, err := Load(bytes.NewReader(out.Bytes()))
 	if err != nil {
 		t.Fatalf("saved model does not load: %v", err)
 	}

@@ -2,7 +2,6 @@ package pipeline
 
 import (
 	"bufio"
-	"encoding/binary"
 	"encoding/json"
 	"fmt"
 	"io"
@@ -38,27 +37,13 @@ func (t TensorInfo) Elems() int64 { return product(t.Shape) }
 
 // Inspect reads a model file from r, checks it exactly as Load does, and
 // returns the model and a description of the file.
-func Inspect(r io.Reader) (*Model, *FileInfo, error) {
-	b, err := readAllLimited(r)
+func Inspect(r io.Reader) (*Model, *FileInfo, error) { return inspect(r, -1, Limits{}) }
+
+func inspect(r io.Reader, size int64, lim Limits) (*Model, *FileInfo, error) {
+	info := new(FileInfo)
+	m, err := load(r, size, lim, info)
 	if err != nil {
 		return nil, nil, err
-	}
-	m, err := loadBytes(b)
-	if err != nil {
-		return nil, nil, err
-	}
-	// loadBytes has checked magic, version, every length and the checksum.
-	hl := int64(binary.LittleEndian.Uint32(b[12:]))
-	hb := b[prefixLen : prefixLen+hl]
-	h, herr := parseHeader(hb)
-	if herr != nil {
-		return nil, nil, herr
-	}
-	info := &FileInfo{Version: binary.LittleEndian.Uint32(b[8:]), Size: int64(len(b)),
-		Header: append(json.RawMessage(nil), hb...), Config: h.Config, Classes: h.Classes}
-	copy(info.Checksum[:], b[len(b)-checksumLen:])
-	for _, t := range h.Tensors {
-		info.Tensors = append(info.Tensors, TensorInfo(t))
 	}
 	return m, info, nil
 }
@@ -70,7 +55,7 @@ func InspectFile(path string) (*Model, *FileInfo, error) {
 		return nil, nil, fmt.Errorf("pipeline: %w", err)
 	}
 	defer f.Close()
-	m, info, err := Inspect(bufio.NewReaderSize(f, 1<<16))
+	m, info, err := inspect(bufio.NewReaderSize(f, 1<<16), fileSize(f), Limits{})
 	if err != nil {
 		return nil, nil, fmt.Errorf("%w (in %s)", err, path)
 	}

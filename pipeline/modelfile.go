@@ -7,6 +7,7 @@ import (
 	"encoding/json"
 	"errors"
 	"fmt"
+	"hash"
 	"io"
 	"math"
 	"strings"
@@ -55,7 +56,10 @@ const (
 // Hard limits checked before any allocation the file asks for. They are far
 // above any model striate builds (the default model is a few MB) and low enough
 // that a hostile header cannot make a reader allocate more than about 1 GiB,
-// and every product fits a 32-bit int (GOARCH=arm).
+// and every product fits a 32-bit int (GOARCH=arm). Beyond these container
+// limits, Load checks the configuration in the header against the memory
+// budget (Limits, Plan.PredictWork) and the tensor table against what that
+// configuration's stages can hold, both before the payload is read.
 const (
 	// MaxHeaderBytes bounds the JSON header; the default header is a few kB.
 	MaxHeaderBytes = 4 << 20
@@ -312,39 +316,75 @@ func checkTensorShape(name string, dt DType, shape []int) *FileError {
 	return nil
 }
 
-// readAllLimited reads r to the end, refusing more than MaxFileBytes. Memory
-// grows only with bytes actually delivered, never with sizes a header claims.
-func readAllLimited(r io.Reader) ([]byte, error) {
-	b, err := io.ReadAll(io.LimitReader(r, MaxFileBytes+1))
-	if err != nil {
-		return nil, fmt.Errorf("pipeline: reading model file: %w", err)
-	}
-	if len(b) > MaxFileBytes {
-		return nil, fileErr(ErrLimit, -1, "file size", "more than %d bytes (MaxFileBytes)", MaxFileBytes)
-	}
-	return b, nil
+// decodeFile parses and checks a whole model file held in b (decodeStream
+// of b).
+func decodeFile(b []byte) (*fileContents, error) {
+	return decodeStream(bytes.NewReader(b), int64(len(b)), nil, nil)
 }
 
-// decodeFile parses and checks a whole model file held in b. Checks run in
-// this order, so the error names the first thing wrong: magic, version,
-// header length against the limit and the file, the header's JSON and every
-// tensor entry against the hard limits, the file length the header implies,
-// the checksum, and finally each tensor's values (float32 must be finite).
-func decodeFile(b []byte) (*fileContents, error) {
-	n := int64(len(b))
-	if n < int64(len(fileMagic)) {
-		if bytes.HasPrefix([]byte(fileMagic), b) {
-			return nil, fileErr(ErrTruncated, -1, "", "file has %d bytes; a model file has at least %d", n, prefixLen+checksumLen)
+// hashReader hashes and counts what it reads.
+type hashReader struct {
+	r   io.Reader
+	sum hash.Hash
+	n   int64
+}
+
+func (h *hashReader) Read(p []byte) (int, error) {
+	n, err := h.r.Read(p)
+	h.sum.Write(p[:n])
+	h.n += int64(n)
+	return n, err
+}
+
+// streamChunk is the most a reader holds of the payload at once besides the
+// tensors it is building.
+const streamChunk = 1 << 20
+
+// decodeStream reads one model file from r and checks it as it goes. size
+// is the file's length when known (a file's stat), else -1. The checks run
+// in this order, so the error names the first thing wrong: the magic (from
+// the first 8 bytes: /dev/zero is refused after reading them), the version,
+// the header length against MaxHeaderBytes, the header's JSON and every
+// tensor entry against the hard limits (a bad header is reported after the
+// checksum when size is known, so that damage reads as ErrChecksum, and at
+// once from a stream of unknown length), the file length the header implies
+// (against size when known, and MaxFileBytes), then early(h) — a caller's
+// check of the header, such as the work-size budget of its configuration —
+// before a byte of the payload is read; then the payload is streamed through
+// the SHA-256 in chunks (memory grows with bytes actually delivered, never
+// with sizes a header claims, unless size confirms them), the checksum, the
+// padding and finally each tensor's values (float32 must be finite).
+//
+// When info is not nil it receives the file's version, size, raw header and
+// checksum (its Config, Classes and Tensors are filled by the caller).
+func decodeStream(r io.Reader, size int64, early func(h *fileHeader, ver uint32) error, info *FileInfo) (*fileContents, error) {
+	if size > MaxFileBytes {
+		return nil, fileErr(ErrLimit, -1, "file size", "%d bytes, more than %d (MaxFileBytes)", size, MaxFileBytes)
+	}
+	hr := &hashReader{r: r, sum: sha256.New()}
+	short := func(err error, want int64, format string) error {
+		if errors.Is(err, io.EOF) || errors.Is(err, io.ErrUnexpectedEOF) {
+			return fileErr(ErrTruncated, -1, "", format, hr.n, want)
+		}
+		return fmt.Errorf("pipeline: reading model file: %w", err)
+	}
+	var pre [prefixLen]byte
+	if n, err := io.ReadFull(hr, pre[:8]); err != nil {
+		if !errors.Is(err, io.EOF) && !errors.Is(err, io.ErrUnexpectedEOF) {
+			return nil, short(err, 0, "")
+		}
+		if bytes.HasPrefix([]byte(fileMagic), pre[:n]) {
+			return nil, short(err, prefixLen+checksumLen, "file has %d bytes; a model file has at least %d")
 		}
 		return nil, fileErr(ErrNotModelFile, 0, "magic", "file has %d bytes and does not start with %q", n, fileMagic)
 	}
-	if string(b[:8]) != fileMagic {
-		return nil, fileErr(ErrNotModelFile, 0, "magic", "file starts with %q; a striate model starts with %q", printable(b[:8]), fileMagic)
+	if string(pre[:8]) != fileMagic {
+		return nil, fileErr(ErrNotModelFile, 0, "magic", "file starts with %q; a striate model starts with %q", printable(pre[:8]), fileMagic)
 	}
-	if n < prefixLen {
-		return nil, fileErr(ErrTruncated, -1, "", "file has %d bytes; a model file has at least %d", n, prefixLen+checksumLen)
+	if _, err := io.ReadFull(hr, pre[8:]); err != nil {
+		return nil, short(err, prefixLen+checksumLen, "file has %d bytes; a model file has at least %d")
 	}
-	ver := binary.LittleEndian.Uint32(b[8:])
+	ver := binary.LittleEndian.Uint32(pre[8:])
 	if ver < minReadVersion || ver > maxReadVersion {
 		hint := "the file is damaged or was written by another program"
 		if ver > maxReadVersion && ver < 1000 {
@@ -352,7 +392,7 @@ func decodeFile(b []byte) (*fileContents, error) {
 		}
 		return nil, fileErr(ErrUnsupportedVersion, 8, "format version", "file has version %d; this build reads versions %d..%d; %s", ver, minReadVersion, maxReadVersion, hint)
 	}
-	hlen := int64(binary.LittleEndian.Uint32(b[12:]))
+	hlen := int64(binary.LittleEndian.Uint32(pre[12:]))
 	if hlen > MaxHeaderBytes {
 		return nil, fileErr(ErrLimit, 12, "header length", "%d bytes, above the %d-byte limit (MaxHeaderBytes)", hlen, MaxHeaderBytes)
 	}
@@ -360,63 +400,152 @@ func decodeFile(b []byte) (*fileContents, error) {
 		return nil, fileErr(ErrMalformed, 12, "header length", "0; want a JSON header")
 	}
 	dataStart := prefixLen + hlen + pad(prefixLen+hlen)
-	if n < dataStart+checksumLen {
-		return nil, fileErr(ErrTruncated, -1, "", "file has %d bytes; its header alone needs %d", n, dataStart+checksumLen)
+	if size >= 0 && size < dataStart+checksumLen {
+		return nil, fileErr(ErrTruncated, -1, "", "file has %d bytes; its header alone needs %d", size, dataStart+checksumLen)
 	}
-
-	h, herr := parseHeader(b[prefixLen : prefixLen+hlen])
-	if herr == nil {
-		var dataLen int64
-		for _, t := range h.Tensors {
-			dataLen += t.Length // each ≤ 4·MaxTensorElems, count ≤ MaxTensors: no overflow
-		}
-		want := dataStart + dataLen + checksumLen
-		if n < want {
-			return nil, fileErr(ErrTruncated, -1, "", "file has %d bytes; its header describes %d", n, want)
-		}
-		if n > want {
-			return nil, fileErr(ErrMalformed, want-checksumLen, "", "file has %d bytes; its header describes %d (trailing data)", n, want)
-		}
+	hb := make([]byte, dataStart-prefixLen)
+	if _, err := io.ReadFull(hr, hb); err != nil {
+		return nil, short(err, dataStart+checksumLen, "file has %d bytes; its header alone needs %d")
 	}
-	got := sha256.Sum256(b[:n-checksumLen])
-	if !bytes.Equal(got[:], b[n-checksumLen:]) {
-		return nil, fileErr(ErrChecksum, n-checksumLen, "SHA-256", "stored %x, computed %x", b[n-checksumLen:], got[:])
+	h, herr := parseHeader(hb[:hlen])
+	if herr != nil && size < 0 {
+		// A stream of unknown length may not end: refuse it now.
+		herr.Offset = prefixLen
+		herr.Detail += " (checksum not checked: the stream's length is unknown)"
+		return nil, herr
 	}
 	if herr != nil {
+		// Without a header the layout is unknown: stream the rest of the
+		// file (its size is known and bounded) through the hash, keeping
+		// only its last 32 bytes, so that a damaged file is told from a
+		// malformed one.
+		stored, err := hashRest(hr)
+		if err != nil {
+			return nil, err
+		}
+		if got := hr.sum.Sum(nil); !bytes.Equal(got, stored) {
+			return nil, fileErr(ErrChecksum, hr.n-checksumLen, "SHA-256", "stored %x, computed %x", stored, got)
+		}
 		herr.Offset = prefixLen
 		return nil, herr
 	}
-	for i := prefixLen + hlen; i < dataStart; i++ {
-		if b[i] != 0 {
-			return nil, fileErr(ErrMalformed, i, "padding", "byte is %#x; want 0", b[i])
+	var dataLen int64
+	for _, t := range h.Tensors {
+		dataLen += t.Length // each ≤ 4·MaxTensorElems, count ≤ MaxTensors: no overflow
+	}
+	want := dataStart + dataLen + checksumLen
+	if size >= 0 && size < want {
+		return nil, fileErr(ErrTruncated, -1, "", "file has %d bytes; its header describes %d", size, want)
+	}
+	if size > want {
+		return nil, fileErr(ErrMalformed, want-checksumLen, "", "file has %d bytes; its header describes %d (trailing data)", size, want)
+	}
+	if want > MaxFileBytes {
+		return nil, fileErr(ErrLimit, -1, "file size", "its header describes %d bytes, more than %d (MaxFileBytes)", want, MaxFileBytes)
+	}
+	if early != nil {
+		if err := early(h, ver); err != nil {
+			return nil, err
 		}
 	}
 
 	c := &fileContents{Version: ver, Config: h.Config, Classes: h.Classes, Tensors: make([]tensor, len(h.Tensors))}
+	var late error // the first bad value, reported once the checksum holds
+	chunk := make([]byte, min(streamChunk, max(dataLen, 4)))
 	for i, ti := range h.Tensors {
-		off := dataStart + ti.Offset
-		raw := b[off : off+ti.Length]
 		t := tensor{Name: ti.Name, DType: ti.DType, Shape: ti.Shape}
-		m := len(raw) / 4
-		switch ti.DType {
-		case Float32:
-			t.F = make([]float32, m)
-			for j := range t.F {
-				v := math.Float32frombits(binary.LittleEndian.Uint32(raw[4*j:]))
-				if math.IsNaN(float64(v)) || math.IsInf(float64(v), 0) {
-					return nil, fileErr(ErrMalformed, off+int64(4*j), fmt.Sprintf("tensor %q", ti.Name), "element %d is %v; want a finite number", j, v)
+		m := int(ti.Length / 4)
+		if size >= 0 { // the file's length confirms the header's sizes
+			if ti.DType == Float32 {
+				t.F = make([]float32, 0, m)
+			} else {
+				t.I = make([]int32, 0, m)
+			}
+		}
+		for done := int64(0); done < ti.Length; {
+			b := chunk[:min(int64(len(chunk)), ti.Length-done)]
+			if _, err := io.ReadFull(hr, b); err != nil {
+				return nil, short(err, want, "file has %d bytes; its header describes %d")
+			}
+			for j := 0; j < len(b); j += 4 {
+				u := binary.LittleEndian.Uint32(b[j:])
+				if ti.DType == Int32 {
+					t.I = append(t.I, int32(u))
+					continue
 				}
-				t.F[j] = v
+				v := math.Float32frombits(u)
+				if late == nil && (math.IsNaN(float64(v)) || math.IsInf(float64(v), 0)) {
+					k := (done + int64(j)) / 4
+					late = fileErr(ErrMalformed, dataStart+ti.Offset+4*k, fmt.Sprintf("tensor %q", ti.Name), "element %d is %v; want a finite number", k, v)
+				}
+				t.F = append(t.F, v)
 			}
-		case Int32:
-			t.I = make([]int32, m)
-			for j := range t.I {
-				t.I[j] = int32(binary.LittleEndian.Uint32(raw[4*j:]))
-			}
+			done += int64(len(b))
 		}
 		c.Tensors[i] = t
 	}
+	got := hr.sum.Sum(nil)
+	var stored [checksumLen]byte
+	if _, err := io.ReadFull(r, stored[:]); err != nil {
+		return nil, fileErr(ErrTruncated, -1, "", "file ends inside its %d-byte checksum; its header describes %d bytes", checksumLen, want)
+	}
+	if size < 0 {
+		var one [1]byte
+		if n, _ := io.ReadFull(r, one[:]); n > 0 {
+			return nil, fileErr(ErrMalformed, want-checksumLen, "", "file has more than the %d bytes its header describes (trailing data)", want)
+		}
+	}
+	if !bytes.Equal(got, stored[:]) {
+		return nil, fileErr(ErrChecksum, want-checksumLen, "SHA-256", "stored %x, computed %x", stored[:], got)
+	}
+	for k, v := range hb[hlen:] {
+		if v != 0 {
+			return nil, fileErr(ErrMalformed, prefixLen+hlen+int64(k), "padding", "byte is %#x; want 0", v)
+		}
+	}
+	if late != nil {
+		return nil, late
+	}
+	if info != nil {
+		*info = FileInfo{Version: ver, Size: want, Header: append(json.RawMessage(nil), hb[:hlen]...), Config: h.Config, Classes: h.Classes}
+		copy(info.Checksum[:], stored[:])
+		for _, t := range h.Tensors {
+			info.Tensors = append(info.Tensors, TensorInfo(t))
+		}
+	}
 	return c, nil
+}
+
+// hashRest reads the rest of hr (the file is at most MaxFileBytes) through
+// its hash, all but the last checksumLen bytes, which it returns.
+func hashRest(hr *hashReader) ([]byte, error) {
+	r := hr.r
+	var tail []byte
+	buf := make([]byte, 1<<16)
+	total := hr.n
+	for {
+		n, err := r.Read(buf)
+		tail = append(tail, buf[:n]...)
+		total += int64(n)
+		if total > MaxFileBytes {
+			return nil, fileErr(ErrLimit, -1, "file size", "more than %d bytes (MaxFileBytes)", MaxFileBytes)
+		}
+		if k := len(tail) - checksumLen; k > 0 {
+			hr.sum.Write(tail[:k])
+			tail = append(tail[:0], tail[k:]...)
+		}
+		if err == io.EOF {
+			break
+		}
+		if err != nil {
+			return nil, fmt.Errorf("pipeline: reading model file: %w", err)
+		}
+	}
+	hr.n = total
+	if len(tail) < checksumLen {
+		return nil, fileErr(ErrTruncated, -1, "", "file has %d bytes; too short for its checksum", total)
+	}
+	return tail, nil
 }
 
 // parseHeader decodes the JSON header strictly and checks every entry

@@ -70,49 +70,161 @@ func (m *Model) SaveFile(path string) error {
 	return nil
 }
 
-// Load reads a model written by Save. It checks the file completely before
-// building anything (magic, format version, sizes against hard limits and
-// the file length, checksum, every value finite) and never executes
-// anything it reads. A bad file gives a *FileError (errors.Is it against
+// Load reads a model written by Save. It checks the file before building
+// anything (magic, format version, sizes against hard limits and the file
+// length, checksum, every value finite) and never executes anything it
+// reads. It reads the file in one pass: the magic, version and header come
+// first from a bounded prefix, the configuration in the header is checked
+// against the work-size limit (DefaultMaxWorkBytes; see Plan.PredictWork)
+// before the payload is read, and the payload is streamed through the
+// checksum. A bad file gives a *FileError (errors.Is it against
 // ErrNotModelFile, ErrUnsupportedVersion, ErrTruncated, ErrChecksum,
-// ErrLimit or ErrMalformed) that says what is wrong.
-func Load(r io.Reader) (*Model, error) {
-	b, err := readAllLimited(r)
-	if err != nil {
-		return nil, err
-	}
-	return loadBytes(b)
-}
+// ErrLimit or ErrMalformed) that says what is wrong; a model over the
+// work-size limit gives ErrLimit with a *WorkSizeError's message.
+func Load(r io.Reader) (*Model, error) { return load(r, -1, Limits{}, nil) }
+
+// LoadLimits is Load with the work-size limit of lim.
+func LoadLimits(r io.Reader, lim Limits) (*Model, error) { return load(r, -1, lim, nil) }
 
 // LoadFile is Load on the named file; errors name the file.
-func LoadFile(path string) (*Model, error) {
+func LoadFile(path string) (*Model, error) { return LoadFileLimits(path, Limits{}) }
+
+// LoadFileLimits is LoadLimits on the named file; errors name the file.
+// The file's length is checked against its header before the payload is
+// read.
+func LoadFileLimits(path string, lim Limits) (*Model, error) {
 	f, err := os.Open(path)
 	if err != nil {
 		return nil, fmt.Errorf("pipeline: %w", err)
 	}
 	defer f.Close()
-	m, err := Load(bufio.NewReaderSize(f, 1<<16))
+	m, err := load(bufio.NewReaderSize(f, 1<<16), fileSize(f), lim, nil)
 	if err != nil {
 		return nil, fmt.Errorf("%w (in %s)", err, path)
 	}
 	return m, nil
 }
 
+// fileSize is f's length when f is a regular file, else -1 (a pipe, a
+// device: /dev/zero has no length to trust).
+func fileSize(f *os.File) int64 {
+	st, err := f.Stat()
+	if err != nil || !st.Mode().IsRegular() {
+		return -1
+	}
+	return st.Size()
+}
+
+func load(r io.Reader, size int64, lim Limits, info *FileInfo) (*Model, error) {
+	c, err := decodeStream(r, size, func(h *fileHeader, ver uint32) error { return headerWork(h, ver, lim) }, info)
+	if err != nil {
+		return nil, err
+	}
+	return buildModel(c, lim)
+}
+
+// headerWork checks the work size of the configuration in a model file's
+// header before its payload is read. A configuration that does not decode
+// or plan is left for buildModel to report once the checksum holds.
+func headerWork(h *fileHeader, ver uint32, lim Limits) error {
+	cfg, err := headerConfig(h.Config, ver)
+	if err != nil {
+		return nil
+	}
+	if bk := cfg.Front.Bank; bk != nil {
+		// Stand-in weights of the declared sizes; the tensors are checked later.
+		if len(bk.Kernels) > MaxTensors {
+			return nil
+		}
+		for i := range bk.Kernels {
+			k := &bk.Kernels[i]
+			if k.Size < 1 || k.Size > maxBankKernel || len(k.W) != 0 {
+				return nil
+			}
+			k.W = make([]float32, k.Size*k.Size)
+		}
+	}
+	p, err := newPlan(cfg)
+	if err != nil {
+		return nil
+	}
+	if err := planWork(p, lim); err != nil {
+		return err
+	}
+	var data int64
+	for _, t := range h.Tensors {
+		data += t.Length
+	}
+	if most := p.tensorBytesBound(cfg, len(h.Classes)); data > most {
+		return fileErr(ErrMalformed, -1, "header.tensors", "%d bytes of tensors; the configuration's stages hold at most %d (learned bank, template layers, guard, head)", data, most)
+	}
+	return nil
+}
+
+// tensorBytesBound is the most bytes of tensors a model of the plan's
+// configuration with the given number of classes holds: the learned bank's
+// kernels, each template layer's mean, whitening matrix, templates and
+// scalars, the guard's three vectors and the head's standardisation and
+// weights (both kinds allowed for). A file declaring more is refused before
+// its payload is read.
+func (p *Plan) tensorBytesBound(cfg Config, classes int) int64 {
+	var n int64
+	if b := cfg.Front.Bank; b != nil {
+		for _, k := range b.Kernels {
+			n += int64(k.Size) * int64(k.Size)
+		}
+	}
+	ls, err := p.layers()
+	if err != nil {
+		return MaxFileBytes // the full check reports it
+	}
+	for i, l := range ls {
+		pp := int64(p.cfg.Templates[i].PatchSize)
+		dim := int64(l.c) * pp * pp
+		n += dim + dim*dim + int64(p.cfg.Templates[i].K)*dim + 2
+	}
+	d := p.featLenBound(ls)
+	hidden := max(int64(p.cfg.Head.Hidden), int64(DefaultHead.Hidden))
+	k := int64(classes)
+	n += 3*d + 2*d + (d+1)*hidden + (hidden+1)*k + (d+1)*k
+	return 4 * n
+}
+
+// maxBankKernel bounds the kernel side headerWork builds a stand-in for; a
+// larger one is left to the full check (v1layer refuses it).
+const maxBankKernel = 256
+
+// planWork checks a loaded model's plan: one prediction's work size.
+func planWork(p *Plan, lim Limits) error {
+	w, err := p.PredictWork()
+	if err == nil {
+		err = w.check(lim)
+	}
+	if err != nil {
+		return fileErr(ErrLimit, -1, "header.config", "%s", strings.TrimPrefix(err.Error(), "pipeline: "))
+	}
+	return nil
+}
+
+func headerConfig(raw json.RawMessage, ver uint32) (Config, error) {
+	var cfg Config
+	if err := decodeStrict(raw, &cfg, "model config"); err != nil {
+		return cfg, err
+	}
+	if ver == 1 {
+		configFromV1(&cfg)
+	}
+	return cfg, nil
+}
+
 func malformed(field, format string, a ...any) error {
 	return fileErr(ErrMalformed, -1, field, format, a...)
 }
 
-func loadBytes(b []byte) (*Model, error) {
-	c, err := decodeFile(b)
+func buildModel(c *fileContents, lim Limits) (*Model, error) {
+	cfg, err := headerConfig(c.Config, c.Version)
 	if err != nil {
-		return nil, err
-	}
-	var cfg Config
-	if err := decodeStrict(c.Config, &cfg, "model config"); err != nil {
 		return nil, malformed("header.config", "%v", err)
-	}
-	if c.Version == 1 {
-		configFromV1(&cfg)
 	}
 	used := make(map[string]bool, len(c.Tensors))
 	if bk := cfg.Front.Bank; bk != nil {
@@ -136,9 +248,12 @@ func loadBytes(b []byte) (*Model, error) {
 			used[name] = true
 		}
 	}
-	p, err := NewPlan(cfg)
+	p, err := newPlan(cfg)
 	if err != nil {
 		return nil, malformed("header.config", "%v", err)
+	}
+	if err := planWork(p, lim); err != nil {
+		return nil, err
 	}
 	if len(c.Classes) < 2 {
 		return nil, malformed("header.classes", "%d classes; a model has at least 2", len(c.Classes))

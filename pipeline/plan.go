@@ -29,8 +29,26 @@ type Plan struct {
 // NewPlan resolves and validates c. An error names the first bad field by
 // its JSON path (input.denoise, templates[0].method, head.kind,
 // learn_bank.dict.atoms) with the valid values, or the stages that do not
-// fit together.
-func NewPlan(c Config) (*Plan, error) {
+// fit together. A configuration whose work size (see PredictWork and
+// FitWork; the fit on Config.Unlabeled images when that is a count) is
+// above DefaultMaxWorkBytes gives a *WorkSizeError naming the fields that
+// drive it; NewPlanLimits raises the limit.
+func NewPlan(c Config) (*Plan, error) { return NewPlanLimits(c, Limits{}) }
+
+// NewPlanLimits is NewPlan with the work-size limit of lim.
+func NewPlanLimits(c Config, lim Limits) (*Plan, error) {
+	p, err := newPlan(c)
+	if err != nil {
+		return nil, err
+	}
+	if err := p.checkWork(lim); err != nil {
+		return nil, err
+	}
+	return p, nil
+}
+
+// newPlan is NewPlan without the work-size check.
+func newPlan(c Config) (*Plan, error) {
 	c = c.withDefaults()
 	in := c.Input
 	if in.Height < minSide || in.Height > maxSide || in.Width < minSide || in.Width > maxSide {

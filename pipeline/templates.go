@@ -58,15 +58,13 @@ func newTemplateStage(p *Plan, layers []*learn.Templates) (*templateStage, error
 			}
 			return t, nil
 		}
-		tc := l.Config()
-		if h < tc.PatchSize || w < tc.PatchSize {
-			return nil, fmt.Errorf("pipeline: template layer %d: maps of %d×%d are smaller than its patch size %d", i, h, w, tc.PatchSize)
+		// The shape EncodeMaps gives, from the configuration alone (no
+		// probe pass: its buffers would grow with positions × K).
+		wk, err := l.Config().Work(c, h, w)
+		if err != nil {
+			return nil, fmt.Errorf("pipeline: template layer %d: %w", i, err)
 		}
-		var probe, out v1layer.Maps
-		probe.Resize(c, h, w)
-		clear(probe.Pix)
-		l.EncodeMaps(&out, &probe)
-		c, h, w = out.C, out.H, out.W
+		c, h, w = wk.OutC, wk.OutH, wk.OutW
 	}
 	return nil, fmt.Errorf("pipeline: no template layers")
 }

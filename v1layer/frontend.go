@@ -437,3 +437,19 @@ func (f *FrontEnd) ApplyBatch(dst []Maps, imgs [][]float32, h, w, workers int) {
 	}
 	wg.Wait()
 }
+
+// ScratchBytes returns the bytes of the per-worker buffers Apply allocates
+// for an h×w image (the correlation responses, the stage maps, the padded
+// planes of the correlation engine), the output Maps not included. Callers
+// use it to bound the memory a plan needs before allocating any of it.
+func (f *FrontEnd) ScratchBytes(h, w int) int64 {
+	n := int64(h) * int64(w)
+	b := int64(len(f.kernels))*int64(respLen(h, w)) + int64(len(f.stage))*n + 4*n
+	if f.banded(h) {
+		b += int64(len(f.kernels)) * int64(respLen(bandRows+1, w))
+	}
+	nx := roundUp(w, 8)
+	pw := roundUp(2*f.eng.R+nx+8, 8)
+	b += int64(f.eng.slots+1) * int64(h+2*f.eng.R) * int64(pw)
+	return 4 * b
+}

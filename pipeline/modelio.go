@@ -43,6 +43,9 @@ func (m *Model) Save(w io.Writer) error {
 		}
 		cfg.Front.Bank = nb
 	}
+	if m.q != nil {
+		return m.saveInt8(w, cfg, ts)
+	}
 	if m.tmpl != nil {
 		for _, t := range m.tmpl.tensors() {
 			ts = append(ts, tensor{Name: t.Name, DType: Float32, Shape: t.Shape, F: t.Data})
@@ -142,6 +145,9 @@ func loadBytes(b []byte) (*Model, error) {
 	}
 	if len(c.Classes) < 2 {
 		return nil, malformed("header.classes", "%d classes; a model has at least 2", len(c.Classes))
+	}
+	if c.Version == FormatVersionInt8 {
+		return loadInt8(p, c, used)
 	}
 	for _, name := range []string{"guard.keep", "guard.lo", "guard.hi"} {
 		if c.tensor(name) != nil {

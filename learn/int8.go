@@ -1,0 +1,231 @@
+package learn
+
+import (
+	"fmt"
+	"math"
+	"math/bits"
+)
+
+// Integer arithmetic shared by the int8 template layer and the int8 head.
+//
+// The scheme is that of Jacob et al. 2018 ("Quantization and training of
+// neural networks for efficient integer-arithmetic-only inference", CVPR):
+//
+//	eq. 1  r = S·(q − Z)                  a real value r held as the integer q with
+//	                                      scale S > 0 and zero point Z
+//	eq. 4  q3 = Z3 + M·Σ (q1 − Z1)(q2 − Z2) the product of two quantised matrices
+//	eq. 5  M = S1·S2/S3                   the only real number left, fixed per layer
+//	eq. 6  M = 2^(−n)·M0, M0 ∈ [0.5, 1)   M0 held as a 31-bit fixed-point integer
+//	eq. 7  Σ (q1 − Z1)(q2 − Z2) = N·Z1·Z2 − Z1·Σ q2 − Z2·Σ q1 + Σ q1·q2
+//
+// Weights are int8, symmetric (Z = 0) with one scale per output channel, in
+// [−127, 127]; activations are uint8 in [0, 255] with a scale and a zero
+// point. Products accumulate in int32 (int64 where a per-patch moment is
+// involved). Every rounding to an integer rounds half away from zero, and a
+// value past the range of its type saturates. The multipliers are derived
+// from the stored float32 scales with single IEEE-754 operations (each
+// product rounded on its own, so no fused multiply-add can change a bit):
+// the same file gives the same integers, and the same predictions, on every
+// architecture.
+
+// fixedMul is a positive real multiplier M = m0·2^(−shift) with m0 in
+// [2^30, 2^31) (Jacob et al. 2018, eq. 6).
+type fixedMul struct {
+	m0    uint64
+	shift int
+}
+
+// Bounds on a multiplier's exponent: shift = 31 − e for M = f·2^e,
+// f ∈ [0.5, 1). apply needs shift+extra in [1, 127].
+const (
+	minMulShift = -15
+	maxMulShift = 100
+)
+
+// newFixedMul returns the fixed-point form of m, or an error naming what
+// when m is not a positive finite number within the supported exponents.
+func newFixedMul(m float64, what string) (fixedMul, error) {
+	if !(m > 0) || math.IsInf(m, 0) {
+		return fixedMul{}, fmt.Errorf("learn: %s: multiplier %g; want a positive finite number (a scale is zero, negative or not finite)", what, m)
+	}
+	frac, exp := math.Frexp(m) // m = frac·2^exp, frac ∈ [0.5, 1)
+	q := int64(math.Round(frac * (1 << 31)))
+	if q == 1<<31 {
+		q >>= 1
+		exp++
+	}
+	shift := 31 - exp
+	if shift < minMulShift || shift > maxMulShift {
+		return fixedMul{}, fmt.Errorf("learn: %s: multiplier %g is outside [2^%d, 2^%d]; a scale is far out of proportion to the others", what, m, 31-maxMulShift, 31-minMulShift)
+	}
+	return fixedMul{m0: uint64(q), shift: shift}, nil
+}
+
+// satMax is the magnitude at which mulShift saturates.
+const satMax = 1 << 62
+
+// mulShift returns round(|x|·m0·2^(−s)) with the sign of x, rounding half
+// away from zero and saturating at ±2^62. s must be in [1, 127].
+func mulShift(x int64, m0 uint64, s int) int64 {
+	ax := uint64(x)
+	if x < 0 {
+		ax = uint64(-x)
+	}
+	hi, lo := bits.Mul64(ax, m0)
+	var c uint64
+	if s <= 64 {
+		lo, c = bits.Add64(lo, 1<<(s-1), 0)
+		hi += c
+	} else {
+		hi += 1 << (s - 65)
+	}
+	var r uint64
+	if s < 64 {
+		if hi>>s != 0 {
+			r = satMax
+		} else {
+			r = lo>>s | hi<<(64-s)
+		}
+	} else {
+		r = hi >> (s - 64)
+	}
+	r = min(r, satMax)
+	if x < 0 {
+		return -int64(r)
+	}
+	return int64(r)
+}
+
+// apply returns round(M·x) (Jacob et al. 2018, eq. 4's M·Σ with eq. 6's M).
+func (f fixedMul) apply(x int64) int64 { return mulShift(x, f.m0, f.shift) }
+
+// real returns M as a float64 (for tests and reports).
+func (f fixedMul) real() float64 { return math.Ldexp(float64(f.m0), -f.shift) }
+
+// roundHalfAway rounds v to the nearest integer, halves away from zero.
+func roundHalfAway(v float64) int64 { return int64(math.Round(v)) }
+
+// clampU8 saturates v to [0, 255].
+func clampU8(v int64) uint8 { return uint8(min(max(v, 0), 255)) }
+
+// quantizeRows quantises the rows of the m×d matrix w (float64) to int8,
+// symmetric per row (Jacob et al. 2018, eq. 1 with Z = 0): scale s_j =
+// max_i |w_ji| / 127 (1 for an all-zero row), q_ji = round(w_ji / s_j).
+func quantizeRows(q []int8, s []float32, w []float64, m, d int) {
+	for j := 0; j < m; j++ {
+		row := w[j*d : (j+1)*d]
+		var mx float64
+		for _, v := range row {
+			mx = max(mx, math.Abs(v))
+		}
+		sc := float32(mx / 127)
+		if sc == 0 || mx == 0 {
+			sc = 1
+		}
+		s[j] = sc
+		for i, v := range row {
+			q[j*d+i] = int8(min(max(roundHalfAway(v/float64(sc)), -127), 127))
+		}
+	}
+}
+
+// ActivationScale returns the scale and zero point of uint8 activations
+// calibrated to the observed range [lo, hi], widened to hold 0 exactly
+// (Jacob et al. 2018, §2.1: the real 0 must be representable):
+// S = (hi − lo)/255, Z = round(−lo/S). An empty range (all zero) gives
+// S = 1, Z = 0.
+func ActivationScale(lo, hi float64) (float32, int32) {
+	lo, hi = min(lo, 0), max(hi, 0)
+	if hi-lo == 0 {
+		return 1, 0
+	}
+	s := float32((hi - lo) / 255)
+	if s == 0 {
+		return 1, 0
+	}
+	z := min(max(roundHalfAway(-lo/float64(s)), 0), 255)
+	return s, int32(z)
+}
+
+// QuantizeValue returns the uint8 code of the real value v at scale s and
+// zero point z: clamp(round(v/s) + z, 0, 255) (Jacob et al. 2018, eq. 1
+// inverted). It is the one place where a float enters the integer path.
+func QuantizeValue(v, s float32, z int32) uint8 {
+	u := float64(float32(v / s)) // one float32 division, rounded on its own
+	return clampU8(roundHalfAway(u) + int64(z))
+}
+
+// checkScales reports the first scale of s that is not a positive finite
+// number, naming the tensor.
+func checkScales(name string, s []float32) error {
+	for i, v := range s {
+		if !(v > 0) || math.IsInf(float64(v), 0) {
+			return fmt.Errorf("learn: int8 tensor %q: scale %d is %g; want a positive finite number", name, i, v)
+		}
+	}
+	return nil
+}
+
+// QuantTensor is one named array of an int8 stage. Exactly one of I8, I32
+// and F is set.
+type QuantTensor struct {
+	Name  string
+	Shape []int
+	I8    []int8
+	I32   []int32
+	F     []float32
+}
+
+func (t QuantTensor) len() int { return len(t.I8) + len(t.I32) + len(t.F) }
+
+// quantTensors indexes ts by name, checking that each has the shape want
+// names, the right element type and the right number of elements.
+type quantSpec struct {
+	name  string
+	kind  byte // 'b' int8, 'i' int32, 'f' float32
+	shape []int
+}
+
+func pickQuant(what string, ts []QuantTensor, specs []quantSpec) (map[string]QuantTensor, error) {
+	by := make(map[string]QuantTensor, len(ts))
+	for _, t := range ts {
+		if _, dup := by[t.Name]; dup {
+			return nil, fmt.Errorf("learn: %s: tensor %q appears twice", what, t.Name)
+		}
+		by[t.Name] = t
+	}
+	out := make(map[string]QuantTensor, len(specs))
+	for _, sp := range specs {
+		t, ok := by[sp.name]
+		if !ok {
+			return nil, fmt.Errorf("learn: %s: tensor %q missing", what, sp.name)
+		}
+		delete(by, sp.name)
+		var typed int
+		switch sp.kind {
+		case 'b':
+			typed = len(t.I8)
+		case 'i':
+			typed = len(t.I32)
+		case 'f':
+			typed = len(t.F)
+		}
+		n := 1
+		for _, d := range sp.shape {
+			n *= d
+		}
+		if len(t.Shape) != len(sp.shape) || typed != n || t.len() != n {
+			return nil, fmt.Errorf("learn: %s: tensor %q has shape %v (%d values); the float configuration needs %v of %s", what, sp.name, t.Shape, t.len(), sp.shape, map[byte]string{'b': "int8", 'i': "int32", 'f': "float32"}[sp.kind])
+		}
+		for i := range sp.shape {
+			if t.Shape[i] != sp.shape[i] {
+				return nil, fmt.Errorf("learn: %s: tensor %q has shape %v; the float configuration needs %v", what, sp.name, t.Shape, sp.shape)
+			}
+		}
+		out[sp.name] = t
+	}
+	for name := range by {
+		return nil, fmt.Errorf("learn: %s: unknown tensor %q", what, name)
+	}
+	return out, nil
+}

@@ -160,7 +160,7 @@ func QuantizeValue(v, s float32, z int32) uint8 {
 func checkScales(name string, s []float32) error {
 	for i, v := range s {
 		if !(v > 0) || math.IsInf(float64(v), 0) {
-			return fmt.Errorf("learn: int8 tensor %q: scale %d is %g; want a positive finite number", name, i, v)
+			return fmt.Errorf("learn: int8 tensor %q: element %d is %g; a scale must be a positive finite number", name, i, v)
 		}
 	}
 	return nil

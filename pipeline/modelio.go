@@ -29,8 +29,9 @@ const (
 
 // Save writes the model in striate's model-file format (see modelfile.go):
 // the configuration and class names in the JSON header, the learned arrays
-// as little-endian float32 tensors, a SHA-256 at the end. Equal models give
-// bit-identical files.
+// as little-endian float32 tensors, a SHA-256 at the end. An int8 model
+// (Quantize) stores its integer section instead of the float template and
+// head tensors, as format version 3. Equal models give bit-identical files.
 func (m *Model) Save(w io.Writer) error {
 	cfg := m.plan.Config()
 	var ts []tensor
@@ -160,7 +161,7 @@ func loadBytes(b []byte) (*Model, error) {
 		switch {
 		case used[t.Name]:
 		case t.DType != Float32:
-			return nil, malformed("tensor "+t.Name, "dtype %s; this version stores float32 only", t.DType)
+			return nil, malformed("tensor "+t.Name, "dtype %s; a version-%d file stores float32 only (int8 tensors need version %d)", t.DType, c.Version, FormatVersionInt8)
 		case strings.HasPrefix(t.Name, headTensorPrefix):
 			headTs = append(headTs, nt)
 		case strings.HasPrefix(t.Name, tmplTensorPrefix):

@@ -389,7 +389,7 @@ func loadInt8(p *Plan, c *fileContents, used map[string]bool) (*Model, error) {
 		}
 		for i, s := range sc.F {
 			if !(s > 0) {
-				return nil, malformed(int8TensorPrefix+"pool.scale", "scale %d is %g; want a positive number", i, s)
+				return nil, malformed(int8TensorPrefix+"pool.scale", "element %d is %g; a scale must be a positive number", i, s)
 			}
 			if z := zp.I32[i]; z < 0 || z > 255 {
 				return nil, malformed(int8TensorPrefix+"pool.zero", "zero point %d is %d; want [0, 255]", i, z)

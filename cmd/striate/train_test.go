@@ -82,3 +82,26 @@ func TestCLITrainMirror(t *testing.T) {
 		t.Errorf("accuracy %.3f on the held-out shapes, want ≥ 0.9", acc)
 	}
 }
+
+// TestCLITrainInt8: --int8 writes an int8 model (format version 3) that
+// loads, is an int8 model, and separates the fixture's classes (same 0.9
+// floor as TestCLITrainFolder).
+func TestCLITrainInt8(t *testing.T) {
+	cliFixture(t)
+	out := filepath.Join(t.TempDir(), "shapes-int8.striate")
+	mustRun(t, 0, "train", "--data", filepath.Join(cliDir, "train"), "--int8", "--out", out, "--workers", "2", "--quiet", "--seed", "3")
+	m, err := pipeline.LoadFile(out)
+	if err != nil {
+		t.Fatalf("the int8 model does not load: %v", err)
+	}
+	if !m.Int8() {
+		t.Fatal("train --int8 wrote a float model")
+	}
+	acc, err := pipeline.Accuracy(m, cliTestSet, nil, 2, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if acc < 0.9 {
+		t.Errorf("accuracy %.3f on the held-out shapes, want ≥ 0.9", acc)
+	}
+}

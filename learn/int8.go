@@ -229,3 +229,83 @@ func pickQuant(what string, ts []QuantTensor, specs []quantSpec) (map[string]Qua
 	}
 	return out, nil
 }
+
+// Packed products. Two int8 weight rows j, j+1 are held as one int64 per
+// column, p_i = w_{j,i} + w_{j+1,i}·2^32, so that one 64-bit multiply-add
+// by an activation x_i accumulates both products: Σ_i x_i·p_i = A + B·2^32
+// with A = Σ_i x_i·w_{j,i}, B = Σ_i x_i·w_{j+1,i}. With |A|, |B| < 2^31
+// (at most maxPackedIn columns of 255·127) the int64 sum is exact, A is its
+// low 32 bits read as a signed number and B = (sum − A)/2^32: the same
+// integers as two separate int32 accumulations, in half the multiplies.
+
+// maxPackedIn bounds the columns of a packed product: n·255·127 < 2^31.
+const maxPackedIn = 66000
+
+// packRows returns the m×d int8 matrix w as ⌈m/2⌉×d packed pairs (an odd
+// last row is paired with zeros).
+func packRows(w []int8, m, d int) []int64 {
+	p := make([]int64, (m+1)/2*d)
+	for j := 0; j < m; j += 2 {
+		dst := p[j/2*d : j/2*d+d]
+		for i := range dst {
+			v := int64(w[j*d+i])
+			if j+1 < m {
+				v += int64(w[(j+1)*d+i]) << 32
+			}
+			dst[i] = v
+		}
+	}
+	return p
+}
+
+// unpack splits a packed sum into its two products.
+func unpack(s int64) (a, b int32) {
+	lo := int64(int32(uint32(s)))
+	return int32(lo), int32((s - lo) >> 32)
+}
+
+// dotPacked sets acc_j = Σ_i w_ji·x_i + b_j for the m = len(acc) rows
+// packed in p (packRows of an m×len(x) matrix).
+func dotPacked(acc []int32, p []int64, x []uint8, b []int32) {
+	d, m := len(x), len(acc)
+	for j := 0; j < m; j += 2 {
+		row := p[j/2*d : j/2*d+d]
+		row = row[:len(x)]
+		var s0, s1 int64
+		i := 0
+		for ; i+2 <= len(x); i += 2 {
+			s0 += row[i] * int64(x[i])
+			s1 += row[i+1] * int64(x[i+1])
+		}
+		if i < len(x) {
+			s0 += row[i] * int64(x[i])
+		}
+		a, c := unpack(s0 + s1)
+		acc[j] = a + b[j]
+		if j+1 < m {
+			acc[j+1] = c + b[j+1]
+		}
+	}
+}
+
+// dotPacked2 is dotPacked without bias for two inputs x and y of the same
+// length at once (each packed weight is loaded once for four products).
+func dotPacked2(ax, ay []int32, p []int64, x, y []uint8) {
+	d, m := len(x), len(ax)
+	y = y[:len(x)]
+	for j := 0; j < m; j += 2 {
+		row := p[j/2*d : j/2*d+d]
+		row = row[:len(x)]
+		var sx, sy int64
+		for i, w := range row {
+			sx += w * int64(x[i])
+			sy += w * int64(y[i])
+		}
+		a, c := unpack(sx)
+		e, f := unpack(sy)
+		ax[j], ay[j] = a, e
+		if j+1 < m {
+			ax[j+1], ay[j+1] = c, f
+		}
+	}
+}

@@ -34,6 +34,7 @@ type QuantHead struct {
 	w2      []int8
 	s2      []float32
 	b2      []int32
+	p1, p2  []int64   // w1 and w2 packed in row pairs (packRows)
 	pool    sync.Pool // *quantHeadScratch
 }
 
@@ -93,6 +94,7 @@ func (hd *Head) Quantize(inScale []float32, inZero []int32, calib []uint8, n int
 		return q, q.derive()
 	}
 	// Calibrate the hidden scales on the calibration rows.
+	q.p1 = packRows(q.w1, m, d)
 	mx := make([]float64, m)
 	acc := make([]int32, m)
 	for r := 0; r < n; r++ {
@@ -123,11 +125,14 @@ func (hd *Head) Quantize(inScale []float32, inZero []int32, calib []uint8, n int
 	return q, q.derive()
 }
 
-// derive computes the hidden requantisation multipliers M_j = s1_j/hs_j.
+// derive packs the weights and computes the hidden requantisation
+// multipliers M_j = s1_j/hs_j.
 func (q *QuantHead) derive() error {
+	q.p1 = packRows(q.w1, len(q.s1), q.d)
 	if q.kind != KindMLP {
 		return nil
 	}
+	q.p2 = packRows(q.w2, q.k, q.h)
 	q.hm = make([]fixedMul, q.h)
 	for j := range q.hm {
 		r := float64(q.s1[j]) / float64(q.hs[j])
@@ -141,29 +146,7 @@ func (q *QuantHead) derive() error {
 }
 
 // layer1 writes Σ_i w1_ji·x_i + b1_j for every first-layer unit j into acc.
-func (q *QuantHead) layer1(acc []int32, x []uint8) { dotRowsU8(acc, q.w1, x, q.b1) }
-
-// dotRowsU8 sets acc_j = Σ_i w_ji·x_i + b_j for the rows of w (len(acc) ×
-// len(x)), accumulating in int32.
-func dotRowsU8(acc []int32, w []int8, x []uint8, b []int32) {
-	d := len(x)
-	for j := range acc {
-		row := w[j*d : (j+1)*d]
-		row = row[:len(x)]
-		var s0, s1, s2, s3 int32
-		i := 0
-		for ; i+4 <= len(x); i += 4 {
-			s0 += int32(row[i]) * int32(x[i])
-			s1 += int32(row[i+1]) * int32(x[i+1])
-			s2 += int32(row[i+2]) * int32(x[i+2])
-			s3 += int32(row[i+3]) * int32(x[i+3])
-		}
-		for ; i < len(x); i++ {
-			s0 += int32(row[i]) * int32(x[i])
-		}
-		acc[j] = s0 + s1 + s2 + s3 + b[j]
-	}
-}
+func (q *QuantHead) layer1(acc []int32, x []uint8) { dotPacked(acc, q.p1, x, q.b1) }
 
 // In returns the input length.
 func (q *QuantHead) In() int { return q.d }
@@ -203,7 +186,7 @@ func (q *QuantHead) Logits(dst []int32, x []uint8) []int32 {
 	for j, a := range acc {
 		hx[j] = clampU8(q.hm[j].apply(int64(max(a, 0))))
 	}
-	dotRowsU8(dst, q.w2, hx, q.b2)
+	dotPacked(dst, q.p2, hx, q.b2)
 	return dst
 }
 

@@ -50,6 +50,7 @@ type QuantTemplates struct {
 	eps        int64 // E
 	mul        []fixedMul
 	bpos, bneg []int64 // −(F·μ + α)/o and (F·μ − α)/o, 16 fraction bits
+	wp         []int64 // w packed in row pairs (packRows)
 	zero       []int32 // k zeros (the bias of the patch products)
 	pool       sync.Pool
 }
@@ -179,6 +180,7 @@ func (q *QuantTemplates) derive() error {
 		q.bneg[j] = roundHalfAway(float64((float64(q.fmu[j])-float64(q.alpha))/o) * 65536)
 	}
 	q.zero = make([]int32, k)
+	q.wp = packRows(q.w, k, n)
 	return nil
 }
 
@@ -306,8 +308,12 @@ func (q *QuantTemplates) features(s *quantTmplScratch, m *v1layer.Maps) (oh, ow 
 		s.a = make([]int32, np*k)
 	}
 	s.a = s.a[:np*k]
-	for i := 0; i < np; i++ {
-		dotRowsU8(s.a[i*k:(i+1)*k], q.w, s.p[i*dim:(i+1)*dim], q.zero)
+	i := 0
+	for ; i+2 <= np; i += 2 {
+		dotPacked2(s.a[i*k:(i+1)*k], s.a[(i+1)*k:(i+2)*k], q.wp, s.p[i*dim:(i+1)*dim], s.p[(i+1)*dim:(i+2)*dim])
+	}
+	if i < np {
+		dotPacked(s.a[i*k:(i+1)*k], q.wp, s.p[i*dim:(i+1)*dim], q.zero)
 	}
 	// Σq and Σq² of every patch from integral images (exact in int64).
 	if cap(s.sums) < 2*np {

@@ -515,3 +515,76 @@ func TestQuantPredictAllocatesNothing(t *testing.T) {
 		t.Errorf("QuantTemplates.Encode: %v allocations per call; want 0", a)
 	}
 }
+
+// TestPackedProductsExact: the packed pair products (two int8 rows per
+// int64) give exactly the int32 sums of the plain products, at the
+// extremes of the ranges (weights ±127, activations 255, up to
+// maxQuantIn columns) and on random values, for odd and even row counts.
+func TestPackedProductsExact(t *testing.T) {
+	rng := rand.New(rand.NewPCG(8, 9))
+	for _, c := range []struct{ m, d int }{{5, 300}, {4, 7}, {3, maxQuantIn}, {1, 1}} {
+		for _, fill := range []string{"max", "min", "random"} {
+			w := make([]int8, c.m*c.d)
+			x := make([]uint8, c.d)
+			y := make([]uint8, c.d)
+			for i := range w {
+				switch fill {
+				case "max":
+					w[i] = 127
+				case "min":
+					w[i] = -127
+				default:
+					w[i] = int8(rng.IntN(255) - 127)
+				}
+			}
+			for i := range x {
+				x[i], y[i] = 255, uint8(rng.IntN(256))
+				if fill == "random" {
+					x[i] = uint8(rng.IntN(256))
+				}
+			}
+			b := make([]int32, c.m)
+			for j := range b {
+				b[j] = int32(rng.IntN(1000) - 500)
+			}
+			want, got := make([]int32, c.m), make([]int32, c.m)
+			dotRowsU8(want, w, x, b)
+			p := packRows(w, c.m, c.d)
+			dotPacked(got, p, x, b)
+			if !reflect.DeepEqual(got, want) {
+				t.Fatalf("%d×%d %s: packed %v, plain %v", c.m, c.d, fill, got, want)
+			}
+			zero := make([]int32, c.m)
+			wx, wy, gx, gy := make([]int32, c.m), make([]int32, c.m), make([]int32, c.m), make([]int32, c.m)
+			dotRowsU8(wx, w, x, zero)
+			dotRowsU8(wy, w, y, zero)
+			dotPacked2(gx, gy, p, x, y)
+			if !reflect.DeepEqual(gx, wx) || !reflect.DeepEqual(gy, wy) {
+				t.Fatalf("%d×%d %s: two-input packed products differ from the plain ones", c.m, c.d, fill)
+			}
+		}
+	}
+}
+
+// dotRowsU8 is the plain reference of the packed products: it sets
+// acc_j = Σ_i w_ji·x_i + b_j for the rows of w (len(acc) ×
+// len(x)), accumulating in int32.
+func dotRowsU8(acc []int32, w []int8, x []uint8, b []int32) {
+	d := len(x)
+	for j := range acc {
+		row := w[j*d : (j+1)*d]
+		row = row[:len(x)]
+		var s0, s1, s2, s3 int32
+		i := 0
+		for ; i+4 <= len(x); i += 4 {
+			s0 += int32(row[i]) * int32(x[i])
+			s1 += int32(row[i+1]) * int32(x[i+1])
+			s2 += int32(row[i+2]) * int32(x[i+2])
+			s3 += int32(row[i+3]) * int32(x[i+3])
+		}
+		for ; i < len(x); i++ {
+			s0 += int32(row[i]) * int32(x[i])
+		}
+		acc[j] = s0 + s1 + s2 + s3 + b[j]
+	}
+}

@@ -264,8 +264,8 @@ func unpack(s int64) (a, b int32) {
 	return int32(lo), int32((s - lo) >> 32)
 }
 
-// dotPacked sets acc_j = Σ_i w_ji·x_i + b_j for the m = len(acc) rows
-// packed in p (packRows of an m×len(x) matrix).
+// dotPacked sets acc_j = Σ_i w_ji·x_i + b_j (b nil: no bias) for the
+// m = len(acc) rows packed in p (packRows of an m×len(x) matrix).
 func dotPacked(acc []int32, p []int64, x []uint8, b []int32) {
 	d, m := len(x), len(acc)
 	for j := 0; j < m; j += 2 {
@@ -281,9 +281,15 @@ func dotPacked(acc []int32, p []int64, x []uint8, b []int32) {
 			s0 += row[i] * int64(x[i])
 		}
 		a, c := unpack(s0 + s1)
-		acc[j] = a + b[j]
+		if b != nil {
+			a += b[j]
+			if j+1 < m {
+				c += b[j+1]
+			}
+		}
+		acc[j] = a
 		if j+1 < m {
-			acc[j+1] = c + b[j+1]
+			acc[j+1] = c
 		}
 	}
 }
@@ -308,4 +314,71 @@ func dotPacked2(ax, ay []int32, p []int64, x, y []uint8) {
 			ax[j+1], ay[j+1] = c, f
 		}
 	}
+}
+
+// int8Matrix is an m×d int8 weight matrix in the form this build's product
+// kernel reads: packed row pairs (portable), or rows widened to int16 and
+// padded with zeros to a multiple of 16 columns (SIMD build with AVX2,
+// int8_simd_amd64.go). Both give exactly the int32 sums Σ_i w_ji·x_i.
+type int8Matrix struct {
+	m, d  int
+	pairs []int64
+	w16   []int16
+	dpad  int
+}
+
+// mulWide, when not nil, is the SIMD kernel: acc_j = Σ_c w[j·dpad+c]·x[c]
+// for j < m, over int16 rows and input padded to dpad (a multiple of 16).
+var mulWide func(acc []int32, w, x []int16, m, dpad int)
+
+func newInt8Matrix(w []int8, m, d int) *int8Matrix {
+	a := &int8Matrix{m: m, d: d}
+	if mulWide == nil {
+		a.pairs = packRows(w, m, d)
+		return a
+	}
+	a.dpad = (d + 15) &^ 15
+	a.w16 = make([]int16, m*a.dpad)
+	for j := 0; j < m; j++ {
+		for i, v := range w[j*d : (j+1)*d] {
+			a.w16[j*a.dpad+i] = int16(v)
+		}
+	}
+	return a
+}
+
+// widen writes x as int16, zero-padded to dpad, into *buf and returns it.
+func widen(buf *[]int16, x []uint8, dpad int) []int16 {
+	if cap(*buf) < dpad {
+		*buf = make([]int16, dpad)
+	}
+	w := (*buf)[:dpad]
+	for i, v := range x {
+		w[i] = int16(v)
+	}
+	clear(w[len(x):])
+	return w
+}
+
+// mulVec sets acc_j = Σ_i w_ji·x_i + b_j (b nil: no bias) for the m rows;
+// buf is scratch for the SIMD build.
+func (a *int8Matrix) mulVec(acc []int32, x []uint8, b []int32, buf *[]int16) {
+	if a.w16 == nil {
+		dotPacked(acc, a.pairs, x, b)
+		return
+	}
+	mulWide(acc, a.w16, widen(buf, x, a.dpad), a.m, a.dpad)
+	for j := range b {
+		acc[j] += b[j]
+	}
+}
+
+// mulVec2 is mulVec without bias for two inputs of the same length.
+func (a *int8Matrix) mulVec2(ax, ay []int32, x, y []uint8, buf *[]int16) {
+	if a.w16 == nil {
+		dotPacked2(ax, ay, a.pairs, x, y)
+		return
+	}
+	mulWide(ax, a.w16, widen(buf, x, a.dpad), a.m, a.dpad)
+	mulWide(ay, a.w16, widen(buf, y, a.dpad), a.m, a.dpad)
 }

@@ -34,13 +34,15 @@ type QuantHead struct {
 	w2      []int8
 	s2      []float32
 	b2      []int32
-	p1, p2  []int64   // w1 and w2 packed in row pairs (packRows)
-	pool    sync.Pool // *quantHeadScratch
+	m1, m2  *int8Matrix // w1 and w2 in the product kernel's form
+	pool    sync.Pool   // *quantHeadScratch
 }
 
 type quantHeadScratch struct {
-	acc []int32
-	hx  []uint8
+	acc  []int32 // hidden accumulators
+	hx   []uint8 // hidden codes
+	lg   []int32 // logits
+	wide []int16 // the product kernel's scratch
 }
 
 // maxQuantIn bounds the input length so that Σ|w·q| + |b| fits an int32:
@@ -94,11 +96,12 @@ func (hd *Head) Quantize(inScale []float32, inZero []int32, calib []uint8, n int
 		return q, q.derive()
 	}
 	// Calibrate the hidden scales on the calibration rows.
-	q.p1 = packRows(q.w1, m, d)
+	q.m1 = newInt8Matrix(q.w1, m, d)
+	var wide []int16
 	mx := make([]float64, m)
 	acc := make([]int32, m)
 	for r := 0; r < n; r++ {
-		q.layer1(acc, calib[r*d:(r+1)*d])
+		q.layer1(acc, calib[r*d:(r+1)*d], &wide)
 		for j, a := range acc {
 			mx[j] = max(mx[j], float64(q.s1[j])*float64(a))
 		}
@@ -128,11 +131,11 @@ func (hd *Head) Quantize(inScale []float32, inZero []int32, calib []uint8, n int
 // derive packs the weights and computes the hidden requantisation
 // multipliers M_j = s1_j/hs_j.
 func (q *QuantHead) derive() error {
-	q.p1 = packRows(q.w1, len(q.s1), q.d)
+	q.m1 = newInt8Matrix(q.w1, len(q.s1), q.d)
 	if q.kind != KindMLP {
 		return nil
 	}
-	q.p2 = packRows(q.w2, q.k, q.h)
+	q.m2 = newInt8Matrix(q.w2, q.k, q.h)
 	q.hm = make([]fixedMul, q.h)
 	for j := range q.hm {
 		r := float64(q.s1[j]) / float64(q.hs[j])
@@ -145,8 +148,9 @@ func (q *QuantHead) derive() error {
 	return nil
 }
 
-// layer1 writes Σ_i w1_ji·x_i + b1_j for every first-layer unit j into acc.
-func (q *QuantHead) layer1(acc []int32, x []uint8) { dotPacked(acc, q.p1, x, q.b1) }
+// layer1 writes Σ_i w1_ji·x_i + b1_j for every first-layer unit j into
+// acc; buf is the kernel's scratch.
+func (q *QuantHead) layer1(acc []int32, x []uint8, buf *[]int16) { q.m1.mulVec(acc, x, q.b1, buf) }
 
 // In returns the input length.
 func (q *QuantHead) In() int { return q.d }
@@ -172,22 +176,32 @@ func (q *QuantHead) Logits(dst []int32, x []uint8) []int32 {
 		dst = make([]int32, q.k)
 	}
 	dst = dst[:q.k]
-	if q.kind == KindSoftmax {
-		q.layer1(dst, x)
-		return dst
-	}
+	s := q.scratch()
+	defer q.pool.Put(s)
+	q.logits(dst, x, s)
+	return dst
+}
+
+func (q *QuantHead) scratch() *quantHeadScratch {
 	s, _ := q.pool.Get().(*quantHeadScratch)
 	if s == nil {
-		s = &quantHeadScratch{acc: make([]int32, q.h), hx: make([]uint8, q.h)}
+		s = &quantHeadScratch{acc: make([]int32, q.h), hx: make([]uint8, q.h), lg: make([]int32, q.k)}
 	}
-	defer q.pool.Put(s)
+	return s
+}
+
+// logits is Logits with scratch s.
+func (q *QuantHead) logits(dst []int32, x []uint8, s *quantHeadScratch) {
+	if q.kind == KindSoftmax {
+		q.layer1(dst, x, &s.wide)
+		return
+	}
 	acc, hx := s.acc, s.hx
-	q.layer1(acc, x)
+	q.layer1(acc, x, &s.wide)
 	for j, a := range acc {
 		hx[j] = clampU8(q.hm[j].apply(int64(max(a, 0))))
 	}
-	dotPacked(dst, q.p2, hx, q.b2)
-	return dst
+	q.m2.mulVec(dst, hx, q.b2, &s.wide)
 }
 
 // LogitScale returns the real scale of class c's integer logit.
@@ -202,13 +216,13 @@ func (q *QuantHead) LogitScale(c int) float32 {
 // NumClasses(); a shorter dst is replaced) and returns it: the softmax of
 // the dequantised logits. It panics if len(x) != In().
 func (q *QuantHead) Predict(dst []float32, x []uint8) []float32 {
-	var buf [16]int32
-	var l []int32
-	if q.k <= len(buf) {
-		l = q.Logits(buf[:0], x)
-	} else {
-		l = q.Logits(nil, x)
+	if len(x) != q.d {
+		panic(fmt.Sprintf("learn: QuantHead.Predict: %d inputs, head expects %d", len(x), q.d))
 	}
+	s := q.scratch()
+	defer q.pool.Put(s)
+	l := s.lg
+	q.logits(l, x, s)
 	if len(dst) < q.k {
 		dst = make([]float32, q.k)
 	}

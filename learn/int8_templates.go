@@ -49,9 +49,8 @@ type QuantTemplates struct {
 	wsum       []int64
 	eps        int64 // E
 	mul        []fixedMul
-	bpos, bneg []int64 // −(F·μ + α)/o and (F·μ − α)/o, 16 fraction bits
-	wp         []int64 // w packed in row pairs (packRows)
-	zero       []int32 // k zeros (the bias of the patch products)
+	bpos, bneg []int64     // −(F·μ + α)/o and (F·μ − α)/o, 16 fraction bits
+	wm         *int8Matrix // w in the product kernel's form
 	pool       sync.Pool
 }
 
@@ -64,6 +63,7 @@ type quantTmplScratch struct {
 	f    []uint8 // positions×2k features
 	pl   []uint8 // one scale's pooled vector
 	sums []int64 // positions×2: Σq, Σq²
+	wide []int16 // the product kernel's scratch
 }
 
 // Bounds that keep every intermediate within 64 bits: D·2^16 < 2^63.
@@ -179,8 +179,7 @@ func (q *QuantTemplates) derive() error {
 		q.bpos[j] = roundHalfAway(float64(-(float64(q.fmu[j])+float64(q.alpha))/o) * 65536)
 		q.bneg[j] = roundHalfAway(float64((float64(q.fmu[j])-float64(q.alpha))/o) * 65536)
 	}
-	q.zero = make([]int32, k)
-	q.wp = packRows(q.w, k, n)
+	q.wm = newInt8Matrix(q.w, k, n)
 	return nil
 }
 
@@ -310,10 +309,10 @@ func (q *QuantTemplates) features(s *quantTmplScratch, m *v1layer.Maps) (oh, ow 
 	s.a = s.a[:np*k]
 	i := 0
 	for ; i+2 <= np; i += 2 {
-		dotPacked2(s.a[i*k:(i+1)*k], s.a[(i+1)*k:(i+2)*k], q.wp, s.p[i*dim:(i+1)*dim], s.p[(i+1)*dim:(i+2)*dim])
+		q.wm.mulVec2(s.a[i*k:(i+1)*k], s.a[(i+1)*k:(i+2)*k], s.p[i*dim:(i+1)*dim], s.p[(i+1)*dim:(i+2)*dim], &s.wide)
 	}
 	if i < np {
-		dotPacked(s.a[i*k:(i+1)*k], q.wp, s.p[i*dim:(i+1)*dim], q.zero)
+		q.wm.mulVec(s.a[i*k:(i+1)*k], s.p[i*dim:(i+1)*dim], nil, &s.wide)
 	}
 	// Σq and Σq² of every patch from integral images (exact in int64).
 	if cap(s.sums) < 2*np {

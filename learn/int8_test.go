@@ -327,7 +327,7 @@ func TestQuantHeadMatchesFloat64Reference(t *testing.T) {
 			ties := 0
 			for r := 0; r < n; r++ {
 				x := codes[r*d : (r+1)*d]
-				q.layer1(acc, x)
+				q.layer1(acc, x, new([]int16))
 				for j := 0; j < m; j++ {
 					real, bound := float64(hd.fb[j]), float64(q.s1[j])/2
 					for i := 0; i < d; i++ {
@@ -517,7 +517,8 @@ func TestQuantPredictAllocatesNothing(t *testing.T) {
 }
 
 // TestPackedProductsExact: the packed pair products (two int8 rows per
-// int64) give exactly the int32 sums of the plain products, at the
+// int64) and this build's kernel (int8Matrix; VPMADDWD in the SIMD build)
+// give exactly the int32 sums of the plain products, at the
 // extremes of the ranges (weights ±127, activations 255, up to
 // maxQuantIn columns) and on random values, for odd and even row counts.
 func TestPackedProductsExact(t *testing.T) {
@@ -561,6 +562,17 @@ func TestPackedProductsExact(t *testing.T) {
 			dotPacked2(gx, gy, p, x, y)
 			if !reflect.DeepEqual(gx, wx) || !reflect.DeepEqual(gy, wy) {
 				t.Fatalf("%d×%d %s: two-input packed products differ from the plain ones", c.m, c.d, fill)
+			}
+			// This build's kernel (the SIMD one under GOEXPERIMENT=simd).
+			a := newInt8Matrix(w, c.m, c.d)
+			var buf []int16
+			a.mulVec(got, x, b, &buf)
+			if !reflect.DeepEqual(got, want) {
+				t.Fatalf("%d×%d %s: kernel %v, plain %v", c.m, c.d, fill, got, want)
+			}
+			a.mulVec2(gx, gy, x, y, &buf)
+			if !reflect.DeepEqual(gx, wx) || !reflect.DeepEqual(gy, wy) {
+				t.Fatalf("%d×%d %s: two-input kernel products differ from the plain ones", c.m, c.d, fill)
 			}
 		}
 	}

@@ -64,6 +64,7 @@ type quantTmplScratch struct {
 	pl   []uint8 // one scale's pooled vector
 	sums []int64 // positions×2: Σq, Σq²
 	wide []int16 // the product kernel's scratch
+	cell []int32 // one pooling cell's F accumulators
 }
 
 // Bounds that keep every intermediate within 64 bits: D·2^16 < 2^63.
@@ -245,14 +246,14 @@ func (q *QuantTemplates) Encode(dst []uint8, m *v1layer.Maps) []uint8 {
 		}
 		oh, ow := q.features(s, src)
 		if si == 0 {
-			q.poolGrids(dst, s.f, oh, ow)
+			q.poolGrids(dst, s.f, oh, ow, s)
 			continue
 		}
 		if cap(s.pl) < n {
 			s.pl = make([]uint8, n)
 		}
 		s.pl = s.pl[:n]
-		q.poolGrids(s.pl, s.f, oh, ow)
+		q.poolGrids(s.pl, s.f, oh, ow, s)
 		for i, v := range s.pl {
 			dst[i] = max(dst[i], v)
 		}
@@ -399,31 +400,44 @@ func absU(v int64) uint64 {
 }
 
 // poolGrids pools the positions×F codes f on every grid into dst: the max,
-// or the mean rounded half up (Templates.poolGrids on codes).
-func (q *QuantTemplates) poolGrids(dst, f []uint8, oh, ow int) {
+// or the mean rounded half up (Templates.poolGrids on codes). Each cell
+// runs over its positions once, updating all F features of a position
+// (contiguous in f) together.
+func (q *QuantTemplates) poolGrids(dst, f []uint8, oh, ow int, s *quantTmplScratch) {
 	F := q.Features()
 	off := 0
 	avg := q.shape.cfg.Pool == PoolAvg
+	if cap(s.cell) < F {
+		s.cell = make([]int32, F)
+	}
+	cell := s.cell[:F]
 	for _, g := range q.shape.cfg.Grids {
 		for gy := 0; gy < g; gy++ {
 			y0, y1 := gy*oh/g, (gy+1)*oh/g
 			for gx := 0; gx < g; gx++ {
 				x0, x1 := gx*ow/g, (gx+1)*ow/g
-				cnt := int64((y1 - y0) * (x1 - x0))
-				for ff := 0; ff < F; ff++ {
-					var v uint8
-					var s int64
-					for y := y0; y < y1; y++ {
-						for x := x0; x < x1; x++ {
-							c := f[(y*ow+x)*F+ff]
-							v = max(v, c)
-							s += int64(c)
+				clear(cell)
+				for y := y0; y < y1; y++ {
+					for x := x0; x < x1; x++ {
+						row := f[(y*ow+x)*F : (y*ow+x+1)*F]
+						row = row[:len(cell)]
+						if avg {
+							for ff, c := range row {
+								cell[ff] += int32(c)
+							}
+						} else {
+							for ff, c := range row {
+								cell[ff] = max(cell[ff], int32(c))
+							}
 						}
 					}
+				}
+				cnt := int32((y1 - y0) * (x1 - x0))
+				for ff, v := range cell {
 					if avg {
-						v = uint8((2*s + cnt) / (2 * cnt))
+						v = (2*v + cnt) / (2 * cnt)
 					}
-					dst[off+(ff*g+gy)*g+gx] = v
+					dst[off+(ff*g+gy)*g+gx] = uint8(v)
 				}
 			}
 		}

@@ -176,7 +176,7 @@ func WriteModelInfo(w io.Writer, path string, m *pipeline.Model, info *pipeline.
 	ih, iw := m.InputSize()
 	fmt.Fprintf(w, "file          %s\n", path)
 	fmt.Fprintf(w, "size          %d bytes\n", info.Size)
-	fmt.Fprintf(w, "format        striate-model, version %d (this build writes %d)\n", info.Version, pipeline.FormatVersion)
+	fmt.Fprintf(w, "format        striate-model, version %d (this build writes %d, and %d for int8 models)\n", info.Version, pipeline.FormatVersion, pipeline.FormatVersionInt8)
 	fmt.Fprintf(w, "header        %d bytes of JSON\n", len(info.Header))
 	fmt.Fprintf(w, "checksum      SHA-256 %x… verified\n", info.Checksum[:8])
 	fmt.Fprintf(w, "input         %d×%d grey\n", ih, iw)

@@ -150,6 +150,26 @@
 // (0 allocations), K = 128 soft 1.2 ms, with two scales 1.9 ms, triangle
 // 5.2 ms (it needs the whitened patch explicitly: one more dim×dim GEMM).
 //
+// # Integer inference (int8*.go)
+//
+// Templates.Quantize and Head.Quantize give the integer forms of a template
+// layer (soft encoder) and a head, after Jacob et al. 2018 (CVPR,
+// "Quantization and training of neural networks for efficient
+// integer-arithmetic-only inference"): r = S·(q − Z) for every tensor
+// (eq. 1); int8 weights, symmetric per output channel (scale
+// max|w|/127); uint8 activations whose scale and zero point span the range
+// seen on calibration data (min/max, §3); int32 accumulation with the zero
+// points folded into sums and biases (eq. 7); requantisation by a
+// fixed-point multiplier M = 2^(−n)·M0, M0 ∈ [0.5, 1) held in 31 bits
+// (eqs. 5-6), rounding half away from zero. The template layer's per-patch
+// normalisation is integer too: the patch mean acts as a zero point, and
+// 1/sqrt(var + ε) is an exact integer square root and a 62-bit reciprocal
+// (QuantTemplates). Products run two int8 rows per 64-bit multiply
+// (portable; exact while n·255·127 < 2^31) or as int16 pair products in
+// AVX2 (SIMD build); both give the same integers. The results depend only on
+// the stored integers and scales, not on the architecture. Checked against
+// float64 evaluations of the same equations (int8_test.go).
+//
 // # Supervised head (head*.go, internal/nn)
 //
 // HeadConfig.Fit trains a multinomial logistic regression ("softmax") or a

@@ -145,4 +145,16 @@
 // is fixed little-endian, and a model saved on amd64 predicts the same
 // classes on arm64 (features agree to float32 rounding, not bit for bit,
 // because arm64 fuses multiply-adds).
+//
+// # Integer inference
+//
+// Model.Quantize turns a fitted model into an int8 one (Jacob et al. 2018;
+// see learn's doc and quant.go): the input stage and the front end stay
+// float32, the template layer, the guard and the head run in integers,
+// with activation scales calibrated on training images. Save writes it as
+// format version 3 (FormatVersionInt8), whose integer section replaces the
+// float template and head tensors; float models keep version 2, so older
+// readers still read them, and reject version 3 as written by a newer
+// striate. Load and LoadFile read both. The integer logits are the same on
+// every architecture for the same front-end maps (TestCrossArchInt8).
 package pipeline

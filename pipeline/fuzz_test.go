@@ -16,6 +16,8 @@ func FuzzModelFile(f *testing.F) {
 	seeds, _ := filepath.Glob("../testdata/pipeline/*.bin")
 	more, _ := filepath.Glob("../testdata/pipeline/*.stm")
 	seeds = append(seeds, more...)
+	more, _ = filepath.Glob("../testdata/pipeline/*.striate") // the int8 model (version 3)
+	seeds = append(seeds, more...)
 	for _, p := range seeds {
 		b, err := os.ReadFile(p)
 		if err != nil {

@@ -20,7 +20,8 @@ type Model struct {
 	tmpl    *templateStage // nil without a template layer
 	guard   *guard
 	head    *learn.Head
-	scratch sync.Pool // *work
+	q       *int8Stage // the integer path of a quantised model (quant.go); nil for float
+	scratch sync.Pool  // *work
 }
 
 func newModel(p *Plan, classes []string, tmpl *templateStage, g *guard, head *learn.Head) (*Model, error) {
@@ -61,7 +62,7 @@ func (m *Model) Channels() []v1layer.Channel { return m.plan.front.Channels() }
 // Plan returns the plan the model runs (its Config is the model's).
 func (m *Model) Plan() *Plan { return m.plan }
 
-// Head returns the fitted head (immutable, shared).
+// Head returns the fitted head (immutable, shared); nil for an int8 model.
 func (m *Model) Head() *learn.Head { return m.head }
 
 // Extract returns the feature vector of img: img is converted to grey
@@ -86,6 +87,9 @@ func (m *Model) Predict(img image.Image) (class int, probs []float32) {
 // input size) into dst and returns it. With Config.Mirror they are the mean
 // of the head's probabilities for in and for its left–right mirror image.
 func (m *Model) classify(dst, in []float32, w *work) []float32 {
+	if m.q != nil {
+		return m.classifyInt8(dst, in, w)
+	}
 	w.feat = m.extract(w.feat, in, w)
 	dst = m.head.Predict(dst, w.feat, m.headScratch(w))
 	if !m.plan.cfg.Mirror {
@@ -201,6 +205,9 @@ func (m *Model) headScratch(w *work) []float32 {
 // extract runs the stages on one grey image at the input size and writes
 // the guarded features into dst (reused when its capacity suffices).
 func (m *Model) extract(dst, in []float32, w *work) []float32 {
+	if m.q != nil {
+		return m.extractInt8(dst, in, w)
+	}
 	w.full = m.plan.features(w.full, in, m.tmpl, w)
 	n := m.guard.out()
 	if cap(dst) < n {

@@ -13,11 +13,11 @@ import (
 	"strings"
 )
 
-// The model file layout (format versions 1 and 2). All integers little-endian.
+// The model file layout (format versions 1 to 3). All integers little-endian.
 //
 //	offset  size  field
 //	0       8     magic "STRIATEM"
-//	8       4     format version (uint32), currently 2
+//	8       4     format version (uint32): 2, or 3 with an integer section
 //	12      4     header length H in bytes (uint32), at most MaxHeaderBytes
 //	16      H     header: UTF-8 JSON object (see fileHeader), no unknown keys
 //	16+H    P     zero padding so that the data section starts on a multiple of 8
@@ -34,7 +34,11 @@ import (
 // (see Config). In version 1 a head with any field set took learn's default
 // for every other zero field, and an absent pool.keep meant false; Load
 // spells those meanings out (see configFromV1), so a version-1 model loads
-// and predicts as it did.
+// and predicts as it did. Version 3 reads as version 2 and adds the dtype
+// int8 and the integer section of a quantised model (Model.Quantize; tensor
+// names int8.*, see modelio.go): its template layer and head are stored as
+// integers only, the float configuration stays in the header. A reader of
+// versions 1..2 rejects it as written by a newer striate.
 const (
 	// FileExt is the file-name extension striate gives model files (older
 	// builds used ".stm"). Readers go by the file's magic bytes, never by
@@ -44,9 +48,13 @@ const (
 	fileMagic = "STRIATEM"
 	// FormatVersion is the model-file format version this build writes.
 	FormatVersion = 2
+	// FormatVersionInt8 is the version of a file holding an integer section
+	// (Model.Quantize); float models keep FormatVersion, so that older
+	// readers still read them.
+	FormatVersionInt8 = 3
 	// minReadVersion..maxReadVersion is the range this build reads.
 	minReadVersion = 1
-	maxReadVersion = 2
+	maxReadVersion = 3
 
 	prefixLen   = 16
 	checksumLen = sha256.Size
@@ -130,29 +138,37 @@ type DType string
 const (
 	Float32 DType = "float32"
 	Int32   DType = "int32"
+	// Int8 is a tensor of the integer section (format version 3 only).
+	Int8 DType = "int8"
 )
 
 func (d DType) size() int {
 	switch d {
 	case Float32, Int32:
 		return 4
+	case Int8:
+		return 1
 	}
 	return 0
 }
 
-// tensor is one named array held in a model file. Exactly one of F or I is
-// set, according to DType.
+// tensor is one named array held in a model file. Exactly one of F, I or
+// B is set, according to DType.
 type tensor struct {
 	Name  string
 	DType DType
 	Shape []int
 	F     []float32
 	I     []int32
+	B     []int8
 }
 
 func (t *tensor) elems() int {
-	if t.DType == Int32 {
+	switch t.DType {
+	case Int32:
 		return len(t.I)
+	case Int8:
+		return len(t.B)
 	}
 	return len(t.F)
 }
@@ -259,6 +275,18 @@ func encodeFile(w io.Writer, c *fileContents) error {
 	buf := make([]byte, 0, 1<<16)
 	for i := range c.Tensors {
 		t := &c.Tensors[i]
+		if t.DType == Int8 {
+			for _, v := range t.B {
+				buf = append(buf, byte(v))
+				if len(buf) == cap(buf) {
+					if _, err := out.Write(buf); err != nil {
+						return err
+					}
+					buf = buf[:0]
+				}
+			}
+			continue
+		}
 		for j := 0; j < t.elems(); j++ {
 			var u uint32
 			if t.DType == Int32 {
@@ -298,7 +326,7 @@ func checkTensorShape(name string, dt DType, shape []int) *FileError {
 		return fileErr(ErrMalformed, -1, field, "name length %d; want 1..%d bytes", len(name), MaxNameLen)
 	}
 	if dt.size() == 0 {
-		return fileErr(ErrMalformed, -1, field, "dtype %q; want %q or %q", dt, Float32, Int32)
+		return fileErr(ErrMalformed, -1, field, "dtype %q; want %q, %q or %q", dt, Float32, Int32, Int8)
 	}
 	if len(shape) == 0 || len(shape) > MaxRank {
 		return fileErr(ErrLimit, -1, field, "rank %d; want 1..%d (MaxRank)", len(shape), MaxRank)
@@ -450,22 +478,32 @@ func decodeStream(r io.Reader, size int64, early func(h *fileHeader, ver uint32)
 	}
 
 	c := &fileContents{Version: ver, Config: h.Config, Classes: h.Classes, Tensors: make([]tensor, len(h.Tensors))}
-	var late error // the first bad value, reported once the checksum holds
-	chunk := make([]byte, min(streamChunk, max(dataLen, 4)))
+	var late error                                                   // the first bad value, reported once the checksum holds
+	chunk := make([]byte, min(streamChunk, (max(dataLen, 4)+3)/4*4)) // whole 4-byte elements
 	for i, ti := range h.Tensors {
 		t := tensor{Name: ti.Name, DType: ti.DType, Shape: ti.Shape}
 		m := int(ti.Length / 4)
 		if size >= 0 { // the file's length confirms the header's sizes
-			if ti.DType == Float32 {
+			switch ti.DType {
+			case Float32:
 				t.F = make([]float32, 0, m)
-			} else {
+			case Int32:
 				t.I = make([]int32, 0, m)
+			case Int8:
+				t.B = make([]int8, 0, ti.Length)
 			}
 		}
 		for done := int64(0); done < ti.Length; {
 			b := chunk[:min(int64(len(chunk)), ti.Length-done)]
 			if _, err := io.ReadFull(hr, b); err != nil {
 				return nil, short(err, want, "file has %d bytes; its header describes %d")
+			}
+			if ti.DType == Int8 {
+				for _, v := range b {
+					t.B = append(t.B, int8(v))
+				}
+				done += int64(len(b))
+				continue
 			}
 			for j := 0; j < len(b); j += 4 {
 				u := binary.LittleEndian.Uint32(b[j:])

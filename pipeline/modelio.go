@@ -29,8 +29,9 @@ const (
 
 // Save writes the model in striate's model-file format (see modelfile.go):
 // the configuration and class names in the JSON header, the learned arrays
-// as little-endian float32 tensors, a SHA-256 at the end. Equal models give
-// bit-identical files.
+// as little-endian float32 tensors, a SHA-256 at the end. An int8 model
+// (Quantize) stores its integer section instead of the float template and
+// head tensors, as format version 3. Equal models give bit-identical files.
 func (m *Model) Save(w io.Writer) error {
 	cfg := m.plan.Config()
 	var ts []tensor
@@ -42,6 +43,9 @@ func (m *Model) Save(w io.Writer) error {
 			nb.Kernels[i] = k
 		}
 		cfg.Front.Bank = nb
+	}
+	if m.q != nil {
+		return m.saveInt8(w, cfg, ts)
 	}
 	if m.tmpl != nil {
 		for _, t := range m.tmpl.tensors() {
@@ -258,6 +262,9 @@ func buildModel(c *fileContents, lim Limits) (*Model, error) {
 	if len(c.Classes) < 2 {
 		return nil, malformed("header.classes", "%d classes; a model has at least 2", len(c.Classes))
 	}
+	if c.Version == FormatVersionInt8 {
+		return loadInt8(p, c, used)
+	}
 	for _, name := range []string{"guard.keep", "guard.lo", "guard.hi"} {
 		if c.tensor(name) != nil {
 			used[name] = true
@@ -269,7 +276,7 @@ func buildModel(c *fileContents, lim Limits) (*Model, error) {
 		switch {
 		case used[t.Name]:
 		case t.DType != Float32:
-			return nil, malformed("tensor "+t.Name, "dtype %s; this version stores float32 only", t.DType)
+			return nil, malformed("tensor "+t.Name, "dtype %s; a version-%d file stores float32 only (int8 tensors need version %d)", t.DType, c.Version, FormatVersionInt8)
 		case strings.HasPrefix(t.Name, headTensorPrefix):
 			headTs = append(headTs, nt)
 		case strings.HasPrefix(t.Name, tmplTensorPrefix):

@@ -29,6 +29,7 @@ func init() {
 			data := fs.String("data", "mnist", "training data: `mnist`, fashion, a folder of IDX files named like MNIST's, or a folder with one subfolder of images per class")
 			labels := fs.Int("labels", 0, "use only this many labelled images per class (seeded; 0 = all); the unsupervised stages still see every training image without its label")
 			preset := fs.String("preset", "auto", "pipeline preset: default, digits, garments, or auto (digits for --data mnist, garments for fashion, default otherwise); ignored with --config")
+			int8 := fs.Bool("int8", false, "save the template layer and head quantised to int8, calibrated on 1000 training images (a smaller model, integer arithmetic after the front end)")
 			mirror := fs.Bool("mirror", false, "also train on mirror images and average each prediction over the image and its mirror image (sets the config's mirror; for classes that look the same mirrored, such as garments, not digits)")
 			g.addSeed(fs)
 			g.addWorkers(fs)
@@ -46,7 +47,7 @@ func init() {
 				if _, err := pipeline.Preset(p); err != nil {
 					return usagef("--preset %q; want auto, %s", *preset, strings.Join(pipeline.PresetNames(), ", "))
 				}
-				return runTrain(g, *data, *labels, p, *mirror)
+				return runTrain(g, *data, *labels, p, *mirror, *int8)
 			}
 		},
 	})
@@ -63,7 +64,7 @@ func autoPreset(data string) string {
 	return "default"
 }
 
-func runTrain(g *globals, data string, perClass int, preset string, mirror bool) error {
+func runTrain(g *globals, data string, perClass int, preset string, mirror, int8 bool) error {
 	var cfg pipeline.Config
 	var err error
 	if g.config != "" {
@@ -101,6 +102,11 @@ func runTrain(g *globals, data string, perClass int, preset string, mirror bool)
 	m, rep, train, err := eval.FitLabelled(cfg, train, perClass, g.seed, g.workers, jobMonitor{g})
 	if err != nil {
 		return err
+	}
+	if int8 {
+		if m, err = m.Quantize(train, pipeline.QuantizeOptions{Workers: g.workers}); err != nil {
+			return err
+		}
 	}
 	if err := safefile.Write(g.out, m.Save); err != nil {
 		return err

@@ -64,21 +64,37 @@ func TestCLITrainErrors(t *testing.T) {
 // stripes and blobs look the same mirrored, so mirror averaging must not
 // cost accuracy; same 0.9 floor as TestCLITrainFolder).
 func TestCLITrainMirror(t *testing.T) {
+	if m := trainFixture(t, "--mirror"); !m.Config().Mirror {
+		t.Fatal("train --mirror wrote a model without Config.Mirror")
+	}
+}
+
+// TestCLITrainInt8: --int8 writes an int8 model (format version 3) that
+// loads, is an int8 model, and separates the fixture's classes (same 0.9
+// floor as TestCLITrainFolder).
+func TestCLITrainInt8(t *testing.T) {
+	if m := trainFixture(t, "--int8"); !m.Int8() {
+		t.Fatal("train --int8 wrote a float model")
+	}
+}
+
+// trainFixture trains on the fixture's folder with the extra flag, loads
+// the model and checks that it scores at least 0.9 on the held-out shapes.
+func trainFixture(t *testing.T, flag string) *pipeline.Model {
+	t.Helper()
 	cliFixture(t)
-	out := filepath.Join(t.TempDir(), "shapes-mirror.striate")
-	mustRun(t, 0, "train", "--data", filepath.Join(cliDir, "train"), "--mirror", "--out", out, "--workers", "2", "--quiet", "--seed", "3")
+	out := filepath.Join(t.TempDir(), "shapes"+flag+".striate")
+	mustRun(t, 0, "train", "--data", filepath.Join(cliDir, "train"), flag, "--out", out, "--workers", "2", "--quiet", "--seed", "3")
 	m, err := pipeline.LoadFile(out)
 	if err != nil {
-		t.Fatalf("the trained model does not load: %v", err)
-	}
-	if !m.Config().Mirror {
-		t.Fatal("train --mirror wrote a model without Config.Mirror")
+		t.Fatalf("train %s: the model does not load: %v", flag, err)
 	}
 	acc, err := pipeline.Accuracy(m, cliTestSet, nil, 2, nil)
 	if err != nil {
 		t.Fatal(err)
 	}
 	if acc < 0.9 {
-		t.Errorf("accuracy %.3f on the held-out shapes, want ≥ 0.9", acc)
+		t.Errorf("train %s: accuracy %.3f on the held-out shapes, want ≥ 0.9", flag, acc)
 	}
+	return m
 }

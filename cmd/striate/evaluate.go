@@ -66,14 +66,14 @@ var _ eval.Predictor = (*pipeline.Model)(nil)
 const dataFlagHelp = "test data `spec`: " + datasets.SpecHelp
 
 // loadSpec loads the data named by spec at h×w (datasets.Open); the files an
-// image folder leaves out are listed on warn. A malformed spec is a usage
-// error.
+// image folder leaves out and its empty class folders are listed on warn. A
+// malformed spec is a usage error.
 func loadSpec(spec string, h, w int, warn io.Writer) (*datasets.Set, error) {
 	if spec == "" {
 		return nil, usagef("--data is required: %s", datasets.SpecHelp)
 	}
 	s, rep, err := datasets.Open(spec, datasets.OpenConfig{H: h, W: w})
-	if rep != nil && len(rep.Skipped) > 0 {
+	if rep != nil && rep.HasNotes() {
 		fmt.Fprintln(warn, rep.String())
 	}
 	var se *datasets.SpecError

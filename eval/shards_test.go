@@ -2,6 +2,7 @@ package eval
 
 import (
 	"bytes"
+	"fmt"
 	"os"
 	"path/filepath"
 	"strconv"
@@ -37,6 +38,23 @@ func writeShards(t *testing.T, dir string, order []int, n int, flat []float32, c
 	}
 }
 
+// sameAsWhole writes the merged arrays m and checks that the files are byte
+// for byte those of the unsharded run in whole.
+func sameAsWhole(t *testing.T, what, whole string, m *Merged) {
+	t.Helper()
+	merged := t.TempDir()
+	if err := WriteArrays(merged, "features", "", m.Flat, m.Meta.Cols, m.Labels); err != nil {
+		t.Fatal(err)
+	}
+	for _, f := range []string{"features.npy", "labels.npy"} {
+		a, _ := os.ReadFile(filepath.Join(whole, f))
+		b, _ := os.ReadFile(filepath.Join(merged, f))
+		if len(a) == 0 || !bytes.Equal(a, b) {
+			t.Errorf("%s: merged %s (%d bytes) differs from the single run's (%d bytes)", what, f, len(b), len(a))
+		}
+	}
+}
+
 // TestMergeEqualsSingleRun: for several shard counts (including more shards
 // than images, so some are empty) and any writing order, the merged arrays
 // written out are byte for byte the files of one unsharded run.
@@ -61,17 +79,7 @@ func TestMergeEqualsSingleRun(t *testing.T) {
 		if m.Shards != c.n || m.Meta.Shards != 1 || m.Meta.Lo != 0 || m.Meta.Hi != c.rows || len(m.Rows()) != c.rows {
 			t.Errorf("merged meta %+v of %d shards", m.Meta, m.Shards)
 		}
-		merged := t.TempDir()
-		if err := WriteArrays(merged, "features", "", m.Flat, m.Meta.Cols, m.Labels); err != nil {
-			t.Fatal(err)
-		}
-		for _, f := range []string{"features.npy", "labels.npy"} {
-			a, _ := os.ReadFile(filepath.Join(whole, f))
-			b, _ := os.ReadFile(filepath.Join(merged, f))
-			if len(a) == 0 || !bytes.Equal(a, b) {
-				t.Errorf("%d rows in %d shards: merged %s (%d bytes) differs from the single run's (%d bytes)", c.rows, c.n, f, len(b), len(a))
-			}
-		}
+		sameAsWhole(t, fmt.Sprintf("%d rows in %d shards", c.rows, c.n), whole, m)
 	}
 }
 
@@ -246,16 +254,6 @@ func TestMergeOfEnvironmentShards(t *testing.T) {
 		if err != nil {
 			t.Fatalf("%s: %v", name, err)
 		}
-		merged := t.TempDir()
-		if err := WriteArrays(merged, "features", "", m.Flat, m.Meta.Cols, m.Labels); err != nil {
-			t.Fatal(err)
-		}
-		for _, f := range []string{"features.npy", "labels.npy"} {
-			a, _ := os.ReadFile(filepath.Join(whole, f))
-			b, _ := os.ReadFile(filepath.Join(merged, f))
-			if len(a) == 0 || !bytes.Equal(a, b) {
-				t.Errorf("%s: merged %s differs from the single run's", name, f)
-			}
-		}
+		sameAsWhole(t, name, whole, m)
 	}
 }

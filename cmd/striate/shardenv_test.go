@@ -61,19 +61,7 @@ func TestCLIShardsFromEnvironment(t *testing.T) {
 			runWithEnv(t, 0, env, c.cmd, "--model", cliModelA, "--data", cliTest, "--out", shards, "--shard", c.shard, "--quiet")
 		}
 		runWithEnv(t, 0, nil, c.cmd, "--merge", "--out", shards, "--quiet")
-		for _, f := range []string{c.kind + ".npy", "labels.npy"} {
-			a, err := os.ReadFile(filepath.Join(whole, f))
-			if err != nil {
-				t.Fatal(err)
-			}
-			b, err := os.ReadFile(filepath.Join(shards, f))
-			if err != nil {
-				t.Fatal(err)
-			}
-			if !bytes.Equal(a, b) {
-				t.Errorf("%s: %s merged from shards chosen by the environment differs from the unsharded file", c.cmd, f)
-			}
-		}
+		sameFiles(t, c.cmd+" shards chosen by the environment", whole, shards, c.kind+".npy", "labels.npy")
 	}
 	r := runWithEnv(t, 2, nil, "extract", "--model", cliModelA, "--data", cliTest, "--out", tmp, "--shard", "auto")
 	if !strings.Contains(r.stderr, "neither SLURM_ARRAY_TASK_ID") {
@@ -82,5 +70,24 @@ func TestCLIShardsFromEnvironment(t *testing.T) {
 	r = runWithEnv(t, 2, []string{"JOB_COMPLETION_INDEX=0"}, "extract", "--model", cliModelA, "--data", cliTest, "--out", tmp, "--shard", "auto")
 	if !strings.Contains(r.stderr, "--shard auto/N") {
 		t.Errorf("--shard auto in an indexed Job without the count said:\n%s", r.stderr)
+	}
+}
+
+// sameFiles checks that the files names in folder got are byte for byte
+// those in folder want.
+func sameFiles(t *testing.T, what, want, got string, names ...string) {
+	t.Helper()
+	for _, f := range names {
+		a, err := os.ReadFile(filepath.Join(want, f))
+		if err != nil {
+			t.Fatal(err)
+		}
+		b, err := os.ReadFile(filepath.Join(got, f))
+		if err != nil {
+			t.Fatal(err)
+		}
+		if !bytes.Equal(a, b) {
+			t.Errorf("%s: merged %s differs from the unsharded file", what, f)
+		}
 	}
 }

@@ -112,11 +112,16 @@ func LoadFolder(root string, cfg FolderConfig) (*Set, *FolderReport, error) {
 	}
 	defer leave()
 	for _, e := range entries {
-		if isDirEntry(filepath.Join(root, e.Name()), e) {
+		p := filepath.Join(root, e.Name())
+		switch _, err := os.Stat(p); {
+		case isDirEntry(p, e):
 			rep.Classes = append(rep.Classes, e.Name())
-		} else {
+		case err != nil:
 			rep.Files++
-			rep.Skipped = append(rep.Skipped, Skipped{filepath.Join(root, e.Name()), "not inside a class folder"})
+			rep.Skipped = append(rep.Skipped, Skipped{p, "broken symbolic link: " + err.Error()})
+		default:
+			rep.Files++
+			rep.Skipped = append(rep.Skipped, Skipped{p, "not inside a class folder"})
 		}
 	}
 	slices.Sort(rep.Classes)

@@ -23,7 +23,7 @@ func symlink(t *testing.T, target, link string) {
 // is a plain folder holding a link to an image elsewhere and a broken link;
 // shirt is a link to a folder elsewhere that holds a sub-folder, a link
 // back to itself (a loop) and a second link to coat; self is a link to the
-// root (a loop at the top); bag is an empty folder.
+// root (a loop at the top); hat is a broken link; bag is an empty folder.
 func linkedTree(t *testing.T) (root, elsewhere string) {
 	base := t.TempDir()
 	root, elsewhere = filepath.Join(base, "depot"), filepath.Join(base, "elsewhere")
@@ -39,6 +39,7 @@ func linkedTree(t *testing.T) (root, elsewhere string) {
 	symlink(t, "..", filepath.Join(elsewhere, "shirts", "sub", "up"))
 	symlink(t, filepath.Join(root, "coat"), filepath.Join(elsewhere, "shirts", "zz-coat"))
 	symlink(t, ".", filepath.Join(root, "self"))
+	symlink(t, filepath.Join(base, "gone"), filepath.Join(root, "hat"))
 	return root, elsewhere
 }
 
@@ -70,8 +71,8 @@ func TestLoadFolderFollowsLinks(t *testing.T) {
 			t.Errorf("%s: reason %q; want it to say %q\n%s", p, reasons[p], frag, rep)
 		}
 	}
-	if len(rep.Skipped) != 4 || !equalStrings(rep.Empty, []string{filepath.Join(root, "bag"), filepath.Join(root, "self")}) {
-		t.Errorf("skipped %d, empty %v; want 4 and bag, self\n%s", len(rep.Skipped), rep.Empty, rep)
+	if len(rep.Skipped) != 5 || !equalStrings(rep.Empty, []string{filepath.Join(root, "bag"), filepath.Join(root, "self")}) {
+		t.Errorf("skipped %d, empty %v; want 5 and bag, self\n%s", len(rep.Skipped), rep.Empty, rep)
 	}
 }
 

@@ -111,23 +111,23 @@ func ResolveShard(s string, lookup func(string) (string, bool)) (i, n int, err e
 	_, k8s := lookup(EnvK8sIndex)
 	switch {
 	case slurm && k8s:
-		return 0, 0, fmt.Errorf("eval: --shard %s: both %s (Slurm) and %s (Kubernetes) are set; unset the one that does not belong to this job, or give the shard as i/n", s, EnvSlurmTaskID, EnvK8sIndex)
+		return 0, 0, fmt.Errorf("eval: shard %q: both %s (Slurm) and %s (Kubernetes) are set; unset the one that does not belong to this job, or give the shard as i/n", s, EnvSlurmTaskID, EnvK8sIndex)
 	case slurm:
 		return slurmShard(s, given, lookup)
 	case k8s:
 		if given == 0 {
-			return 0, 0, fmt.Errorf("eval: --shard auto: %s is set (a Kubernetes indexed Job) but the pod is not told the shard count; use --shard auto/N with N the Job's completions", EnvK8sIndex)
+			return 0, 0, fmt.Errorf("eval: shard \"auto\": %s is set (a Kubernetes indexed Job) but the pod is not told the shard count; use --shard auto/N with N the Job's completions", EnvK8sIndex)
 		}
 		i, err := envInt(lookup, EnvK8sIndex)
 		if err != nil {
 			return 0, 0, err
 		}
 		if i < 0 || i >= given {
-			return 0, 0, fmt.Errorf("eval: --shard %s: %s=%d is outside 0 to %d; the count after auto/ must be the Job's completions", s, EnvK8sIndex, i, given-1)
+			return 0, 0, fmt.Errorf("eval: shard %q: %s=%d is outside 0 to %d; the count after auto/ must be the Job's completions", s, EnvK8sIndex, i, given-1)
 		}
 		return i, given, nil
 	}
-	return 0, 0, fmt.Errorf("eval: --shard %s: neither %s (a Slurm job array, sbatch --array) nor %s (a Kubernetes Job with completionMode: Indexed) is set; run inside an array task, or give the shard as i/n", s, EnvSlurmTaskID, EnvK8sIndex)
+	return 0, 0, fmt.Errorf("eval: shard %q: neither %s (a Slurm job array, sbatch --array) nor %s (a Kubernetes Job with completionMode: Indexed) is set; run inside an array task, or give the shard as i/n", s, EnvSlurmTaskID, EnvK8sIndex)
 }
 
 // slurmShard numbers a Slurm array task (see ResolveShard).
@@ -151,7 +151,7 @@ func slurmShard(s string, given int, lookup func(string) (string, bool)) (i, n i
 		}
 	}
 	if step < 1 || lo < 0 || hi < lo || id < lo || id > hi {
-		return 0, 0, fmt.Errorf("eval: --shard %s: Slurm array task %d with MIN %d, MAX %d, STEP %d is inconsistent; want MIN ≤ ID ≤ MAX and STEP ≥ 1", s, id, lo, hi, step)
+		return 0, 0, fmt.Errorf("eval: shard %q: Slurm array task %d with MIN %d, MAX %d, STEP %d is inconsistent; want MIN ≤ ID ≤ MAX and STEP ≥ 1", s, id, lo, hi, step)
 	}
 	span := (hi-lo)/step + 1
 	n = span
@@ -161,10 +161,10 @@ func slurmShard(s string, given int, lookup func(string) (string, bool)) (i, n i
 		}
 	}
 	if (id-lo)%step != 0 || n != span {
-		return 0, 0, fmt.Errorf("eval: --shard %s: Slurm array tasks %d-%d step %d with %d tasks (task %d) are not one even range, so tasks cannot be numbered as shards; submit with --array=0-%d (or any MIN-MAX[:STEP] range), or give --shard i/n", s, lo, hi, step, n, id, n-1)
+		return 0, 0, fmt.Errorf("eval: shard %q: Slurm array tasks %d-%d step %d with %d tasks (task %d) are not one even range, so tasks cannot be numbered as shards; submit with --array=0-%d (or any MIN-MAX[:STEP] range), or give --shard i/n", s, lo, hi, step, n, id, n-1)
 	}
 	if given != 0 && given != n {
-		return 0, 0, fmt.Errorf("eval: --shard %s: the Slurm array has %d tasks, not %d; drop the count (--shard auto) or submit --array with %d tasks", s, n, given, given)
+		return 0, 0, fmt.Errorf("eval: shard %q: the Slurm array has %d tasks, not %d; drop the count (--shard auto) or submit --array with %d tasks", s, n, given, given)
 	}
 	return (id - lo) / step, n, nil
 }
@@ -173,11 +173,11 @@ func slurmShard(s string, given int, lookup func(string) (string, bool)) (i, n i
 func envInt(lookup func(string) (string, bool), name string) (int, error) {
 	v, ok := lookup(name)
 	if !ok {
-		return 0, fmt.Errorf("eval: --shard auto: %s is not set; the scheduler sets it in every array task (is this running inside one?)", name)
+		return 0, fmt.Errorf("eval: shard \"auto\": %s is not set; the scheduler sets it in every array task (is this running inside one?)", name)
 	}
 	x, err := strconv.Atoi(strings.TrimSpace(v))
 	if err != nil || x < 0 {
-		return 0, fmt.Errorf("eval: --shard auto: %s=%q; want a whole number ≥ 0", name, v)
+		return 0, fmt.Errorf("eval: shard \"auto\": %s=%q; want a whole number ≥ 0", name, v)
 	}
 	return x, nil
 }

@@ -9,7 +9,6 @@ import (
 	_ "image/jpeg" //
 	_ "image/png"  //
 	"io"
-	"io/fs"
 	"os"
 	"path/filepath"
 	"slices"
@@ -138,37 +137,37 @@ func decodeErr(file string, err error) error {
 
 // ListImages expands paths into image files: a file is taken as given
 // (whatever its extension), a folder is walked recursively for files whose
-// extension is in FolderExtensions, which are returned in sorted order. A
-// folder without any image is an error naming it.
-func ListImages(paths ...string) ([]string, error) {
-	var out []string
+// extension is in FolderExtensions, which are returned in sorted order.
+// Symbolic links are followed, with the loop guard of LoadFolder: a link
+// back to a folder that holds it, or a second path to a folder already
+// read, is returned in skipped with the reason (its images are listed once),
+// as is a device, socket or pipe. A folder without any image, or one that
+// cannot be read, is an error naming it.
+func ListImages(paths ...string) (files []string, skipped []Skipped, err error) {
 	for _, a := range paths {
 		st, err := os.Stat(a)
 		if err != nil {
-			return nil, fmt.Errorf("datasets: %w", err)
+			return nil, nil, fmt.Errorf("datasets: %w", err)
 		}
 		if !st.IsDir() {
-			out = append(out, a)
+			files = append(files, a)
 			continue
 		}
 		var found []string
-		err = filepath.WalkDir(a, func(p string, d fs.DirEntry, err error) error {
-			if err != nil {
-				return err
-			}
-			if !d.IsDir() && slices.Contains(FolderExtensions, strings.ToLower(filepath.Ext(p))) {
+		tree := newWalker(func(p string) {
+			if slices.Contains(FolderExtensions, strings.ToLower(filepath.Ext(p))) {
 				found = append(found, p)
 			}
-			return nil
-		})
-		if err != nil {
-			return nil, fmt.Errorf("datasets: %w", err)
+		}, func(p, reason string) { skipped = append(skipped, Skipped{p, reason}) },
+			func(p string, err error) error { return fmt.Errorf("datasets: folder %s cannot be read: %w", p, err) })
+		if err := tree.dir(a); err != nil {
+			return nil, nil, err
 		}
 		if len(found) == 0 {
-			return nil, fmt.Errorf("datasets: folder %s holds no images (%s)", a, strings.Join(FolderExtensions, " "))
+			return nil, nil, fmt.Errorf("datasets: folder %s holds no images (%s)", a, strings.Join(FolderExtensions, " "))
 		}
 		slices.Sort(found)
-		out = append(out, found...)
+		files = append(files, found...)
 	}
-	return out, nil
+	return files, skipped, nil
 }

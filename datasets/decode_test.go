@@ -157,12 +157,12 @@ func TestListImages(t *testing.T) {
 	for _, f := range []string{"bin/b.png", "bin/a.JPG", "bin/sub/c.webp", "bin/notes.txt", "loose.dat"} {
 		os.WriteFile(filepath.Join(dir, f), nil, 0o644)
 	}
-	got, err := ListImages(filepath.Join(dir, "loose.dat"), filepath.Join(dir, "bin"))
+	got, _, err := ListImages(filepath.Join(dir, "loose.dat"), filepath.Join(dir, "bin"))
 	want := []string{filepath.Join(dir, "loose.dat"), filepath.Join(dir, "bin", "a.JPG"), filepath.Join(dir, "bin", "b.png"), filepath.Join(dir, "bin", "sub", "c.webp")}
 	if err != nil || !slices.Equal(got, want) {
 		t.Errorf("ListImages = %v, %v; want %v", got, err, want)
 	}
-	if _, err := ListImages(filepath.Join(dir, "bin", "sub", "..", "..", "bin", "sub", "c.webp"), t.TempDir()); err == nil {
+	if _, _, err := ListImages(filepath.Join(dir, "bin", "sub", "..", "..", "bin", "sub", "c.webp"), t.TempDir()); err == nil {
 		t.Error("a folder without images was accepted")
 	}
 }

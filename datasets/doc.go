@@ -68,7 +68,11 @@
 // decoded, converted by ToGray and stored as round(255·luma). Every file not
 // loaded (unknown extension, undecodable, empty, declared larger than
 // MaxImagePixels, smaller than the target size unless AllowUpscale) is
-// listed in the FolderReport with its reason; nothing is dropped silently.
+// listed in the FolderReport with its reason, and a class folder that gave
+// no image in its Empty list; nothing is dropped silently. LoadFolder and
+// ListImages follow symbolic links (to class folders, folders and files);
+// each folder is known by its real path, so a link that loops back or a
+// second path to a folder is reported and the folder read once.
 //
 // DecodeImage is the one image decoder (PNG, JPEG, GIF by the standard
 // library; BMP, TIFF, WebP by golang.org/x/image), used by LoadFolder and by

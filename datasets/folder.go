@@ -4,7 +4,6 @@ import (
 	"errors"
 	"fmt"
 	"image"
-	"io/fs"
 	"math"
 	"os"
 	"path/filepath"
@@ -32,21 +31,34 @@ type Skipped struct {
 }
 
 // FolderReport accounts for every file under the root: each is either loaded
-// or listed in Skipped.
+// or listed in Skipped. Skipped also lists the folders not read: links that
+// loop back, second links to a folder already read, unreadable folders.
 type FolderReport struct {
 	Root    string
 	Classes []string // sorted class folder names, the label order
 	Files   int      // files seen under the root
 	Loaded  int
 	Skipped []Skipped
+	// Empty lists the class folders from which no image was loaded. Their
+	// classes keep their labels (so a test folder still carries a model's
+	// classes), but a model cannot learn a class without images.
+	Empty []string
 }
 
-// String summarises the report: counts, then one line per skipped file.
+// HasNotes reports whether the report says more than its counts: a file or
+// folder was left out, or a class folder gave no image.
+func (r *FolderReport) HasNotes() bool { return len(r.Skipped) > 0 || len(r.Empty) > 0 }
+
+// String summarises the report: counts, then one line per skipped file and
+// per empty class folder.
 func (r *FolderReport) String() string {
 	var b strings.Builder
 	fmt.Fprintf(&b, "%s: %d classes, %d files, %d loaded, %d skipped", r.Root, len(r.Classes), r.Files, r.Loaded, len(r.Skipped))
 	for _, s := range r.Skipped {
 		fmt.Fprintf(&b, "\n  %s: %s", s.Path, s.Reason)
+	}
+	for _, e := range r.Empty {
+		fmt.Fprintf(&b, "\n  %s: class folder without any loaded image; add images of the class or remove the folder", e)
 	}
 	return b.String()
 }
@@ -60,9 +72,14 @@ func (r *FolderReport) String() string {
 // ToGray, then stored as bytes (round(255·luma)). Images are in sorted path
 // order within each class.
 //
+// Symbolic links are followed, to class folders, to folders inside them and
+// to files; a link that loops back to a folder holding it, or a second link
+// to a folder already read, is listed in the report and not read again.
+//
 // Nothing is dropped silently: every file that is not loaded (other
 // extensions, undecodable, undersized, files directly under root) is listed
-// in the report with its reason. The error is non-nil when root cannot be
+// in the report with its reason, and a class folder without any loaded
+// image in the report's Empty. The error is non-nil when root cannot be
 // read, holds no class folder, or no image could be loaded; the report is
 // returned even then when it was started.
 func LoadFolder(root string, cfg FolderConfig) (*Set, *FolderReport, error) {
@@ -82,12 +99,29 @@ func LoadFolder(root string, cfg FolderConfig) (*Set, *FolderReport, error) {
 		return nil, nil, fmt.Errorf("datasets: image folder: %w", err)
 	}
 	rep := &FolderReport{Root: root}
+	var paths []string
+	tree := newWalker(func(p string) { paths = append(paths, p) },
+		func(p, reason string) { rep.Skipped = append(rep.Skipped, Skipped{p, reason}) },
+		func(p string, err error) error {
+			rep.Skipped = append(rep.Skipped, Skipped{p, "cannot read: " + err.Error()})
+			return nil
+		})
+	leave, err := tree.enter(root)
+	if err != nil {
+		return nil, nil, fmt.Errorf("datasets: image folder: %w", err)
+	}
+	defer leave()
 	for _, e := range entries {
-		if e.IsDir() {
+		p := filepath.Join(root, e.Name())
+		switch _, err := os.Stat(p); {
+		case isDirEntry(p, e):
 			rep.Classes = append(rep.Classes, e.Name())
-		} else {
+		case err != nil:
 			rep.Files++
-			rep.Skipped = append(rep.Skipped, Skipped{filepath.Join(root, e.Name()), "not inside a class folder"})
+			rep.Skipped = append(rep.Skipped, Skipped{p, "broken symbolic link: " + err.Error()})
+		default:
+			rep.Files++
+			rep.Skipped = append(rep.Skipped, Skipped{p, "not inside a class folder"})
 		}
 	}
 	slices.Sort(rep.Classes)
@@ -97,23 +131,9 @@ func LoadFolder(root string, cfg FolderConfig) (*Set, *FolderReport, error) {
 	set := &Set{Name: name, H: h, W: w, Classes: append([]string(nil), rep.Classes...), Source: root}
 	var buf []float32
 	for label, class := range rep.Classes {
-		var paths []string
-		err := filepath.WalkDir(filepath.Join(root, class), func(p string, d fs.DirEntry, err error) error {
-			if err != nil {
-				rep.Skipped = append(rep.Skipped, Skipped{p, "cannot read: " + err.Error()})
-				if d != nil && d.IsDir() {
-					return fs.SkipDir
-				}
-				return nil
-			}
-			if !d.IsDir() {
-				paths = append(paths, p)
-			}
-			return nil
-		})
-		if err != nil {
-			return nil, rep, fmt.Errorf("datasets: image folder: %w", err)
-		}
+		paths = paths[:0]
+		_ = tree.dir(filepath.Join(root, class)) // fail never stops the walk
+		before := set.N
 		slices.Sort(paths)
 		for _, p := range paths {
 			rep.Files++
@@ -137,6 +157,9 @@ func LoadFolder(root string, cfg FolderConfig) (*Set, *FolderReport, error) {
 			set.Labels = append(set.Labels, label)
 			set.N++
 			rep.Loaded++
+		}
+		if set.N == before {
+			rep.Empty = append(rep.Empty, filepath.Join(root, class))
 		}
 	}
 	if set.N == 0 {

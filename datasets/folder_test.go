@@ -85,6 +85,10 @@ func TestLoadFolder(t *testing.T) {
 			t.Errorf("%s: reason %q, want it to mention %q", name, reasons[name], frag)
 		}
 	}
+	if !equalStrings(rep.Empty, []string{filepath.Join(root, "empty")}) || !rep.HasNotes() ||
+		!strings.Contains(rep.String(), filepath.Join(root, "empty")+": class folder without any loaded image") {
+		t.Errorf("empty class folder not reported: %v\n%s", rep.Empty, rep)
+	}
 	if !strings.Contains(rep.String(), "4 skipped") || !strings.Contains(rep.String(), "small.png") {
 		t.Errorf("report text:\n%s", rep)
 	}

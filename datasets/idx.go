@@ -391,7 +391,7 @@ func WriteIDXFile(path string, x *IDX) (err error) {
 	if err := x.check(); err != nil {
 		return err
 	}
-	f, err := os.Create(path)
+	f, err := os.OpenFile(path, os.O_WRONLY|os.O_CREATE|os.O_TRUNC, 0o644) // the mode of every file striate writes
 	if err != nil {
 		return fmt.Errorf("datasets: create IDX file: %w", err)
 	}

@@ -16,13 +16,16 @@
 // on Fashion-MNIST and MNIST, with progress and result lines through a
 // JobMonitor) are the only parts that import package pipeline.
 //
-// # Shards (ParseShard, ShardRange, WriteShard, MergeShards)
+// # Shards (ParseShard, ResolveShard, ShardRange, WriteShard, MergeShards)
 //
 // Long extraction or prediction runs split into n contiguous blocks
 // [⌊i·N/n⌋, ⌊(i+1)·N/n⌋) run as independent jobs; each writes NPY arrays and
 // a ShardMeta, and MergeShards checks the set is complete and from one model
 // file and data set before concatenating, so merged files are byte for byte
 // those of one run. Every file is written atomically (internal/safefile).
+// ResolveShard also takes "auto" (or "auto/n"): the shard of a Slurm job
+// array task (SLURM_ARRAY_TASK_ID with its COUNT, or MIN/MAX/STEP) or of a
+// Kubernetes indexed Job's pod (JOB_COMPLETION_INDEX, the count given as n).
 //
 // # Scores (Score, Metrics)
 //

@@ -14,6 +14,7 @@ import (
 	"time"
 
 	"github.com/striate/striate/datasets"
+	"github.com/striate/striate/internal/safefile"
 	"github.com/striate/striate/pipeline"
 )
 
@@ -265,7 +266,7 @@ func ExtractShard(dir, modelPath, spec string, m *pipeline.Model, set *datasets.
 	if sharded {
 		return meta, writeShardDir(dir, meta, feats, set.Labels[lo:hi])
 	}
-	if err := os.MkdirAll(dir, 0o755); err != nil {
+	if err := os.MkdirAll(dir, safefile.DirPerm); err != nil {
 		return ShardMeta{}, err
 	}
 	if err := WriteArrays(dir, "features", "", feats, d, set.Labels); err != nil {
@@ -287,7 +288,7 @@ func shardMeta(kind, modelPath, spec string, set *datasets.Set, i, n, lo, hi, co
 
 // writeShardDir creates dir and writes one shard into it.
 func writeShardDir(dir string, meta ShardMeta, flat []float32, labels []int) error {
-	if err := os.MkdirAll(dir, 0o755); err != nil {
+	if err := os.MkdirAll(dir, safefile.DirPerm); err != nil {
 		return err
 	}
 	return WriteShard(dir, meta, flat, labels)

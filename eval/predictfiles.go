@@ -1,6 +1,9 @@
 package eval
 
 import (
+	"fmt"
+	"os"
+	"path/filepath"
 	"sort"
 
 	"github.com/striate/striate/datasets"
@@ -70,8 +73,13 @@ func PredictFiles(m *pipeline.Model, files []string, run RunOptions, skip func(e
 // datasets.PerClass with seed while the unsupervised stages still see every
 // image of train without its label (pipeline.FitOptions.Unlabeled).
 // Progress goes to mon. It returns the model, the fit report and the set the
-// head was trained on.
+// head was trained on. A class of train without any image (an empty class
+// folder) is an error naming it, before any work: a model cannot learn a
+// class it has never seen.
 func FitLabelled(cfg pipeline.Config, train *datasets.Set, perClass int, seed uint64, workers int, mon JobMonitor) (*pipeline.Model, pipeline.FitReport, *datasets.Set, error) {
+	if err := checkEveryClass(train); err != nil {
+		return nil, pipeline.FitReport{}, train, err
+	}
 	opts := pipeline.FitOptions{Workers: workers}
 	if perClass > 0 {
 		opts.Unlabeled = train
@@ -82,4 +90,24 @@ func FitLabelled(cfg pipeline.Config, train *datasets.Set, perClass int, seed ui
 	m, rep, err := pipeline.FitReported(cfg, train, opts)
 	bar.Done()
 	return m, rep, train, err
+}
+
+// checkEveryClass returns an error naming the first class of the training
+// set s that has no image, with its folder when s was read from a folder of
+// class folders (datasets.LoadFolder keeps an empty class folder's class so
+// that a test folder still matches a model; for training it is a mistake).
+func checkEveryClass(s *datasets.Set) error {
+	for c, k := range s.ClassCounts() {
+		if k > 0 {
+			continue
+		}
+		where := ""
+		if dir := filepath.Join(s.Source, s.Classes[c]); s.Source != "" {
+			if st, err := os.Stat(dir); err == nil && st.IsDir() {
+				where = " (its folder " + dir + " gave no image)"
+			}
+		}
+		return fmt.Errorf("eval: training data %s: class %q has no images%s; add images of the class or remove it", s.Name, s.Classes[c], where)
+	}
+	return nil
 }

@@ -117,7 +117,7 @@ func WriteReport(dir string, r *Report) ([]string, error) {
 		return nil, err
 	}
 	figDir := filepath.Join(dir, ReportFigures)
-	if err := os.MkdirAll(figDir, 0o755); err != nil {
+	if err := os.MkdirAll(figDir, safefile.DirPerm); err != nil {
 		return nil, fmt.Errorf("eval: report folder: %w", err)
 	}
 	var written []string

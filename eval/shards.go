@@ -56,6 +56,132 @@ func ParseShard(s string) (i, n int, err error) {
 	return i, n, nil
 }
 
+// Environment variables of the batch schedulers that ResolveShard reads.
+//
+// Slurm's sbatch sets, in every task of a job array (sbatch(1), OUTPUT
+// ENVIRONMENT VARIABLES; from memory): SLURM_ARRAY_TASK_ID, the task's
+// index; SLURM_ARRAY_TASK_COUNT, the number of tasks; SLURM_ARRAY_TASK_MIN
+// and SLURM_ARRAY_TASK_MAX, the lowest and highest index; and
+// SLURM_ARRAY_TASK_STEP, the step of a range such as --array=0-15:4.
+//
+// Kubernetes sets JOB_COMPLETION_INDEX, from 0 to completions−1, in each pod
+// of a Job with completionMode: Indexed (the Job documentation, "Completion
+// mode"; from memory). The pod is not told the Job's completions, so the
+// count is given on the command line: --shard auto/N.
+const (
+	EnvSlurmTaskID    = "SLURM_ARRAY_TASK_ID"
+	EnvSlurmTaskCount = "SLURM_ARRAY_TASK_COUNT"
+	EnvSlurmTaskMin   = "SLURM_ARRAY_TASK_MIN"
+	EnvSlurmTaskMax   = "SLURM_ARRAY_TASK_MAX"
+	EnvSlurmTaskStep  = "SLURM_ARRAY_TASK_STEP"
+	EnvK8sIndex       = "JOB_COMPLETION_INDEX"
+)
+
+// ResolveShard reads a --shard value: "i/n" as ParseShard does, or "auto"
+// or "auto/n", which take the shard from the environment of a batch
+// scheduler's array task, looked up with lookup (os.LookupEnv in a command):
+//
+//   - Slurm job array (SLURM_ARRAY_TASK_ID set): the tasks must be an even
+//     range MIN, MIN+STEP, ... up to MAX such as --array=0-7, --array=1-8
+//     or --array=0-28:4 (STEP 1 when unset), and shard i = (ID−MIN)/STEP of
+//     n = SLURM_ARRAY_TASK_COUNT, or ⌊(MAX−MIN)/STEP⌋+1 when COUNT is unset.
+//     An array given as a list (--array=1,4,9) cannot be numbered; it is
+//     refused when COUNT shows it (3 tasks, not 9), and otherwise its
+//     shards fail to merge ("found 3 of 9 shards"). With "auto/n", n must
+//     equal the array's count.
+//   - Kubernetes indexed Job (JOB_COMPLETION_INDEX set): i is the index and
+//     n must be given as "auto/n" (the Job's completions).
+//
+// A missing, malformed or inconsistent environment is an error naming the
+// variables and what they hold; so is an environment with both
+// schedulers' variables.
+func ResolveShard(s string, lookup func(string) (string, bool)) (i, n int, err error) {
+	rest, ok := strings.CutPrefix(s, "auto")
+	if !ok {
+		return ParseShard(s)
+	}
+	given := 0
+	if rest != "" {
+		c, ok := strings.CutPrefix(rest, "/")
+		if given, err = strconv.Atoi(c); !ok || err != nil || given < 1 {
+			return 0, 0, fmt.Errorf("eval: shard %q; want auto, auto/n with n ≥ 1 (the shard count) or i/n", s)
+		}
+	}
+	_, slurm := lookup(EnvSlurmTaskID)
+	_, k8s := lookup(EnvK8sIndex)
+	switch {
+	case slurm && k8s:
+		return 0, 0, fmt.Errorf("eval: shard %q: both %s (Slurm) and %s (Kubernetes) are set; unset the one that does not belong to this job, or give the shard as i/n", s, EnvSlurmTaskID, EnvK8sIndex)
+	case slurm:
+		return slurmShard(s, given, lookup)
+	case k8s:
+		if given == 0 {
+			return 0, 0, fmt.Errorf("eval: shard \"auto\": %s is set (a Kubernetes indexed Job) but the pod is not told the shard count; use --shard auto/N with N the Job's completions", EnvK8sIndex)
+		}
+		i, err := envInt(lookup, EnvK8sIndex)
+		if err != nil {
+			return 0, 0, err
+		}
+		if i < 0 || i >= given {
+			return 0, 0, fmt.Errorf("eval: shard %q: %s=%d is outside 0 to %d; the count after auto/ must be the Job's completions", s, EnvK8sIndex, i, given-1)
+		}
+		return i, given, nil
+	}
+	return 0, 0, fmt.Errorf("eval: shard %q: neither %s (a Slurm job array, sbatch --array) nor %s (a Kubernetes Job with completionMode: Indexed) is set; run inside an array task, or give the shard as i/n", s, EnvSlurmTaskID, EnvK8sIndex)
+}
+
+// slurmShard numbers a Slurm array task (see ResolveShard).
+func slurmShard(s string, given int, lookup func(string) (string, bool)) (i, n int, err error) {
+	id, err := envInt(lookup, EnvSlurmTaskID)
+	if err != nil {
+		return 0, 0, err
+	}
+	lo, err := envInt(lookup, EnvSlurmTaskMin)
+	if err != nil {
+		return 0, 0, err
+	}
+	hi, err := envInt(lookup, EnvSlurmTaskMax)
+	if err != nil {
+		return 0, 0, err
+	}
+	step := 1
+	if _, ok := lookup(EnvSlurmTaskStep); ok {
+		if step, err = envInt(lookup, EnvSlurmTaskStep); err != nil {
+			return 0, 0, err
+		}
+	}
+	if step < 1 || lo < 0 || hi < lo || id < lo || id > hi {
+		return 0, 0, fmt.Errorf("eval: shard %q: Slurm array task %d with MIN %d, MAX %d, STEP %d is inconsistent; want MIN ≤ ID ≤ MAX and STEP ≥ 1", s, id, lo, hi, step)
+	}
+	span := (hi-lo)/step + 1
+	n = span
+	if _, ok := lookup(EnvSlurmTaskCount); ok {
+		if n, err = envInt(lookup, EnvSlurmTaskCount); err != nil {
+			return 0, 0, err
+		}
+	}
+	if (id-lo)%step != 0 || n != span {
+		return 0, 0, fmt.Errorf("eval: shard %q: Slurm array tasks %d-%d step %d with %d tasks (task %d) are not one even range, so tasks cannot be numbered as shards; submit with --array=0-%d (or any MIN-MAX[:STEP] range), or give --shard i/n", s, lo, hi, step, n, id, n-1)
+	}
+	if given != 0 && given != n {
+		return 0, 0, fmt.Errorf("eval: shard %q: the Slurm array has %d tasks, not %d; drop the count (--shard auto) or submit --array with %d tasks", s, n, given, given)
+	}
+	return (id - lo) / step, n, nil
+}
+
+// envInt reads the non-negative integer environment variable name.
+func envInt(lookup func(string) (string, bool), name string) (int, error) {
+	v, ok := lookup(name)
+	if !ok {
+		return 0, fmt.Errorf("eval: shard \"auto\": %s is not set; the scheduler sets it in every array task (is this running inside one?)", name)
+	}
+	x, err := strconv.Atoi(strings.TrimSpace(v))
+	if err != nil || x < 0 {
+		return 0, fmt.Errorf("eval: shard \"auto\": %s=%q; want a whole number ≥ 0", name, v)
+	}
+	return x, nil
+}
+
 // ShardRange is the contiguous block [lo, hi) of total items that shard i
 // of n covers: lo = ⌊i·total/n⌋, hi = ⌊(i+1)·total/n⌋, so the n blocks tile
 // the items in order and differ in size by at most one.

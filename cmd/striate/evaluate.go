@@ -28,12 +28,13 @@ func init() {
 
   # split across 4 machines (job-array index 0..3), then merge:
   striate evaluate --model m.striate --data mnist --out shards --shard 2/4
+  striate evaluate --model m.striate --data mnist --out shards --shard auto   # in a Slurm array task (README: job arrays)
   striate evaluate --merge --out shards`,
 		setup: func(fs *flag.FlagSet, g *globals) func([]string) error {
 			var o evalOptions
 			fs.StringVar(&o.model, "model", "", "model `file` written by striate train")
 			fs.StringVar(&o.data, "data", "", dataFlagHelp)
-			fs.StringVar(&o.shard, "shard", "", "evaluate only shard `i/n` (i = 0..n-1) and write its predictions to --out")
+			fs.StringVar(&o.shard, "shard", "", "evaluate only shard `i/n` (i = 0..n-1; auto or auto/n in a Slurm array task or Kubernetes indexed Job) and write its predictions to --out")
 			fs.BoolVar(&o.merge, "merge", false, "merge the shards found in --out into predictions.npy, scores and a report")
 			fs.StringVar(&o.robust, "robust", "none", "robustness sweep `mode`: none, quick (3 levels per perturbation) or full (4-5 levels)")
 			fs.StringVar(&o.suite, "suite", "none", "development `suite` scored and printed (and reported with --out): none; dev (15 MNIST-C corruptions at severities 1-5 and the perturbation grid, 131 conditions); mnistc (the 15 corruptions at the published severity); grid (the perturbation grid)")
@@ -64,14 +65,14 @@ var _ eval.Predictor = (*pipeline.Model)(nil)
 const dataFlagHelp = "test data `spec`: " + datasets.SpecHelp
 
 // loadSpec loads the data named by spec at h×w (datasets.Open); the files an
-// image folder leaves out are listed on warn. A malformed spec is a usage
-// error.
+// image folder leaves out and its empty class folders are listed on warn. A
+// malformed spec is a usage error.
 func loadSpec(spec string, h, w int, warn io.Writer) (*datasets.Set, error) {
 	if spec == "" {
 		return nil, usagef("--data is required: %s", datasets.SpecHelp)
 	}
 	s, rep, err := datasets.Open(spec, datasets.OpenConfig{H: h, W: w})
-	if rep != nil && len(rep.Skipped) > 0 {
+	if rep != nil && rep.HasNotes() {
 		fmt.Fprintln(warn, rep.String())
 	}
 	var se *datasets.SpecError
@@ -96,9 +97,10 @@ func loadModel(path string) (*pipeline.Model, error) {
 	return m, nil
 }
 
-// parseShard reads --shard i/n (eval.ParseShard) as a usage error.
+// parseShard reads --shard i/n, auto or auto/n (eval.ResolveShard) as a
+// usage error.
 func parseShard(s string) (i, n int, err error) {
-	if i, n, err = eval.ParseShard(s); err != nil {
+	if i, n, err = eval.ResolveShard(s, os.LookupEnv); err != nil {
 		return 0, 0, usageError{"--shard: " + err.Error()}
 	}
 	return i, n, nil

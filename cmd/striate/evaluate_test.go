@@ -262,19 +262,7 @@ func TestCLIEvaluateShardsMerge(t *testing.T) {
 		t.Errorf("partial merge said: %s", r.stderr)
 	}
 	r = mustRun(t, 0, "evaluate", "--merge", "--out", shards)
-	for _, f := range []string{"predictions.npy", "labels.npy"} {
-		a, err := os.ReadFile(filepath.Join(whole, f))
-		if err != nil {
-			t.Fatal(err)
-		}
-		b, err := os.ReadFile(filepath.Join(shards, f))
-		if err != nil {
-			t.Fatal(err)
-		}
-		if !bytes.Equal(a, b) {
-			t.Errorf("%s merged from 3 shards differs from the unsharded file", f)
-		}
-	}
+	sameFiles(t, "3 shards", whole, shards, "predictions.npy", "labels.npy")
 	if !strings.Contains(r.stdout, "accuracy") {
 		t.Errorf("merge printed no scores:\n%s", r.stdout)
 	}
@@ -289,19 +277,7 @@ func TestCLIExtractShardsMerge(t *testing.T) {
 		mustRun(t, 0, "extract", "--model", cliModelA, "--data", cliTest, "--out", shards, "--shard", strconv.Itoa(i)+"/4", "--batch", "7")
 	}
 	mustRun(t, 0, "extract", "--merge", "--out", shards)
-	for _, f := range []string{"features.npy", "labels.npy"} {
-		a, err := os.ReadFile(filepath.Join(whole, f))
-		if err != nil {
-			t.Fatal(err)
-		}
-		b, err := os.ReadFile(filepath.Join(shards, f))
-		if err != nil {
-			t.Fatal(err)
-		}
-		if !bytes.Equal(a, b) {
-			t.Errorf("%s merged from 4 shards differs from the unsharded file", f)
-		}
-	}
+	sameFiles(t, "4 shards", whole, shards, "features.npy", "labels.npy")
 	// The file holds what the library computes.
 	m, err := pipeline.LoadFile(cliModelA)
 	if err != nil {

@@ -26,7 +26,7 @@ func init() {
 			var o extractOptions
 			fs.StringVar(&o.model, "model", "", "model `file` written by striate train")
 			fs.StringVar(&o.data, "data", "", dataFlagHelp)
-			fs.StringVar(&o.shard, "shard", "", "extract only shard `i/n` (i = 0..n-1)")
+			fs.StringVar(&o.shard, "shard", "", "extract only shard `i/n` (i = 0..n-1; auto or auto/n in a Slurm array task or Kubernetes indexed Job)")
 			fs.BoolVar(&o.merge, "merge", false, "merge the shards found in --out into features.npy and labels.npy")
 			fs.IntVar(&o.batch, "batch", 512, "images per extraction batch")
 			g.addWorkers(fs)

@@ -47,7 +47,7 @@ func init() {
 					*atoms, *size, *patches, *epochs = 64, 8, 5000, 2
 				}
 				if *forget < 0 {
-					return usagef("--forget %g; want 0 (the default schedule) or ρ > 0", *forget)
+					return usagef("--forget %g; want 0 (the default schedule, see -h) or ρ > 0", *forget)
 				}
 				if *atoms < 1 || *size < 3 || *patches < *atoms || *epochs < 1 || *batch < 1 {
 					return usagef("--atoms %d, --size %d, --patches %d, --epochs %d, --batch %d: want atoms ≥ 1, size ≥ 3, patches ≥ atoms, epochs ≥ 1, batch ≥ 1",
@@ -69,15 +69,15 @@ type learnArgs struct {
 func runLearn(g *globals, a learnArgs) error {
 	cfg := learn.PhotoBankConfig{PatchSize: a.size, Patches: a.patches, Whiten: a.whiten, ZCAEps: a.eps, F0: a.f0,
 		Dict: learn.DictConfig{Atoms: a.atoms, Lambda: a.lambda, BatchSize: a.batch, Epochs: a.epochs, Forget: a.forget}}
+	if err := os.MkdirAll(g.out, 0o755); err != nil { // before the long work
+		return err
+	}
 	start := time.Now()
 	pb, err := eval.LearnPhotoBank(cfg, g.seed, g.workers, jobMonitor{g})
 	if err != nil {
 		return err
 	}
 	fitTime := time.Since(start)
-	if err := os.MkdirAll(g.out, 0o755); err != nil {
-		return err
-	}
 	histErr, err := eval.WriteBankFiles(g.out, pb, g.seed)
 	if histErr != nil {
 		fmt.Fprintf(g.stderr, "striate learn: no histograms: %v\n", histErr)

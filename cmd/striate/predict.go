@@ -48,14 +48,17 @@ func runPredict(g *globals, modelPath string, top, batch int, args []string) err
 	if batch < 1 {
 		return usagef("--batch %d; want at least 1", batch)
 	}
-	files, err := datasets.ListImages(args...)
+	files, skipped, err := datasets.ListImages(args...)
 	if err != nil {
 		return err
+	}
+	skip := func(err error) { fmt.Fprintf(g.stderr, "striate predict: skipped: %v\n", err) }
+	for _, s := range skipped {
+		skip(fmt.Errorf("%s: %s", s.Path, s.Reason))
 	}
 	classes := m.Classes()
 	bar := g.newProgress(len(files), "predict")
 	defer bar.Done()
-	skip := func(err error) { fmt.Fprintf(g.stderr, "striate predict: skipped: %v\n", err) }
 	failed, err := eval.PredictFiles(m, files, eval.RunOptions{Workers: g.workers, Batch: batch, Progress: bar}, skip,
 		func(preds []eval.FilePrediction) {
 			for _, p := range preds {

@@ -15,15 +15,27 @@ package safefile
 
 import (
 	"bufio"
+	"errors"
 	"fmt"
 	"io"
+	"io/fs"
+	"math/rand/v2"
 	"os"
 	"path/filepath"
+	"strconv"
 )
 
-// Perm is the permission of the files Write creates (before the umask),
-// the same as os.WriteFile's usual 0644.
-const Perm = 0o644
+// Perm is the permission of every file striate writes and DirPerm that of
+// every folder it creates, each less the user's umask as the kernel applies
+// it (so files are 0644 and folders 0755 under the usual umask 022, 0640
+// and 0750 under 027): the modes os.WriteFile and os.MkdirAll are commonly
+// given (common practice). Write creates its temporary file with Perm, so
+// the renamed file has the same mode as one os.WriteFile(path, b, Perm)
+// creates.
+const (
+	Perm    = 0o644
+	DirPerm = 0o755
+)
 
 // Write creates or replaces path with what fill writes. fill receives a
 // buffered writer on a temporary file beside path (named .<base>.tmp-*);
@@ -48,9 +60,6 @@ func Write(path string, fill func(w io.Writer) error) (err error) {
 		return err
 	}
 	if err = bw.Flush(); err != nil {
-		return err
-	}
-	if err = tmp.Chmod(Perm); err != nil {
 		return err
 	}
 	if err = tmp.Sync(); err != nil {
@@ -91,13 +100,20 @@ func CheckDir(path string) error {
 	return os.Remove(tmp.Name())
 }
 
-// createTemp creates the temporary file .<base>.tmp-* beside path and
+// createTemp creates the temporary file .<base>.tmp-<random> beside path,
+// with mode Perm less the umask (os.CreateTemp would make it 0600), and
 // returns it with path's folder.
 func createTemp(path string) (*os.File, string, error) {
 	dir, base := filepath.Split(path)
 	if dir == "" {
 		dir = "."
 	}
-	f, err := os.CreateTemp(dir, "."+base+".tmp-*")
-	return f, dir, err
+	for range 1000 {
+		name := filepath.Join(dir, "."+base+".tmp-"+strconv.FormatUint(rand.Uint64(), 36))
+		f, err := os.OpenFile(name, os.O_RDWR|os.O_CREATE|os.O_EXCL, Perm)
+		if !errors.Is(err, fs.ErrExist) {
+			return f, dir, err
+		}
+	}
+	return nil, dir, fmt.Errorf("no free temporary name .%s.tmp-* in %s", base, dir)
 }

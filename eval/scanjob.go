@@ -10,7 +10,10 @@ import (
 	"math"
 	"os"
 	"path/filepath"
+	"strconv"
 	"strings"
+	"text/tabwriter"
+	"unicode"
 
 	"github.com/striate/striate/datasets"
 	"github.com/striate/striate/internal/safefile"
@@ -321,3 +324,64 @@ func ScanLine(f *ScanFrame, classes []string) ([]byte, error) {
 // ErrNoTruth is returned by ScanJob.Report when no frame came from a scene
 // folder.
 var ErrNoTruth = errors.New("eval: no frame with ground truth; a scan report needs a scene folder (a folder holding " + datasets.SceneIndex + ")")
+
+// ScanText returns one frame's items as text for a terminal: a heading
+// line with the file, its size and the item count, then one line per item
+// in fixation order with its fixation number, class, score and box
+// [x0 y0 x1 y1] (half-open pixels). A file name holding control characters
+// is quoted, so every item stays on its own line.
+func ScanText(f *ScanFrame, classes []string) string {
+	var b strings.Builder
+	name := f.Source.File
+	if strings.ContainsFunc(name, unicode.IsControl) {
+		name = strconv.Quote(name)
+	}
+	switch n := len(f.Result.Items); n {
+	case 0:
+		fmt.Fprintf(&b, "%s (%d×%d): no items\n", name, f.W, f.H)
+	case 1:
+		fmt.Fprintf(&b, "%s (%d×%d): 1 item\n", name, f.W, f.H)
+	default:
+		fmt.Fprintf(&b, "%s (%d×%d): %d items\n", name, f.W, f.H, n)
+	}
+	for _, it := range f.Result.Items {
+		fmt.Fprintf(&b, "  fixation %d: %s %.4f %s\n", it.Fixation+1, className(classes, it.Class), it.Score, boxText(it.Box))
+	}
+	return b.String()
+}
+
+// SceneSummary returns the scene metrics as text for a terminal: the
+// headline figures and a table of AP per class, percentages with two
+// decimals.
+func SceneSummary(s *SceneScores, classes []string) string {
+	var b strings.Builder
+	fmt.Fprintf(&b, "scenes: %d frames, %d items; found %d, matched %d (precision %s%%, recall %s%%)\n",
+		s.Frames, s.Truth, s.Found, s.Matched, pct(s.Precision), pct(s.Recall))
+	fmt.Fprintf(&b, "mAP %s%%, count accuracy %s%%, recognition of items found %s%%, false items per empty frame %.3f (%d empty frames)\n",
+		apCell(s.MAP), pct(s.CountAccuracy), pct(s.RecognitionAccuracy), s.FalsePerEmpty, s.EmptyFrames)
+	tw := tabwriter.NewWriter(&b, 0, 0, 2, ' ', tabwriter.AlignRight)
+	fmt.Fprintln(tw, "class\titems\tfound\tmatched\tAP (%)\t")
+	for c, ca := range s.PerClass {
+		fmt.Fprintf(tw, "%s\t%d\t%d\t%d\t%s\t\n", className(classes, c), ca.Truth, ca.Found, ca.Matched, apCell(ca.AP))
+	}
+	fmt.Fprintf(tw, "mean (mAP)\t%d\t%d\t%d\t%s\t\n", s.Truth, s.Found, s.Matched, apCell(s.MAP))
+	tw.Flush()
+	return b.String()
+}
+
+// FrameWriter returns an emit function for RunScan that writes each frame
+// to w: as a line of JSON (ScanLine) when jsonLines is set, else as
+// ScanText.
+func FrameWriter(w io.Writer, classes []string, jsonLines bool) func(*ScanFrame) error {
+	return func(f *ScanFrame) error {
+		if !jsonLines {
+			_, err := io.WriteString(w, ScanText(f, classes))
+			return err
+		}
+		line, err := ScanLine(f, classes)
+		if err == nil {
+			_, err = w.Write(append(line, '\n'))
+		}
+		return err
+	}
+}

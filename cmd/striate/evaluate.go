@@ -26,6 +26,7 @@ func init() {
   striate evaluate --model fashion.striate --data fashion --out rep --robust quick --speed
   striate evaluate --model mnist.striate --data mnist --suite dev --peer lenet5.json   # MNIST-C + grid beside LeNet-5
   striate evaluate --model mnist.striate --data ./depot-photos           # a folder of class sub-folders
+  striate evaluate --model fashion.striate --data belt-scenes --out rep # a scene folder (scenes.json): AP, mAP
 
   # split across 4 machines (job-array index 0..3), then merge:
   striate evaluate --model m.striate --data mnist --out shards --shard 2/4
@@ -122,6 +123,9 @@ func runEvaluate(g *globals, o evalOptions) error {
 		}
 		printScores(g.stdout, me.Name, me.Data, me.Metrics)
 		return writeReport(g, me.Report)
+	}
+	if eval.IsSceneFolder(o.data) { // frames with ground truth: the scanner's scene metrics
+		return runScan(g, scanOptions{model: o.model, truth: true}, []string{o.data})
 	}
 	levels, err := robustLevels(o.robust)
 	if err != nil {

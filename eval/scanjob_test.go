@@ -440,3 +440,70 @@ func TestScanSourcesBadSceneFolders(t *testing.T) {
 		t.Error("the failed run created the frames folder")
 	}
 }
+
+// The report's AP table on a hand-worked case. Class ring: two items, and
+// three found items ranked 0.95 (false), 0.9 (hit), 0.7 (hit), so
+// precision 0, 1/2, 2/3 at recall 0, 1/2, 1. The all-point interpolated AP
+// of the VOC2010 devkit (VOCap; Everingham et al. 2010) is
+// ½·max(½, ⅔) + ½·⅔ = ⅔ = 66.67%; the non-interpolated Σ ΔR·P is
+// ½·½ + ½·⅔ = 7/12 = 58.33%. Class bar has no items (AP undefined, "—"),
+// so mAP is ring's AP; a bar found on the empty frame is one false item per
+// empty frame; one frame in three has the right count.
+func TestScanReportHandWorkedAP(t *testing.T) {
+	dir := t.TempDir()
+	var frames []ScanFrame
+	for i, items := range [][]pipeline.ScanItem{
+		{{Class: 0, Score: 0.95, Box: [4]int{40, 40, 60, 60}}, {Class: 0, Score: 0.9, Box: [4]int{10, 10, 30, 30}, Fixation: 1}},
+		{{Class: 0, Score: 0.7, Box: [4]int{5, 5, 25, 25}}},
+		{{Class: 1, Score: 0.6, Box: [4]int{0, 0, 20, 20}}},
+	} {
+		p := filepath.Join(dir, datasets.FrameName(i))
+		writePNG(t, p, image.NewGray(image.Rect(0, 0, 64, 64)))
+		truth := [][]datasets.SceneItem{{{Box: [4]int{10, 10, 30, 30}}}, {{Box: [4]int{5, 5, 25, 25}}}, nil}[i]
+		frames = append(frames, ScanFrame{Source: ScanSource{File: p, Folder: dir, W: 64, H: 64, Truth: truth, Scored: true}, W: 64, H: 64,
+			Result: pipeline.ScanResult{Items: items, Fixations: make([]pipeline.Fixation, 2)}})
+	}
+	fr := make([]FrameResult, len(frames))
+	for i, f := range frames {
+		fr[i] = FrameResult{Truth: f.Source.Truth, Found: Detections(f.Result.Items)}
+	}
+	scores, err := ScoreScenes(fr, 3)
+	if err != nil {
+		t.Fatal(err)
+	}
+	job := &ScanJob{Classes: []string{"ring", "bar", "tee"}, Frames: frames, Scores: scores, Folders: []string{dir}, Config: pipeline.ScanConfig{Threshold: 0.5}}
+	rep, err := job.Report("hand-worked", "", "m")
+	if err != nil {
+		t.Fatal(err)
+	}
+	out := t.TempDir()
+	if _, err := WriteReport(out, rep); err != nil {
+		t.Fatal(err)
+	}
+	md, _ := os.ReadFile(filepath.Join(out, ReportMarkdown))
+	for _, row := range []string{"| ring | 2 | 3 | 2 | 66.67 | 58.33 |", "| bar | 0 | 1 | 0 | — | — |", "| tee | 0 | 0 | 0 | — | — |", "| mean (mAP) | 2 | 4 | 2 | 66.67 |  |",
+		"| 3 | 2 | 4 | 2 | 50.00 | 100.00 | 66.67 | 33.33 | 100.00 | 1 | 1.000 | 0.500 |",
+		"| frame-000000.png | 1 |  | ring 0.95 [40 40 60 60] |", "| frame-000002.png | 0 |  | bar 0.60 [0 0 20 20] |"} {
+		if !strings.Contains(string(md), row) {
+			t.Errorf("report.md lacks %q:\n%s", row, md)
+		}
+	}
+	if strings.Contains(string(md), "| frame-000001.png") {
+		t.Error("the frame without errors is listed among the errors")
+	}
+	var back struct {
+		Scenes []struct {
+			Scores struct {
+				MAP      *float64
+				PerClass []struct{ AP *float64 }
+			}
+		}
+	}
+	js, _ := os.ReadFile(filepath.Join(out, ReportJSON))
+	if err := json.Unmarshal(js, &back); err != nil || len(back.Scenes) != 1 {
+		t.Fatalf("results.json: %v", err)
+	}
+	if s := back.Scenes[0].Scores; s.MAP == nil || math.Abs(*s.MAP-2.0/3) > 1e-12 || s.PerClass[0].AP == nil || s.PerClass[1].AP != nil {
+		t.Errorf("results.json scores: mAP %v, AP %+v; want 2/3 and null for the class without items", s.MAP, s.PerClass)
+	}
+}

@@ -74,12 +74,13 @@ func finite(x float64) *float64 {
 	return &x
 }
 
-// galleryFrames is how many frames the page of hits and misses shows, and
-// gallerySide the side a small frame is enlarged towards there.
+// galleryFrames is how many frames the page of hits and misses shows (in
+// galleryCols columns), gallerySide the side a small frame is enlarged to
+// at least there, and maxErrorRows the frames its table lists.
 const (
 	galleryFrames = 12
 	galleryCols   = 4
-	gallerySide   = 240
+	gallerySide   = 256
 	maxErrorRows  = 50
 )
 
@@ -158,7 +159,7 @@ func galleryPNG(frames []*ScanFrame, classes []string) ([]byte, error) {
 			return nil, fmt.Errorf("eval: page of hits and misses: %w", err)
 		}
 		pix := datasets.ToGray(nil, img, 0, 0)
-		s := min(MaxDrawScale, max(1, gallerySide/max(f.W, f.H)))
+		s := min(MaxDrawScale, max(1, (gallerySide+max(f.W, f.H)-1)/max(f.W, f.H)))
 		t, err := DrawScan(pix, f.H, f.W, &f.Result, ScanDrawing{Classes: classes, Scale: s, Truth: f.Source.Truth, Scored: true})
 		if err != nil {
 			return nil, err

@@ -125,6 +125,9 @@ func runEvaluate(g *globals, o evalOptions) error {
 		return writeReport(g, me.Report)
 	}
 	if eval.IsSceneFolder(o.data) { // frames with ground truth: the scanner's scene metrics
+		if o.shard != "" || o.robust != "none" || o.suite != "none" || o.peer != "" || o.speed {
+			return usagef("--data %s is a scene folder, scored by the scanner alone; drop --shard, --robust, --suite, --peer and --speed", o.data)
+		}
 		return runScan(g, scanOptions{model: o.model, truth: true}, []string{o.data})
 	}
 	levels, err := robustLevels(o.robust)

@@ -89,6 +89,10 @@ func TestCLIScanSceneFolder(t *testing.T) {
 	if _, err := os.Stat(filepath.Join(out2, "report.md")); err != nil {
 		t.Error(err)
 	}
+	r = mustRun(t, 2, "evaluate", "--model", cliModelA, "--data", dir, "--robust", "quick")
+	if !strings.Contains(r.stderr, "scene folder") {
+		t.Errorf("evaluate --robust on a scene folder: %s", r.stderr)
+	}
 }
 
 // Bad input: the exit code is 2 for bad usage and 1 for failed work; bad

@@ -140,6 +140,17 @@ func (j *ScanJob) Report(title, command, model string) (*Report, error) {
 	return rep, nil
 }
 
+// WriteReport writes the Report of the scan (title, command and model as
+// Report takes them) into dir with WriteReport and returns the paths
+// written.
+func (j *ScanJob) WriteReport(dir, title, command, model string) ([]string, error) {
+	rep, err := j.Report(title, command, model)
+	if err != nil {
+		return nil, err
+	}
+	return WriteReport(dir, rep)
+}
+
 // boxText writes a box as [x0 y0 x1 y1].
 func boxText(b [4]int) string { return fmt.Sprintf("[%d %d %d %d]", b[0], b[1], b[2], b[3]) }
 

@@ -74,11 +74,7 @@ func runScan(g *globals, o scanOptions, args []string) error {
 		fmt.Fprint(text, eval.SceneSummary(job.Scores, job.Classes))
 	}
 	if g.out != "" && job.Scores != nil {
-		rep, err := job.Report("striate scan: "+modelName(o.model), commandLine(), modelName(o.model))
-		if err == nil {
-			_, err = eval.WriteReport(g.out, rep)
-		}
-		if err != nil {
+		if _, err := job.WriteReport(g.out, "striate scan: "+modelName(o.model), commandLine(), modelName(o.model)); err != nil {
 			return err
 		}
 		fmt.Fprintf(text, "report: %s (open %s)\n", g.out, filepath.Join(g.out, eval.ReportHTML))

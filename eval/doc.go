@@ -139,6 +139,24 @@
 // items found (matching with classes ignored, then the share given the
 // right class) and false items per empty frame.
 //
+// # Scanning files and scene folders (RunScan)
+//
+// ScanSources expands files and folders into frames; a folder holding
+// datasets.SceneIndex is a scene folder, whose frames bring their ground
+// truth. RunScan runs a pipeline.Scanner over them: each frame's declared
+// size is checked against the scanner's limits (CheckFrameSize: at least
+// Scanner.MinSide, at most v1layer.MaxSide a side) and the guarded decoder's
+// pixel limit (datasets.MaxImagePixels) before any pixel is decoded; a bad
+// plain file is skipped and named, a bad frame of a scene folder stops the
+// run before anything is written. Each frame goes out as text (ScanText) or
+// a line of JSON (ScanLine: file, size, items with class, score and box
+// [x0, y0, x1, y1] in pixels), and, with an output folder, as a picture
+// (DrawScan: boxes in class colours, or hits, false items and dashed misses
+// on a frame with ground truth; the fixations that gave items numbered and
+// joined in order). ScanJob.Report adds the report's scenes section: the
+// headline scores, AP per class with mAP, the precision-recall curves and a
+// page of hits and misses, frames with errors first.
+//
 // # Checks against the outside world
 //
 // The Wilson interval and McNemar p-value equal SciPy 1.10.1's

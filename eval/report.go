@@ -33,6 +33,7 @@ type Report struct {
 	Comparisons []*Comparison      `json:"comparisons,omitempty"`
 	Robustness  []*Robustness      `json:"robustness,omitempty"`
 	Suites      []*SuiteResult     `json:"suites,omitempty"` // development-suite scores (ScoreSuite)
+	Scenes      []*SceneResult     `json:"scenes,omitempty"` // scanner scores on scene folders (ScanJob.Report)
 	Labels      []*LabelCurve      `json:"label_efficiency,omitempty"`
 	Invariance  []InvarianceResult `json:"invariance,omitempty"`
 	Banks       []BankPanel        `json:"banks,omitempty"`   // filter banks shown side by side as mosaics
@@ -424,6 +425,12 @@ func buildDoc(r *Report) ([]block, error) {
 		}
 	}
 
+	if len(r.Scenes) > 0 {
+		if err := sceneBlocks(r.Scenes, add, fig); err != nil {
+			return nil, err
+		}
+	}
+
 	if len(r.Labels) > 0 {
 		add(headBlock{2, "Label efficiency"})
 		add(paraBlock{"Test accuracy after training on a class-balanced subset with the given number of labelled images per class (subsets nested across sizes)."})
@@ -809,5 +816,5 @@ func keyFigures(r *Report) []string {
 			out = append(out, fmt.Sprintf("%s on %s, perturbed: lowest accuracy %s%% (%s).", rb.Model, rb.Data, pct(low.Accuracy), low.Label))
 		}
 	}
-	return append(out, suiteKeyFigures(r.Suites)...)
+	return append(append(out, suiteKeyFigures(r.Suites)...), sceneKeyFigures(r.Scenes)...)
 }

@@ -25,6 +25,7 @@ func init() {
   striate evaluate --model fashion.striate --data fashion --out rep --robust quick --speed
   striate evaluate --model mnist.striate --data mnist --suite dev --peer lenet5.json   # MNIST-C + grid beside LeNet-5
   striate evaluate --model mnist.striate --data ./depot-photos           # a folder of class sub-folders
+  striate evaluate --model fashion.striate --data belt-scenes --out rep # a scene folder (scenes.json): AP, mAP
 
   # split across 4 machines (job-array index 0..3), then merge:
   striate evaluate --model m.striate --data mnist --out shards --shard 2/4
@@ -120,6 +121,12 @@ func runEvaluate(g *globals, o evalOptions) error {
 		}
 		eval.WriteScores(g.stdout, me.Name, me.Data, me.Metrics)
 		return writeReport(g, me.Report)
+	}
+	if eval.IsSceneFolder(o.data) { // frames with ground truth: the scanner's scene metrics
+		if o.shard != "" || o.robust != "none" || o.suite != "none" || o.peer != "" || o.speed {
+			return usagef("--data %s is a scene folder, scored by the scanner alone; drop --shard, --robust, --suite, --peer and --speed", o.data)
+		}
+		return runScan(g, scanOptions{model: o.model, truth: true}, []string{o.data})
 	}
 	levels, err := robustLevels(o.robust)
 	if err != nil {

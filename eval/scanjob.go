@@ -45,25 +45,26 @@ func IsSceneFolder(path string) bool {
 // (datasets.ListImages) and a file is taken as given. With truth set every
 // path must be a scene folder. A scene folder's class names are looked up
 // among classes (the model's); a class its items use that the model does
-// not know is an error naming the index.
-func ScanSources(classes []string, truth bool, paths ...string) ([]ScanSource, error) {
+// not know is an error naming the index. What a walk passes over (links
+// that loop or break, devices) is returned in skipped.
+func ScanSources(classes []string, truth bool, paths ...string) (out []ScanSource, skipped []datasets.Skipped, err error) {
 	index := make(map[string]int, len(classes))
 	for i, c := range classes {
 		index[c] = i
 	}
-	var out []ScanSource
 	for _, p := range paths {
 		st, err := os.Stat(p)
 		if err != nil {
-			return nil, fmt.Errorf("eval: %w", err)
+			return nil, nil, fmt.Errorf("eval: %w", err)
 		}
 		if !st.IsDir() || (!truth && !IsSceneFolder(p)) {
 			if truth {
-				return nil, fmt.Errorf("eval: %s is a file, not a scene folder; ground truth comes from a folder holding %s and its frames", p, datasets.SceneIndex)
+				return nil, nil, fmt.Errorf("eval: %s is a file, not a scene folder; ground truth comes from a folder holding %s and its frames", p, datasets.SceneIndex)
 			}
-			files, err := datasets.ListImages(p)
+			files, sk, err := datasets.ListImages(p)
+			skipped = append(skipped, sk...)
 			if err != nil {
-				return nil, err
+				return nil, nil, err
 			}
 			for _, f := range files {
 				out = append(out, ScanSource{File: f})
@@ -72,7 +73,7 @@ func ScanSources(classes []string, truth bool, paths ...string) ([]ScanSource, e
 		}
 		sf, err := datasets.ReadSceneFolder(p)
 		if err != nil {
-			return nil, err
+			return nil, nil, err
 		}
 		for i, fr := range sf.Frames {
 			src := ScanSource{File: filepath.Join(p, filepath.FromSlash(fr.File)), Folder: p, W: fr.W, H: fr.H, Scored: true}
@@ -80,7 +81,7 @@ func ScanSources(classes []string, truth bool, paths ...string) ([]ScanSource, e
 				name := sf.Classes[it.Class]
 				c, ok := index[name]
 				if !ok {
-					return nil, &datasets.SceneFolderError{Kind: datasets.ErrSceneUnknownClass, File: filepath.Join(p, datasets.SceneIndex),
+					return nil, nil, &datasets.SceneFolderError{Kind: datasets.ErrSceneUnknownClass, File: filepath.Join(p, datasets.SceneIndex),
 						Field:  fmt.Sprintf("frames[%d].items[%d].class", i, j),
 						Detail: fmt.Sprintf("%q is not one of the model's classes (%s)", name, strings.Join(classes, ", ")),
 						Fix:    "scan with a model trained on these classes, or rename the class to the model's name for it"}
@@ -91,7 +92,7 @@ func ScanSources(classes []string, truth bool, paths ...string) ([]ScanSource, e
 			out = append(out, src)
 		}
 	}
-	return out, nil
+	return out, skipped, nil
 }
 
 // ScanJobConfig configures RunScan. Each zero field means its default.

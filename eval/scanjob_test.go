@@ -121,7 +121,7 @@ func writePNG(t testing.TB, path string, img image.Image) {
 func TestRunScanSceneFolderReport(t *testing.T) {
 	m := beltModel(t)
 	dir := beltFolder(t, 10, 3)
-	src, err := ScanSources(m.Classes(), true, dir)
+	src, _, err := ScanSources(m.Classes(), true, dir)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -346,7 +346,7 @@ func TestRunScanBadFiles(t *testing.T) {
 	os.WriteFile(filepath.Join(dir, "e-label.png"), []byte("rail 3, size M"), 0o644)
 	os.WriteFile(filepath.Join(dir, "f-huge.png"), pngHeader(20000, 60), 0o644)
 	os.WriteFile(filepath.Join(dir, "g-empty.png"), pngHeader(0, 0), 0o644)
-	src, err := ScanSources(m.Classes(), false, dir)
+	src, _, err := ScanSources(m.Classes(), false, dir)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -392,24 +392,24 @@ func TestScanSourcesBadSceneFolders(t *testing.T) {
 	classes := []string{"ring", "bar", "tee"}
 	plain := t.TempDir()
 	writePNG(t, filepath.Join(plain, "x.png"), image.NewGray(image.Rect(0, 0, 64, 64)))
-	if _, err := ScanSources(classes, true, plain); !errors.Is(err, datasets.ErrSceneIndexMissing) || !strings.Contains(err.Error(), filepath.Join(plain, datasets.SceneIndex)) {
+	if _, _, err := ScanSources(classes, true, plain); !errors.Is(err, datasets.ErrSceneIndexMissing) || !strings.Contains(err.Error(), filepath.Join(plain, datasets.SceneIndex)) {
 		t.Errorf("no index, truth wanted: %v", err)
 	}
-	if src, err := ScanSources(classes, false, plain); err != nil || len(src) != 1 || src[0].Scored {
+	if src, _, err := ScanSources(classes, false, plain); err != nil || len(src) != 1 || src[0].Scored {
 		t.Errorf("a plain folder without truth: %v, %+v; want one unscored frame", err, src)
 	}
 	bad := beltFolder(t, 2, 5)
 	os.WriteFile(filepath.Join(bad, datasets.SceneIndex), []byte(`{"layout": "striate scene folder", "version": 1,`), 0o644)
-	if _, err := ScanSources(classes, false, bad); !errors.Is(err, datasets.ErrSceneIndexMalformed) {
+	if _, _, err := ScanSources(classes, false, bad); !errors.Is(err, datasets.ErrSceneIndexMalformed) {
 		t.Errorf("malformed index: %v", err)
 	}
 	dangling := beltFolder(t, 2, 6)
 	os.Remove(filepath.Join(dangling, datasets.FrameName(1)))
-	if _, err := ScanSources(classes, false, dangling); !errors.Is(err, datasets.ErrSceneFrameMissing) || !strings.Contains(err.Error(), datasets.FrameName(1)) {
+	if _, _, err := ScanSources(classes, false, dangling); !errors.Is(err, datasets.ErrSceneFrameMissing) || !strings.Contains(err.Error(), datasets.FrameName(1)) {
 		t.Errorf("missing frame: %v", err)
 	}
 	other := beltFolder(t, 3, 7)
-	if _, err := ScanSources([]string{"shirt", "sock", "shoe"}, false, other); !errors.Is(err, datasets.ErrSceneUnknownClass) || !strings.Contains(err.Error(), "model's classes") {
+	if _, _, err := ScanSources([]string{"shirt", "sock", "shoe"}, false, other); !errors.Is(err, datasets.ErrSceneUnknownClass) || !strings.Contains(err.Error(), "model's classes") {
 		t.Errorf("classes unknown to the model: %v", err)
 	}
 
@@ -422,7 +422,7 @@ func TestScanSourcesBadSceneFolders(t *testing.T) {
 	if err := datasets.WriteSceneFolder(small, classes, b.Scenes(0, 2)); err != nil {
 		t.Fatal(err)
 	}
-	src, err := ScanSources(m.Classes(), true, small)
+	src, _, err := ScanSources(m.Classes(), true, small)
 	if err != nil {
 		t.Fatal(err)
 	}

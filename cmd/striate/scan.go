@@ -54,9 +54,12 @@ func runScan(g *globals, o scanOptions, args []string) error {
 	if _, err := pipeline.NewScanner(m, o.cfg); err != nil {
 		return usageError{"--threshold, --max-items or --item-size: " + err.Error()}
 	}
-	src, err := eval.ScanSources(m.Classes(), o.truth, args...)
+	src, skipped, err := eval.ScanSources(m.Classes(), o.truth, args...)
 	if err != nil {
 		return err
+	}
+	for _, s := range skipped {
+		fmt.Fprintf(g.stderr, "striate scan: skipped: %s: %s\n", s.Path, s.Reason)
 	}
 	text := g.stdout
 	if o.json {

@@ -2,13 +2,10 @@ package main
 
 import (
 	"flag"
-	"fmt"
 	"strings"
-	"time"
 
 	"github.com/striate/striate/datasets"
 	"github.com/striate/striate/eval"
-	"github.com/striate/striate/internal/safefile"
 	"github.com/striate/striate/pipeline"
 )
 
@@ -42,7 +39,7 @@ func init() {
 				}
 				p := *preset
 				if p == "auto" {
-					p = autoPreset(*data)
+					p = eval.AutoPreset(*data)
 				}
 				if _, err := pipeline.Preset(p); err != nil {
 					return usagef("--preset %q; want auto, %s", *preset, strings.Join(pipeline.PresetNames(), ", "))
@@ -53,79 +50,17 @@ func init() {
 	})
 }
 
-// autoPreset is the preset --preset auto picks for --data.
-func autoPreset(data string) string {
-	switch data {
-	case "mnist":
-		return "digits"
-	case "fashion":
-		return "garments"
-	}
-	return "default"
-}
-
 func runTrain(g *globals, data string, perClass int, preset string, mirror, int8 bool) error {
-	var cfg pipeline.Config
-	var err error
+	tc := eval.TrainConfig{Preset: preset, Data: data, PerClass: perClass, Mirror: mirror, Int8: int8,
+		Seed: g.seed, Workers: g.workers, Out: g.out}
 	if g.config != "" {
-		if cfg, err = pipeline.LoadConfig(g.config); err != nil {
+		c, err := pipeline.LoadConfig(g.config)
+		if err != nil {
 			return err
 		}
-	} else {
-		if cfg, err = pipeline.Preset(preset); err != nil {
-			return err
-		}
-		fmt.Fprintf(g.stdout, "preset %s: %s\n", preset, pipeline.PresetAbout(preset))
+		tc.Config = &c
 	}
-	cfg.Seed = g.seed
-	cfg.Mirror = cfg.Mirror || mirror
-	trainSpec, testSpec := datasets.SpecSplits(data)
-	in := cfg.Input
-	if in.Height == 0 || in.Width == 0 {
-		in = pipeline.DefaultConfig().Input
-	}
-	// Check the output and both splits before the long work starts.
-	if err := safefile.CheckDir(g.out); err != nil {
-		return err
-	}
-	train, err := loadSpec(trainSpec, in.Height, in.Width, g.stderr)
-	if err != nil {
-		return err
-	}
-	var test *datasets.Set
-	if testSpec != "" {
-		if test, err = loadSpec(testSpec, in.Height, in.Width, g.stderr); err != nil {
-			return err
-		}
-	}
-	start := time.Now()
-	m, rep, train, err := eval.FitLabelled(cfg, train, perClass, g.seed, g.workers, jobMonitor{g})
-	if err != nil {
-		return err
-	}
-	if int8 {
-		if m, err = m.Quantize(train, pipeline.QuantizeOptions{Workers: g.workers}); err != nil {
-			return err
-		}
-	}
-	if err := safefile.Write(g.out, m.Save); err != nil {
-		return err
-	}
-	if err := eval.WriteFitSummary(g.stdout, train, rep, time.Since(start)); err != nil {
-		return err
-	}
-	fmt.Fprintf(g.stdout, "model written to %s\n", g.out)
-
-	if testSpec == "" {
-		fmt.Fprintf(g.stdout, "no test split in %s to score on (score with: striate evaluate --model %s --data FOLDER)\n", data, g.out)
-		return nil
-	}
-	bar := g.newProgress(test.N, "test")
-	acc, err := pipeline.Accuracy(m, test, nil, g.workers, bar)
-	bar.Done()
-	if err != nil {
-		return err
-	}
-	fmt.Fprintf(g.stdout, "test accuracy %.2f%% (%d of %d)\n", 100*acc, int(acc*float64(test.N)+0.5), test.N)
-	return nil
+	open := func(spec string, h, w int) (*datasets.Set, error) { return loadSpec(spec, h, w, g.stderr) }
+	_, err := eval.Train(tc, open, jobMonitor{g})
+	return err
 }

@@ -1,0 +1,111 @@
+package eval
+
+import (
+	"strings"
+	"time"
+
+	"github.com/striate/striate/datasets"
+	"github.com/striate/striate/internal/safefile"
+	"github.com/striate/striate/pipeline"
+)
+
+// AutoPreset is the preset chosen for a data spec when none is named: digits
+// for "mnist", garments for "fashion", default otherwise.
+func AutoPreset(spec string) string {
+	switch spec {
+	case "mnist":
+		return "digits"
+	case "fashion":
+		return "garments"
+	}
+	return "default"
+}
+
+// TrainConfig says what Train fits, on what, and where the model goes.
+type TrainConfig struct {
+	Config   *pipeline.Config // the pipeline; nil means Preset
+	Preset   string           // a pipeline.Preset name, used when Config is nil
+	Data     string           // a data spec (datasets.Open): its training split is fitted, its test split scored
+	PerClass int              // labelled images per class (seeded); 0 means all
+	Mirror   bool             // also train on mirror images (sets the config's Mirror)
+	Int8     bool             // save the model quantised to int8 (pipeline.Model.Quantize)
+	Seed     uint64
+	Workers  int
+	Out      string // the model file
+}
+
+// TrainResult is what Train did.
+type TrainResult struct {
+	Model       *pipeline.Model
+	Train, Test *datasets.Set // Train as fitted (the labelled subset); Test nil when the data has no test split
+	Report      pipeline.FitReport
+	Elapsed     time.Duration
+	Accuracy    float64 // on Test; 0 without a test split
+}
+
+// Train fits cfg's pipeline on the training split of cfg.Data, saves it to
+// cfg.Out (atomically) and scores it on the test split when there is one.
+// The output file and both splits are checked before the fit starts, so a
+// bad path or a missing split costs no training. open loads a data spec at
+// the pipeline's input size (the caller decides how its errors read); mon
+// gets the progress bars and the lines a person reads.
+func Train(cfg TrainConfig, open func(spec string, h, w int) (*datasets.Set, error), mon JobMonitor) (*TrainResult, error) {
+	var pc pipeline.Config
+	if cfg.Config != nil {
+		pc = *cfg.Config
+	} else {
+		var err error
+		if pc, err = pipeline.Preset(cfg.Preset); err != nil {
+			return nil, err
+		}
+		mon.Logf("preset %s: %s", cfg.Preset, pipeline.PresetAbout(cfg.Preset))
+	}
+	pc.Seed = cfg.Seed
+	pc.Mirror = pc.Mirror || cfg.Mirror
+	trainSpec, testSpec := datasets.SpecSplits(cfg.Data)
+	in := pc.Input
+	if in.Height == 0 || in.Width == 0 {
+		in = pipeline.DefaultConfig().Input
+	}
+	if err := safefile.CheckDir(cfg.Out); err != nil {
+		return nil, err
+	}
+	r := &TrainResult{}
+	train, err := open(trainSpec, in.Height, in.Width)
+	if err != nil {
+		return nil, err
+	}
+	if testSpec != "" {
+		if r.Test, err = open(testSpec, in.Height, in.Width); err != nil {
+			return nil, err
+		}
+	}
+	start := time.Now()
+	if r.Model, r.Report, r.Train, err = FitLabelled(pc, train, cfg.PerClass, cfg.Seed, cfg.Workers, mon); err != nil {
+		return nil, err
+	}
+	if cfg.Int8 {
+		if r.Model, err = r.Model.Quantize(r.Train, pipeline.QuantizeOptions{Workers: cfg.Workers}); err != nil {
+			return nil, err
+		}
+	}
+	if err := safefile.Write(cfg.Out, r.Model.Save); err != nil {
+		return nil, err
+	}
+	r.Elapsed = time.Since(start)
+	var sum strings.Builder
+	WriteFitSummary(&sum, r.Train, r.Report, r.Elapsed)
+	mon.Logf("%smodel written to %s", sum.String(), cfg.Out)
+	if r.Test == nil {
+		mon.Logf("no test split in %s to score on (score with: striate evaluate --model %s --data FOLDER)", cfg.Data, cfg.Out)
+		return r, nil
+	}
+	bar := mon.Start(r.Test.N, "test")
+	r.Accuracy, err = pipeline.Accuracy(r.Model, r.Test, nil, cfg.Workers, bar)
+	bar.Done()
+	if err != nil {
+		return nil, err
+	}
+	mon.Logf("test accuracy %.2f%% (%d of %d)", 100*r.Accuracy, int(r.Accuracy*float64(r.Test.N)+0.5), r.Test.N)
+	return r, nil
+}

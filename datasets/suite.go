@@ -82,10 +82,10 @@ func (s *Set) Perturbed(op ImageOp, seed uint64, workers int) (*Set, error) {
 // SuiteCondition is one named condition of a development suite.
 type SuiteCondition struct {
 	Name  string  // Op.String(), unique within a suite: "shot_noise-3", "noise-0.05"
-	Group string  // GroupMNISTC or GroupGrid
+	Group string  // GroupMNISTC, GroupGrid or GroupHeldOut
 	Kind  string  // corruption name or perturbation kind: "shot_noise", "rot"
 	Unit  string  // unit of Level
-	Level float64 // severity 1…5 (MNIST-C) or the perturbation level (grid)
+	Level float64 // severity 1…5 (MNIST-C, held-out) or the perturbation level (grid)
 	Op    ImageOp
 }
 
@@ -98,6 +98,9 @@ const SuiteSeed uint64 = 12
 const (
 	GroupMNISTC = "mnist-c"
 	GroupGrid   = "grid"
+	// GroupHeldOut is the held-out suite (HeldOutSuite), scored only to
+	// check settings chosen on the development suite, never to choose them.
+	GroupHeldOut = "heldout"
 )
 
 // MNISTCSuite returns the 15 MNIST-C corruptions (CorruptionKinds order) at
@@ -164,4 +167,29 @@ func GridSuite() []SuiteCondition {
 func DevelopmentSuite() []SuiteCondition {
 	m, _ := MNISTCSuite() // all severities: cannot fail
 	return append(m, GridSuite()...)
+}
+
+// HeldOutSuite returns the held-out suite: the HeldOutKinds corruptions
+// (none of them an MNIST-C corruption or a grid kind) at each of the given
+// severities (all of 1…5 when none are given), kind-major, in group
+// GroupHeldOut. Its images are made as the development suite's, with seed
+// SuiteSeed. It is for checking only: no setting of the library is chosen
+// on it (see HeldOutKind).
+func HeldOutSuite(severities ...int) ([]SuiteCondition, error) {
+	if len(severities) == 0 {
+		severities = []int{1, 2, 3, 4, 5}
+	}
+	for _, v := range severities {
+		if v < MinSeverity || v > MaxSeverity {
+			return nil, fmt.Errorf("datasets: held-out suite severity %d outside %d…%d", v, MinSeverity, MaxSeverity)
+		}
+	}
+	var out []SuiteCondition
+	for _, k := range HeldOutKinds() {
+		for _, v := range severities {
+			c := HeldOut{Kind: k, Severity: v}
+			out = append(out, SuiteCondition{Name: c.String(), Group: GroupHeldOut, Kind: k.String(), Unit: "severity", Level: float64(v), Op: c})
+		}
+	}
+	return out, nil
 }

@@ -147,7 +147,8 @@ func TestPerturbedIsPerImageAndWorkerFree(t *testing.T) {
 // <condition>.idx.gz per DevelopmentSuite condition (test split, seed
 // SuiteSeed, or $STRIATE_SUITE_SEED), and suite.json listing them.
 // $STRIATE_SUITE_LIMIT=N keeps only the first N images of each split (a
-// smoke run).
+// smoke run). $STRIATE_SUITE=heldout writes HeldOutSuite's conditions in
+// place of DevelopmentSuite's.
 func TestWriteSuite(t *testing.T) {
 	dir := os.Getenv("STRIATE_SUITE_OUT")
 	if dir == "" {
@@ -159,6 +160,14 @@ func TestWriteSuite(t *testing.T) {
 		if seed, err = strconv.ParseUint(v, 10, 64); err != nil {
 			t.Fatalf("STRIATE_SUITE_SEED %q: %v", v, err)
 		}
+	}
+	suite := DevelopmentSuite()
+	switch v := os.Getenv("STRIATE_SUITE"); v {
+	case "", "dev":
+	case "heldout":
+		suite, _ = HeldOutSuite()
+	default:
+		t.Fatalf("STRIATE_SUITE %q: want dev or heldout", v)
 	}
 	data := "mnist,fashion"
 	if v := os.Getenv("STRIATE_SUITE_DATA"); v != "" {
@@ -211,7 +220,7 @@ func TestWriteSuite(t *testing.T) {
 			Clean   string
 			Suite   []entry
 		}{Dataset: name, Seed: seed, Clean: "clean.idx.gz"}
-		for _, c := range DevelopmentSuite() {
+		for _, c := range suite {
 			p, err := test.Perturbed(c.Op, seed, 0)
 			if err != nil {
 				t.Fatal(err)

@@ -39,13 +39,16 @@ func RobustLevels(mode string) (map[datasets.PerturbKind][]float64, error) {
 
 // SuiteNames are the names NamedSuite accepts, in the order usage messages
 // list them.
-var SuiteNames = []string{"none", "dev", "mnistc", "grid"}
+var SuiteNames = []string{"none", "dev", "mnistc", "grid", "heldout", "all"}
 
 // NamedSuite returns a development suite by name: nil for "none" (or ""),
 // datasets.DevelopmentSuite() for "dev" (the 15 MNIST-C corruptions at
 // severities 1…5 and the perturbation grid, 131 conditions), the 15 MNIST-C
 // corruptions at datasets.PublishedSeverity for "mnistc" (the parameters
-// Mu & Gilmer 2019 published), and datasets.GridSuite() for "grid".
+// Mu & Gilmer 2019 published), datasets.GridSuite() for "grid",
+// datasets.HeldOutSuite() for "heldout" (7 kinds at severities 1…5, never
+// used to choose settings) and the development suite followed by the
+// held-out one for "all" (166 conditions, what SuiteTargets needs).
 func NamedSuite(name string) ([]datasets.SuiteCondition, error) {
 	switch name {
 	case "", "none":
@@ -56,6 +59,11 @@ func NamedSuite(name string) ([]datasets.SuiteCondition, error) {
 		return datasets.MNISTCSuite(datasets.PublishedSeverity)
 	case "grid":
 		return datasets.GridSuite(), nil
+	case "heldout":
+		return datasets.HeldOutSuite()
+	case "all":
+		h, err := datasets.HeldOutSuite()
+		return append(datasets.DevelopmentSuite(), h...), err
 	}
 	return nil, fmt.Errorf("development suite %q; want %s", name, listOr(SuiteNames))
 }

@@ -55,7 +55,15 @@ func TestNamedSuite(t *testing.T) {
 			t.Errorf("NamedSuite(%q) = %d conditions, %v; want none", name, len(s), err)
 		}
 	}
-	if _, err := NamedSuite("mnist-c"); err == nil || !strings.Contains(err.Error(), "want none, dev, mnistc or grid") {
+	held, err := NamedSuite("heldout")
+	if err != nil || len(held) != 35 || held[0].Group != datasets.GroupHeldOut {
+		t.Errorf("heldout: %d conditions, %v; want the 7 held-out kinds at 5 severities", len(held), err)
+	}
+	all, err := NamedSuite("all")
+	if err != nil || len(all) != len(dev)+len(held) || all[len(dev)].Name != held[0].Name {
+		t.Errorf("all: %d conditions, %v; want dev then heldout", len(all), err)
+	}
+	if _, err := NamedSuite("mnist-c"); err == nil || !strings.Contains(err.Error(), "want none, dev, mnistc, grid, heldout or all") {
 		t.Errorf("NamedSuite(mnist-c): %v; want an error listing the names", err)
 	}
 }

@@ -2,9 +2,12 @@ package eval
 
 import (
 	"encoding/json"
+	"errors"
 	"fmt"
 	"math"
 	"os"
+	"slices"
+	"strings"
 )
 
 // PeerFigures are a peer recognizer's accuracies on a development suite, as
@@ -140,4 +143,64 @@ func (r *SuiteResult) SetPeer(p *PeerFigures) error {
 	s.SuiteSummary = summarise(groups, kinds, s.Points)
 	r.Peer = s
 	return nil
+}
+
+// ReadPeers reads one or more peer figures files, given comma-separated
+// ("lenet5_mnist.json,lenet5_mnist_heldout.json"), with ReadPeer and merges
+// them with MergePeers, so one peer can be shown beside a suite scored in
+// several runs of the peer script.
+func ReadPeers(paths string) (*PeerFigures, error) {
+	list := strings.Split(paths, ",")
+	for _, p := range list {
+		if strings.TrimSpace(p) == "" {
+			return nil, fmt.Errorf("eval: peer figures list %q has an empty entry; give files separated by single commas", paths)
+		}
+	}
+	var all []*PeerFigures
+	for _, p := range list {
+		f, err := ReadPeer(strings.TrimSpace(p), "")
+		if err != nil {
+			return nil, err
+		}
+		all = append(all, f)
+	}
+	return MergePeers(all...)
+}
+
+// MergePeers joins the conditions of figures taken from the same peer
+// models on different suites: they must share the dataset, the suite seed
+// and the training seeds, and their "clean" conditions must agree seed by
+// seed (the clean test images are scored in every run; a difference means
+// the models were trained again, differently). A condition named in two
+// files must agree in the same way; it is kept once.
+func MergePeers(figs ...*PeerFigures) (*PeerFigures, error) {
+	if len(figs) == 0 {
+		return nil, errors.New("eval: no peer figures to merge")
+	}
+	out := *figs[0]
+	out.Conditions = append([]PeerCondition(nil), figs[0].Conditions...)
+	index := map[string]int{}
+	for i, c := range out.Conditions {
+		index[c.Name] = i
+	}
+	for _, f := range figs[1:] {
+		if f.Dataset != out.Dataset || f.SuiteSeed != out.SuiteSeed || !slices.Equal(f.Seeds, out.Seeds) {
+			return nil, fmt.Errorf("eval: peer figures %s (dataset %q, suite seed %d, seeds %v) do not match %s (%q, %d, %v); merge only runs of the same peer models",
+				f.Source, f.Dataset, f.SuiteSeed, f.Seeds, out.Source, out.Dataset, out.SuiteSeed, out.Seeds)
+		}
+		for _, c := range f.Conditions {
+			i, ok := index[c.Name]
+			if !ok {
+				index[c.Name] = len(out.Conditions)
+				out.Conditions = append(out.Conditions, c)
+				continue
+			}
+			if !slices.Equal(c.Accuracy, out.Conditions[i].Accuracy) {
+				return nil, fmt.Errorf("eval: peer figures %s and %s give condition %q accuracies %v and %v; they come from different peer models (rerun both suites with the same weights cache)",
+					out.Source, f.Source, c.Name, out.Conditions[i].Accuracy, c.Accuracy)
+			}
+		}
+		out.Source += "," + f.Source
+	}
+	return &out, nil
 }

@@ -1,8 +1,10 @@
 package eval
 
 import (
+	"encoding/json"
 	"fmt"
 	"math"
+	"os"
 
 	"github.com/striate/striate/datasets"
 )
@@ -55,6 +57,11 @@ type SuiteSummary struct {
 	MeanCorruption  float64    `json:"mean_corruption_accuracy"`
 	CorruptionKinds int        `json:"corruption_kinds"`
 	Worst           *KindScore `json:"worst_kind,omitempty"` // the MNIST-C kind of lowest accuracy (first on ties)
+	// MeanHeldOut is the mean over the held-out kinds (group
+	// datasets.GroupHeldOut) of their per-kind accuracy, 0 with HeldOutKinds
+	// 0 when the suite holds none.
+	MeanHeldOut  float64 `json:"mean_heldout_accuracy,omitempty"`
+	HeldOutKinds int     `json:"heldout_kinds,omitempty"`
 }
 
 // SuiteResult is one model's scores on a development suite.
@@ -87,6 +94,10 @@ func summarise(groups, kinds []string, acc []float64) SuiteSummary {
 	for j := range s.Kinds {
 		ks := &s.Kinds[j]
 		ks.Accuracy /= float64(ks.Conditions)
+		if ks.Group == datasets.GroupHeldOut {
+			s.HeldOutKinds++
+			s.MeanHeldOut += ks.Accuracy
+		}
 		if ks.Group != datasets.GroupMNISTC {
 			continue
 		}
@@ -99,6 +110,9 @@ func summarise(groups, kinds []string, acc []float64) SuiteSummary {
 	}
 	if s.CorruptionKinds > 0 {
 		s.MeanCorruption /= float64(s.CorruptionKinds)
+	}
+	if s.HeldOutKinds > 0 {
+		s.MeanHeldOut /= float64(s.HeldOutKinds)
 	}
 	return s
 }
@@ -275,4 +289,28 @@ func meanOf(xs []float64) float64 {
 		s += x
 	}
 	return s / float64(len(xs))
+}
+
+// ReadSuiteResult reads the first suite result of a results.json written by
+// `striate evaluate --suite … --out DIR` (a Report's "suites"), with its
+// summary recomputed from the points; an attached peer is dropped (attach
+// one with SetPeer).
+func ReadSuiteResult(path string) (*SuiteResult, error) {
+	b, err := os.ReadFile(path)
+	if err != nil {
+		return nil, fmt.Errorf("eval: suite result: %w", err)
+	}
+	var rep struct {
+		Suites []*SuiteResult `json:"suites"`
+	}
+	if err := json.Unmarshal(b, &rep); err != nil {
+		return nil, fmt.Errorf("eval: suite result %s: %w (want the results.json of striate evaluate --suite)", path, err)
+	}
+	if len(rep.Suites) == 0 || rep.Suites[0] == nil || len(rep.Suites[0].Points) == 0 {
+		return nil, fmt.Errorf("eval: suite result %s holds no suite; run striate evaluate with --suite and --out", path)
+	}
+	r := rep.Suites[0]
+	r.Peer = nil
+	r.summarise()
+	return r, nil
 }

@@ -65,6 +65,13 @@ func WriteSuite(w io.Writer, r *SuiteResult) error {
 		}
 		fmt.Fprintln(w)
 	}
+	if r.HeldOutKinds > 0 {
+		fmt.Fprintf(w, "mean accuracy over %d held-out kinds: %.2f%%", r.HeldOutKinds, 100*r.MeanHeldOut)
+		if r.Peer != nil && r.Peer.HeldOutKinds > 0 {
+			fmt.Fprintf(w, " (%s %.2f%%)", r.Peer.Name, 100*r.Peer.MeanHeldOut)
+		}
+		fmt.Fprintln(w)
+	}
 	if r.Worst != nil {
 		_, err := fmt.Fprintf(w, "worst kind: %s, %.2f%%\n", r.Worst.Kind, 100*r.Worst.Accuracy)
 		return err

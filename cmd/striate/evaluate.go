@@ -38,8 +38,9 @@ func init() {
 			fs.StringVar(&o.shard, "shard", "", "evaluate only shard `i/n` (i = 0..n-1; auto or auto/n in a Slurm array task or Kubernetes indexed Job) and write its predictions to --out")
 			fs.BoolVar(&o.merge, "merge", false, "merge the shards found in --out into predictions.npy, scores and a report")
 			fs.StringVar(&o.robust, "robust", "none", "robustness sweep `mode`: none, quick (3 levels per perturbation) or full (4-5 levels)")
-			fs.StringVar(&o.suite, "suite", "none", "development `suite` scored and printed (and reported with --out): none; dev (15 MNIST-C corruptions at severities 1-5 and the perturbation grid, 131 conditions); mnistc (the 15 corruptions at the published severity); grid (the perturbation grid)")
-			fs.StringVar(&o.peer, "peer", "", "peer figures `file` (JSON written by testdata/peer/lenet5.py) shown beside the --suite scores")
+			fs.StringVar(&o.suite, "suite", "none", "development `suite` scored and printed (and reported with --out): none; dev (15 MNIST-C corruptions at severities 1-5 and the perturbation grid, 131 conditions); mnistc (the 15 corruptions at the published severity); grid (the perturbation grid); heldout (7 held-out kinds at severities 1-5, never used to choose settings); all (dev then heldout)")
+			fs.StringVar(&o.peer, "peer", "", "peer figures `files` (comma-separated JSON written by testdata/peer/lenet5.py) shown beside the --suite scores")
+			fs.BoolVar(&o.targets, "targets", false, "print the robustness targets as met / missed (needs --suite all and --peer, --data mnist or fashion)")
 			fs.BoolVar(&o.speed, "speed", false, "also measure throughput, latency and peak heap")
 			fs.IntVar(&o.batch, "batch", 256, "images per prediction batch")
 			g.addSeed(fs)
@@ -56,7 +57,7 @@ func init() {
 type evalOptions struct {
 	model, data, shard, robust string
 	suite, peer                string
-	merge, speed               bool
+	merge, speed, targets      bool
 	batch                      int
 }
 
@@ -139,6 +140,9 @@ func runEvaluate(g *globals, o evalOptions) error {
 	if o.peer != "" && suite == nil {
 		return usagef("--peer needs --suite (%s), the suite the peer figures were taken on", strings.Join(eval.SuiteNames[1:], ", "))
 	}
+	if _, ok := eval.CleanTarget(o.data); o.targets && (!ok || o.suite != "all" || o.peer == "") {
+		return usagef("--targets needs --suite all, --peer and --data mnist or fashion")
+	}
 	m, err := loadModel(o.model)
 	if err != nil {
 		return err
@@ -169,7 +173,7 @@ func runEvaluate(g *globals, o evalOptions) error {
 	}
 	cfg := eval.EvaluateConfig{Levels: levels, Suite: suite, Speed: o.speed, Seed: g.seed, Run: run}
 	if o.peer != "" {
-		if cfg.Peer, err = eval.ReadPeer(o.peer, ""); err != nil {
+		if cfg.Peer, err = eval.ReadPeers(o.peer); err != nil {
 			return fmt.Errorf("--peer: %w", err)
 		}
 	}
@@ -181,6 +185,11 @@ func runEvaluate(g *globals, o evalOptions) error {
 	eval.WriteScores(g.stdout, name, ev.Data, ev.Metrics)
 	if ev.Suite != nil {
 		eval.WriteSuite(g.stdout, ev.Suite)
+	}
+	if o.targets {
+		if err := eval.WriteTargets(g.stdout, ev.Suite, o.data); err != nil {
+			return err
+		}
 	}
 	if g.out == "" {
 		return nil

@@ -314,3 +314,33 @@ func ReadSuiteResult(path string) (*SuiteResult, error) {
 	r.summarise()
 	return r, nil
 }
+
+// MergeSuiteResults joins results of one model scored on different suites
+// (the development suite in one run, the held-out suite in another) into
+// one, points in the order given. They must share the model name, the suite
+// seed and the clean score (the same model on the same test images); no
+// condition may appear twice. Peers are dropped.
+func MergeSuiteResults(rs ...*SuiteResult) (*SuiteResult, error) {
+	if len(rs) == 0 {
+		return nil, fmt.Errorf("eval: no suite results to merge")
+	}
+	out := *rs[0]
+	out.Peer = nil
+	out.Points = nil
+	seen := map[string]bool{}
+	for _, r := range rs {
+		if r.Model != out.Model || r.Seed != out.Seed || r.Clean.N != out.Clean.N || r.Clean.Correct != out.Clean.Correct {
+			return nil, fmt.Errorf("eval: suite results of %s (seed %d, clean %d/%d) and %s (seed %d, clean %d/%d) are not of one model on the same images",
+				out.Model, out.Seed, out.Clean.Correct, out.Clean.N, r.Model, r.Seed, r.Clean.Correct, r.Clean.N)
+		}
+		for _, p := range r.Points {
+			if seen[p.Name] {
+				return nil, fmt.Errorf("eval: suite results of %s both hold condition %q", out.Model, p.Name)
+			}
+			seen[p.Name] = true
+			out.Points = append(out.Points, p)
+		}
+	}
+	out.summarise()
+	return &out, nil
+}

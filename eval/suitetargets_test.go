@@ -79,9 +79,21 @@ func TestSuiteTargets(t *testing.T) {
 		t.Errorf("no peer: %v", err)
 	}
 	r = targetsResult(t)
-	r.Points = r.Points[:4]
-	if _, err := SuiteTargets(r, 0.9); err == nil || !strings.Contains(err.Error(), "heldout") {
+	dev, held := *r, *r
+	dev.Points, held.Points = r.Points[:4], r.Points[4:]
+	if _, err := SuiteTargets(&dev, 0.9); err == nil || !strings.Contains(err.Error(), "heldout") {
 		t.Errorf("no held-out conditions: %v", err)
+	}
+	m, err := MergeSuiteResults(&dev, &held)
+	if err != nil || len(m.Points) != 5 || m.HeldOutKinds != 1 || math.Abs(m.MeanCorruption-0.725) > 1e-12 {
+		t.Errorf("merged %+v, %v", m, err)
+	}
+	if _, err := MergeSuiteResults(&dev, &dev); err == nil || !strings.Contains(err.Error(), "both hold") {
+		t.Errorf("repeated conditions: %v", err)
+	}
+	held.Clean.Correct--
+	if _, err := MergeSuiteResults(&dev, &held); err == nil || !strings.Contains(err.Error(), "one model") {
+		t.Errorf("another clean score: %v", err)
 	}
 }
 
@@ -113,9 +125,10 @@ func TestMergePeers(t *testing.T) {
 }
 
 // TestTargetsFromLongRun prints the targets table of a long run (STRIATE_LONG=1):
-// STRIATE_TARGETS lists DATA=RESULTS.json=PEER[,PEER…] entries separated by
-// ";", RESULTS.json being the results.json `striate evaluate --suite all --out
-// DIR` writes, for example
+// STRIATE_TARGETS lists DATA=RESULTS=PEER[,PEER…] entries separated by
+// ";", RESULTS being the results.json `striate evaluate --suite all --out
+// DIR` writes, or several joined by "+" (a dev run and a heldout run of the
+// same model, MergeSuiteResults), for example
 //
 //	STRIATE_LONG=1 STRIATE_TARGETS='mnist=/tmp/m/results.json=testdata/peer/lenet5_mnist.json,testdata/peer/lenet5_mnist_heldout.json' \
 //	  go test -run TestTargetsFromLongRun -v ./eval
@@ -131,7 +144,15 @@ func TestTargetsFromLongRun(t *testing.T) {
 		if len(parts) != 3 {
 			t.Fatalf("STRIATE_TARGETS entry %q: want DATA=RESULTS.json=PEER[,PEER…]", entry)
 		}
-		r, err := ReadSuiteResult(rootPath(parts[1]))
+		var rs []*SuiteResult
+		for _, f := range strings.Split(parts[1], "+") {
+			r, err := ReadSuiteResult(rootPath(f))
+			if err != nil {
+				t.Fatal(err)
+			}
+			rs = append(rs, r)
+		}
+		r, err := MergeSuiteResults(rs...)
 		if err != nil {
 			t.Fatal(err)
 		}

@@ -312,45 +312,48 @@ func TestSpeckleFollowsDefinition(t *testing.T) {
 // TestOcclusionFollowsDefinition checks Cutout's definition: on an all-white
 // image the black pixels form exactly the rows r0−s/2 … r0+s/2−1 × columns
 // c0−s/2 … c0+s/2−1 clipped to the image, for a centre inside it, and the
-// centres are uniform: over 2,000 seeds every row occurs and the mean row is
+// centres are uniform: over 1,000 seeds every row occurs and the mean row is
 // (h−1)/2 within 4 standard errors (σ of a uniform on 0…h−1 is
 // √((h²−1)/12)).
 func TestOcclusionFollowsDefinition(t *testing.T) {
-	const h, w = 28, 28
+	const h, w, seeds = 28, 28, 1000
 	src := make([]float32, h*w)
 	for i := range src {
 		src[i] = 1
 	}
 	got := make([]float32, h*w)
+	// centre recovers r0 from the black run [lo, hi] of one axis: the run
+	// ends at r0+s/2−1 unless clipped there, else starts at r0−s/2.
+	centre := func(lo, hi, n, side int) (int, bool) {
+		if hi < n-1 {
+			return hi + 1 - side/2, hi-lo+1 == side || lo == 0 && hi-lo+1 < side
+		}
+		return lo + side/2, lo == 0 || hi-lo+1 <= side
+	}
 	for sev := 1; sev <= 5; sev++ {
 		side := int(occlusionS[sev-1])
 		rows := map[int]bool{}
 		var sum float64
-		const seeds = 2000
 		for seed := range uint64(seeds) {
 			HeldOut{Kind: HeldOcclusion, Severity: sev}.Apply(got, src, h, w, seed)
-			found := false
-			for r0 := 0; r0 < h && !found; r0++ {
-				for c0 := 0; c0 < w && !found; c0++ {
-					ok := true
-					for i, v := range got {
-						row, col := i/w, i%w
-						in := row >= r0-side/2 && row < r0+side/2 && col >= c0-side/2 && col < c0+side/2
-						if (v == 0) != in || (v != 0 && v != 1) {
-							ok = false
-							break
-						}
-					}
-					if ok {
-						found = true
-						rows[r0] = true
-						sum += float64(r0)
-					}
+			r0, r1, c0, c1, black := h, -1, w, -1, 0
+			for i, v := range got {
+				if v != 0 && v != 1 {
+					t.Fatalf("occlusion-%d seed %d: pixel %d = %v, want 0 or 1", sev, seed, i, v)
+				}
+				if v == 0 {
+					black++
+					r0, r1, c0, c1 = min(r0, i/w), max(r1, i/w), min(c0, i%w), max(c1, i%w)
 				}
 			}
-			if !found {
-				t.Fatalf("occlusion-%d seed %d: the black pixels are not a clipped %d×%d square", sev, seed, side, side)
+			cr, okr := centre(r0, r1, h, side)
+			cc, okc := centre(c0, c1, w, side)
+			if black == 0 || black != (r1-r0+1)*(c1-c0+1) || !okr || !okc || cr < 0 || cr >= h || cc < 0 || cc >= w {
+				t.Fatalf("occlusion-%d seed %d: black pixels rows %d…%d, columns %d…%d (%d); not a clipped %d×%d square about a pixel",
+					sev, seed, r0, r1, c0, c1, black, side, side)
 			}
+			rows[cr] = true
+			sum += float64(cr)
 		}
 		se := math.Sqrt(float64(h*h-1)/12) / math.Sqrt(seeds)
 		if len(rows) != h || math.Abs(sum/seeds-float64(h-1)/2) > 4*se {

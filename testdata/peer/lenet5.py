@@ -16,6 +16,8 @@ STRIATE_SUITE=heldout, datasets.HeldOutSuite (7 held-out kinds x 5 severities):
 With the optional third argument, CACHE_DIR, each seed's trained weights are saved there and read
 back by later runs, so both suites are scored by the same three models (and the second run trains
 nothing); eval.MergePeers checks that the clean figures of the two files agree.
+STRIATE_PEER_SEEDS=0,1 (say) scores fewer seeds than the protocol's three, for partial runs; the
+output's "seeds" field says which.
 
 Model: Conv(1->6, 5x5, pad 2)-ReLU-MaxPool2-Conv(6->16, 5x5)-ReLU-MaxPool2-FC(400->120)-ReLU-
 FC(120->84)-ReLU-FC(84->10); input u8/255, no normalisation, no augmentation; Adam lr 1e-3,
@@ -31,7 +33,7 @@ import numpy as np
 import torch
 import torch.nn as nn
 
-SEEDS = (0, 1, 2)
+SEEDS = tuple(int(v) for v in os.environ.get("STRIATE_PEER_SEEDS", "0,1,2").split(","))
 EPOCHS = 10
 BATCH = 64
 LR = 1e-3

@@ -289,31 +289,28 @@ func boxSpans(n, m int) (lo, hi []int) {
 // to dh×dw into dst: rows first, then columns, each output the mean of its
 // span rounded half up to a whole grey level (exactly, in integers).
 func boxResize(dst []int, dh, dw int, src []int, sh, sw int) {
-	mean := func(sum, n int) int {
-		if n == 0 {
-			return 0
-		}
-		return (2*sum + n) / (2 * n)
-	}
-	clo, chi := boxSpans(dw, sw)
 	tmp := make([]int, sh*dw)
-	for row := range sh {
-		for j := range dw {
-			sum := 0
-			for i := clo[j]; i < chi[j]; i++ {
-				sum += src[row*sw+i]
+	lo, hi := boxSpans(dw, sw)
+	boxPass(tmp, src, sh, lo, hi, sw, 1, dw, 1) // each row: sw → dw
+	lo, hi = boxSpans(dh, sh)
+	boxPass(dst, tmp, dw, lo, hi, 1, dw, 1, dw) // each column: sh → dh
+}
+
+// boxPass resizes lines of src into dst along one axis: output j of line l
+// is the rounded mean of src[l·srcLine + i·srcStep] for i in [lo[j], hi[j]),
+// stored at dst[l·dstLine + j·dstStep].
+func boxPass(dst, src []int, lines int, lo, hi []int, srcLine, srcStep, dstLine, dstStep int) {
+	for l := range lines {
+		for j := range lo {
+			sum, n := 0, hi[j]-lo[j]
+			for i := lo[j]; i < hi[j]; i++ {
+				sum += src[l*srcLine+i*srcStep]
 			}
-			tmp[row*dw+j] = mean(sum, chi[j]-clo[j])
-		}
-	}
-	rlo, rhi := boxSpans(dh, sh)
-	for i := range dh {
-		for col := range dw {
-			sum := 0
-			for k := rlo[i]; k < rhi[i]; k++ {
-				sum += tmp[k*dw+col]
+			v := 0
+			if n > 0 {
+				v = (2*sum + n) / (2 * n)
 			}
-			dst[i*dw+col] = mean(sum, rhi[i]-rlo[i])
+			dst[l*dstLine+j*dstStep] = v
 		}
 	}
 }

@@ -106,13 +106,9 @@ const (
 // MNISTCSuite returns the 15 MNIST-C corruptions (CorruptionKinds order) at
 // each of the given severities (all of 1…5 when none are given), kind-major.
 func MNISTCSuite(severities ...int) ([]SuiteCondition, error) {
-	if len(severities) == 0 {
-		severities = []int{1, 2, 3, 4, 5}
-	}
-	for _, v := range severities {
-		if v < MinSeverity || v > MaxSeverity {
-			return nil, fmt.Errorf("datasets: suite severity %d outside %d…%d (%d is the published one)", v, MinSeverity, MaxSeverity, PublishedSeverity)
-		}
+	severities, err := suiteSeverities("suite", severities)
+	if err != nil {
+		return nil, err
 	}
 	var out []SuiteCondition
 	for _, k := range CorruptionKinds() {
@@ -176,13 +172,9 @@ func DevelopmentSuite() []SuiteCondition {
 // SuiteSeed. It is for checking only: no setting of the library is chosen
 // on it (see HeldOutKind).
 func HeldOutSuite(severities ...int) ([]SuiteCondition, error) {
-	if len(severities) == 0 {
-		severities = []int{1, 2, 3, 4, 5}
-	}
-	for _, v := range severities {
-		if v < MinSeverity || v > MaxSeverity {
-			return nil, fmt.Errorf("datasets: held-out suite severity %d outside %d…%d", v, MinSeverity, MaxSeverity)
-		}
+	severities, err := suiteSeverities("held-out suite", severities)
+	if err != nil {
+		return nil, err
 	}
 	var out []SuiteCondition
 	for _, k := range HeldOutKinds() {
@@ -192,4 +184,18 @@ func HeldOutSuite(severities ...int) ([]SuiteCondition, error) {
 		}
 	}
 	return out, nil
+}
+
+// suiteSeverities returns the severities a suite is built at: all of 1…5
+// when none are given; it fails on one outside that range.
+func suiteSeverities(what string, severities []int) ([]int, error) {
+	if len(severities) == 0 {
+		return []int{1, 2, 3, 4, 5}, nil
+	}
+	for _, v := range severities {
+		if v < MinSeverity || v > MaxSeverity {
+			return nil, fmt.Errorf("datasets: %s severity %d outside %d…%d (%d is MNIST-C's published one)", what, v, MinSeverity, MaxSeverity, PublishedSeverity)
+		}
+	}
+	return severities, nil
 }

@@ -83,7 +83,8 @@ func TestCLIEvaluateSuite(t *testing.T) {
 		args []string
 		want string
 	}{
-		{[]string{"--suite", "mnist-c"}, "none, dev, mnistc or grid"},
+		{[]string{"--suite", "mnist-c"}, "none, dev, mnistc, grid, heldout or all"},
+		{[]string{"--suite", "dev", "--peer", peerFile, "--targets"}, "--targets needs --suite all"},
 		{[]string{"--peer", peerFile}, "--peer needs --suite"},
 		{[]string{"--suite", "grid", "--out", dir, "--shard", "0/2"}, "run --robust, --suite and --speed unsharded"},
 	} {

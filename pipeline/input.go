@@ -90,17 +90,7 @@ func normalizeInput(buf, img []float32, h, w int, c InputConfig) []float32 {
 	case DenoiseAuto:
 		sd := noiseSigma(buf[3*n:], img[:n], h, w)
 		noisy = sd >= autoLight
-		switch {
-		case sd >= autoHeavy:
-			median3(out, img[:n], h, w)
-			median3(tmp, out, h, w)
-			core(tmp, autoCoreHeavy*sd)
-		case sd >= autoLight:
-			median3(tmp, img[:n], h, w)
-			core(tmp, autoCoreLight*sd)
-		default:
-			copy(tmp, img[:n])
-		}
+		medianPasses(tmp, img[:n], out, h, w, sd)
 	case DenoiseAdaptive:
 		noisy = adaptiveDenoise(tmp, out, buf[2*n:3*n], buf[3*n:], img[:n], h, w)
 	default:
@@ -425,9 +415,9 @@ func median9(p *[9]float32) float32 {
 // line is smaller; a stroke of a digit (a "1" is about 40 pixels) or a
 // garment is far larger. Chosen on validation images (training images
 // 50,000-51,999 of MNIST and Fashion-MNIST, models fitted on the first
-// 10,000) under the whole development suite; see the package's
-// input_suite_long_test.go for the candidates and their figures.
-var (
+// 10,000) under the whole development suite; the candidates and their
+// figures are in TestInputSuiteValidation (input_suite_long_test.go).
+const (
 	areaOpenPx  = 8
 	areaClosePx = 4
 )
@@ -447,21 +437,30 @@ func areaPx(px, h, w int) int {
 // σ̂ estimated on what the area filters left.
 func adaptiveDenoise(dst, tmp, tmp2, scratch, img []float32, h, w int) bool {
 	s := areaPool.Get().(*areaScratch)
-	areaClose(tmp, img, tmp2, h, w, areaPx(areaClosePx, h, w), false, s)
-	areaOpen(dst, tmp, h, w, areaPx(areaOpenPx, h, w), false, s)
+	areaOpen(tmp2, img, h, w, areaPx(areaOpenPx, h, w), false, s)
+	areaClose(tmp, tmp2, dst, h, w, areaPx(areaClosePx, h, w), false, s)
 	areaPool.Put(s)
-	sd := noiseSigma(scratch, dst, h, w)
+	sd := noiseSigma(scratch, tmp, h, w)
+	medianPasses(dst, tmp, tmp2, h, w, sd)
+	return sd >= autoLight
+}
+
+// medianPasses writes src filtered as DenoiseAuto does at the noise level
+// sd into dst: no filter below autoLight, one 3×3 median pass and coring by
+// autoCoreLight·sd up to autoHeavy, two passes and coring by
+// autoCoreHeavy·sd above. tmp holds h·w values; none of the three may alias.
+func medianPasses(dst, src, tmp []float32, h, w int, sd float64) {
 	switch {
 	case sd >= autoHeavy:
-		median3(tmp, dst, h, w)
+		median3(tmp, src, h, w)
 		median3(dst, tmp, h, w)
 		core(dst, autoCoreHeavy*sd)
 	case sd >= autoLight:
-		median3(tmp, dst, h, w)
-		copy(dst, tmp)
+		median3(dst, src, h, w)
 		core(dst, autoCoreLight*sd)
+	default:
+		copy(dst, src)
 	}
-	return sd >= autoLight
 }
 
 // centerRobust writes src moved so that the centre of mass of its 3×3 grey

@@ -3,6 +3,7 @@ package pipeline
 import (
 	"encoding/json"
 	"os"
+	"strings"
 	"testing"
 )
 
@@ -178,5 +179,23 @@ func TestCenterRobustIgnoresLine(t *testing.T) {
 	}
 	if dy, _, _ := massShift(img, h, w); dy == 8 {
 		t.Errorf("the plain centre of mass is not pulled by the line (shift %d): the test shows nothing", dy)
+	}
+}
+
+// TestAdaptiveRobustModesValidate checks that the two modes are accepted and
+// that a bad value's error names them among the valid values.
+func TestAdaptiveRobustModesValidate(t *testing.T) {
+	ok := InputConfig{Denoise: DenoiseAdaptive, Center: CenterRobust}.withDefaults()
+	if err := ok.validate(); err != nil {
+		t.Fatalf("adaptive/robust rejected: %v", err)
+	}
+	for _, c := range []InputConfig{{Denoise: "area"}, {Center: "median"}} {
+		err := c.withDefaults().validate()
+		if err == nil {
+			t.Fatalf("%+v accepted", c)
+		}
+		if want := map[bool]string{true: `"adaptive"`, false: `"robust"`}[c.Denoise != ""]; !strings.Contains(err.Error(), want) {
+			t.Errorf("error %q does not name %s", err, want)
+		}
 	}
 }

@@ -57,6 +57,39 @@
 // always on, is then never applied. Thresholds and how they were chosen (on
 // training images only) are in input.go.
 //
+// # What each input step is robust to, and why
+//
+// A step that only reads a statistic off the image, rather than a level
+// fixed in advance, carries over to conditions nobody tuned it at:
+//
+//   - Min-max stretch: any global change of contrast or brightness that
+//     keeps black below white (an affine map of the grey levels) is undone
+//     exactly. It does not help against a change confined to part of the
+//     image (fog, a stripe inverted).
+//   - Centring on the centre of mass (Center "mass"; LeCun et al. 1998):
+//     any translation of an item that stays inside the frame is undone to
+//     within half a pixel. Stray mass away from the item — a line, specks,
+//     a blob — pulls it. Center "robust" takes the centre of mass of the 3×3
+//     grey opening (Serra 1982, Image Analysis and Mathematical Morphology),
+//     in which every bright structure narrower than 3 px is gone, so lines
+//     and specks crossing or beside the item do not move it.
+//   - Noise estimate (Donoho & Johnstone 1994): the median of the finest
+//     diagonal wavelet coefficients is insensitive to the item's edges
+//     (few coefficients) and follows additive noise of any level; the
+//     median passes and the coring width k·σ̂ follow it.
+//   - Area opening and closing (Denoise "adaptive"; Vincent 1993, with the
+//     union-find algorithm of Meijster & Wilkinson 2002): every bright or
+//     dark connected detail of fewer than a few pixels goes, whatever its
+//     contrast, so salt-and-pepper impulses and the dashes of a dotted line
+//     are removed, while the contour of every larger structure stays
+//     exactly where it was (a connected filter; Salembier & Serra 1995). The
+//     filter is defined by a size, not by a noise level, so it needs no
+//     threshold on σ̂. Detail of an item that a corruption has broken into
+//     fragments smaller than the threshold (strong shot noise, an edge map)
+//     is removed too.
+//   - Deskewing (moments; LeCun et al. 1998) and the upright turn (Hu 1962)
+//     undo a shear or a tilt of the whole item.
+//
 // # Presets
 //
 // Preset("digits") and Preset("garments") are DefaultConfig with the few

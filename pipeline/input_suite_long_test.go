@@ -1,0 +1,205 @@
+package pipeline
+
+import (
+	"encoding/json"
+	"fmt"
+	"os"
+	"path/filepath"
+	"runtime"
+	"strings"
+	"testing"
+
+	"github.com/striate/striate/datasets"
+)
+
+var devVariants = map[string]func(*InputConfig){
+	"base":     func(*InputConfig) {},
+	"adaptive": func(in *InputConfig) { in.Denoise = DenoiseAdaptive },
+	"robust":   func(in *InputConfig) { in.Center = CenterRobust },
+	"both":     func(in *InputConfig) { in.Denoise, in.Center = DenoiseAdaptive, CenterRobust },
+}
+
+func devAcc(m *Model, s *datasets.Set) float64 {
+	imgs := make([][]float32, s.N)
+	for i := range imgs {
+		imgs[i] = s.Float(nil, i)
+	}
+	probs, err := m.PredictBatch(imgs, s.H, s.W, runtime.GOMAXPROCS(0))
+	if err != nil {
+		panic(err)
+	}
+	c := 0
+	for i, p := range probs {
+		best := 0
+		for k, v := range p {
+			if v > p[best] {
+				best = k
+			}
+		}
+		if best == s.Labels[i] {
+			c++
+		}
+	}
+	return float64(c) / float64(s.N)
+}
+
+// TestInputSuiteValidation is how the input stage's settings are chosen
+// (issue 12's rule): a preset pipeline (digits on MNIST, garments on
+// Fashion-MNIST, seed 1) is fitted once on the first 10,000 training
+// images, and each candidate input stage is then scored on validation
+// images from the training split — images 50,000-51,999, never test
+// images — under the whole development suite (datasets.DevelopmentSuite:
+// the 15 MNIST-C kinds at severities 1-5 and the six-kind grid, seed
+// datasets.SuiteSeed). A candidate is judged by the mean over the MNIST-C
+// kinds and by the worst kind, never at one condition. Candidates that
+// change clean images are scored with the model fitted under the preset's
+// own input stage (no refit), which handicaps them slightly.
+//
+// Run (about 10 minutes per candidate on 2 busy cores):
+//
+//	STRIATE_INPUT_SUITE=mnist STRIATE_INPUT_VARIANTS=base,adaptive,robust \
+//	  nice -n 10 go test -v -timeout 2h -run InputSuiteValidation ./pipeline
+//
+// STRIATE_INPUT_DIR, if set, caches the fitted model and writes each
+// candidate's figures there as JSON.
+//
+// Figures (3 Dec 2026; accuracy %, validation images; MNIST-C mean over
+// the 15 kinds; no refit):
+//
+//	candidate                                 MNIST mean / worst   clean
+//	base (denoise auto, center mass)          78.97 / stripe 30.3  98.70
+//	  (Fashion-MNIST, garments preset: 61.04 / stripe 26.2, clean 89.60)
+//	adaptive, open 8 then close 4             80.25 / stripe 29.2  98.45
+//	  (impulse 73.4→95.1, dotted line 74.5→95.4, zigzag 55.9→60.9;
+//	   shot noise 92.8→77.6, canny edges 51.3→42.3)
+//	adaptive, close 4 then open 8             80.27 / stripe 29.2  98.45
+//	  (shot noise 79.0, impulse 94.2; grid noise 88.7→85.8, grid mean
+//	   92.69→92.19: the opening first is kept)
+//	adaptive, open 8 then close 4, Fashion    63.45 / stripe 25.5  89.65
+//	  (from 61.04; impulse 48.3→79.7, dotted line 62.0→83.2, zigzag
+//	   50.2→54.1; shot noise 62.8→55.7, canny edges 36.5→31.7, grid
+//	   noise 66.0→62.4)
+//	robust centring (denoise auto, center robust) 77.18 / stripe 30.3  97.90
+//	  (dotted line 74.5→75.4, zigzag 55.9→56.1; clean −0.8 without refit)
+//
+// Neither is adopted by a preset: the area filters raise the MNIST-C mean
+// on both datasets (+1.3 and +2.4 points) but lower the worst kind and cost shot noise and canny edges (strokes
+// broken into fragments smaller than the area threshold are removed with
+// the noise); robust centring gains little on the line kinds and its clean
+// cost can only be judged after a refit.
+func TestInputSuiteValidation(t *testing.T) {
+	ds := os.Getenv("STRIATE_INPUT_SUITE")
+	if ds != "mnist" && ds != "fashion" {
+		t.Skip("input-stage validation: set STRIATE_INPUT_SUITE=mnist or fashion and STRIATE_INPUT_VARIANTS")
+	}
+	dir := os.Getenv("STRIATE_INPUT_DIR")
+	fashion := ds == "fashion"
+	load, preset := datasets.LoadMNIST, "digits"
+	if fashion {
+		load, preset = datasets.LoadFashionMNIST, "garments"
+	}
+	train, err := load(datasets.Train, "")
+	if err != nil {
+		t.Fatal(err)
+	}
+	idx := make([]int, 2000)
+	for i := range idx {
+		idx[i] = 50000 + i
+	}
+	val := train.Subset(idx)
+	fitSet := train.First(10000)
+	suite := datasets.DevelopmentSuite()
+	sets := make([]*datasets.Set, len(suite))
+	for i, c := range suite {
+		sets[i], err = val.Perturbed(c.Op, datasets.SuiteSeed, runtime.GOMAXPROCS(0))
+		if err != nil {
+			t.Fatal(err)
+		}
+	}
+	models := map[string]*Model{}
+	for _, spec := range strings.Split(os.Getenv("STRIATE_INPUT_VARIANTS"), ",") {
+		refit := strings.HasPrefix(spec, "fit:")
+		name := strings.TrimPrefix(spec, "fit:")
+		mod, ok := devVariants[name]
+		if !ok {
+			t.Fatalf("no variant %q", name)
+		}
+		cfg, _ := Preset(preset)
+		cfg.Seed = 1
+		key := "base"
+		if refit {
+			key = name
+		}
+		mod(&cfg.Input)
+		base := models[key]
+		if base == nil {
+			path := filepath.Join(dir, fmt.Sprintf("%s-%s.striate", ds, key))
+			if base, err = LoadFile(path); dir == "" || err != nil {
+				fc, _ := Preset(preset)
+				fc.Seed = 1
+				if refit {
+					mod(&fc.Input)
+				}
+				if base, err = Fit(fc, fitSet, FitOptions{Workers: runtime.GOMAXPROCS(0)}); err != nil {
+					t.Fatal(err)
+				}
+				if dir != "" {
+					if err := base.SaveFile(path); err != nil {
+						t.Fatal(err)
+					}
+				}
+			}
+			models[key] = base
+		}
+		p2 := *base.plan
+		p2.cfg.Input = cfg.Input.withDefaults()
+		m, err := newModel(&p2, base.classes, base.tmpl, base.guard, base.head)
+		if err != nil {
+			t.Fatal(err)
+		}
+		res := map[string]float64{"clean": devAcc(m, val)}
+		kind := map[string][]float64{}
+		var order []string
+		for i, c := range suite {
+			a := devAcc(m, sets[i])
+			res[c.Name] = a
+			k := c.Group + "/" + c.Kind
+			if kind[k] == nil {
+				order = append(order, k)
+			}
+			kind[k] = append(kind[k], a)
+		}
+		var line strings.Builder
+		mean, n, worst, wk := 0.0, 0, 2.0, ""
+		gmean, gn := 0.0, 0
+		for _, k := range order {
+			s := 0.0
+			for _, v := range kind[k] {
+				s += v
+			}
+			s /= float64(len(kind[k]))
+			res["kind:"+k] = s
+			fmt.Fprintf(&line, " %s=%.1f", strings.SplitN(k, "/", 2)[1], 100*s)
+			if strings.HasPrefix(k, datasets.GroupMNISTC) {
+				mean += s
+				n++
+				if s < worst {
+					worst, wk = s, k
+				}
+			} else {
+				gmean += s
+				gn++
+			}
+		}
+		mean /= float64(max(n, 1))
+		gmean /= float64(max(gn, 1))
+		res["mean"], res["worst"], res["gridmean"] = mean, worst, gmean
+		t.Logf("%s %s: clean %.2f mnistc-mean %.2f worst %s %.1f grid-mean %.2f |%s", ds, spec, 100*res["clean"], 100*mean, wk, 100*worst, 100*gmean, line.String())
+		if dir != "" {
+			b, _ := json.MarshalIndent(res, "", " ")
+			if err := os.WriteFile(filepath.Join(dir, fmt.Sprintf("%s-%s.json", ds, strings.ReplaceAll(spec, ":", "_"))), b, 0o644); err != nil {
+				t.Fatal(err)
+			}
+		}
+	}
+}

@@ -94,7 +94,7 @@ func BenchmarkHeadStep(b *testing.B) {
 				var e nn.Engine
 				var err error
 				if eng == EngineGo {
-					e, err = nn.NewPlain(sp, headKernel(), nil)
+					e, err = nn.NewPlain(sp, headKernels(), nil)
 				} else {
 					e, err = nn.New(sp)
 				}

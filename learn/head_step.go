@@ -139,18 +139,19 @@ func (s *headStepper) update(u int) {
 	}
 }
 
-// headKernel returns the product kernel of the "go" engine. In the SIMD
-// build it is the package's gemmNT (AVX2), except for products with fewer
-// than 16 rows or columns (the class dimension of the output layer), where
-// gonum's blas32 measured faster than the SIMD kernel (BenchmarkHeadStep:
-// softmax step 1.7-2.4 ms with gonum, 6.4-8.0 ms with the SIMD kernel
-// throughout). Elsewhere it is gonum's, always on one goroutine
-// (headGemmSerial): the head's own workers run the chunks in parallel.
-func headKernel() nn.GemmNTFunc {
+// headKernels returns the product kernels of the "go" engine. In the SIMD
+// build they are the package's gemmNT and gemmNN (AVX2 + FMA, six-row
+// assembly tiles), except for products with fewer than 16 rows or columns
+// (the class dimension of the output layer), where gonum's blas32 measured
+// faster than the SIMD kernels (BenchmarkHeadStep: softmax step 1.7-2.4 ms
+// with gonum, 6.4-8.0 ms with the four-row SIMD kernel throughout).
+// Elsewhere they are gonum's, always on one goroutine (headGemmSerial,
+// headGemmNNSerial): the head's own workers run the chunks in parallel.
+func headKernels() nn.Kernels {
 	if reflect.ValueOf(gemmNT).Pointer() == reflect.ValueOf(gemmNTGonum).Pointer() {
-		return headGemmSerial
+		return nn.Kernels{NT: headGemmSerial, NN: headGemmNNSerial}
 	}
-	return headGemm
+	return nn.Kernels{NT: headGemm, NN: headGemmNN}
 }
 
 func headGemm(c, a, b []float32, m, n, p int) {
@@ -159,6 +160,14 @@ func headGemm(c, a, b []float32, m, n, p int) {
 		return
 	}
 	gemmNT(c, a, b, m, n, p)
+}
+
+func headGemmNN(c, a, b []float32, m, n, p int) {
+	if m < 16 || n < 16 {
+		headGemmNNSerial(c, a, b, m, n, p)
+		return
+	}
+	gemmNN(c, a, b, m, n, p)
 }
 
 // gonum's Sgemm splits a product with at least 4 blocks of 64×64 outputs
@@ -174,17 +183,31 @@ const (
 // headGemmSerial computes c = a·bᵀ (a m×p, b n×p, c m×n, row-major) with
 // gonum's blas32 on the calling goroutine.
 func headGemmSerial(c, a, b []float32, m, n, p int) {
-	if m == 0 || n == 0 {
-		return
-	}
+	headTiles(m, n, func(i0, mi, j0, nj int) {
+		blas32.Gemm(blas.NoTrans, blas.Trans, 1,
+			blas32.General{Rows: mi, Cols: p, Stride: p, Data: a[i0*p : (i0+mi)*p]},
+			blas32.General{Rows: nj, Cols: p, Stride: p, Data: b[j0*p : (j0+nj)*p]},
+			0, blas32.General{Rows: mi, Cols: nj, Stride: n, Data: c[i0*n+j0 : (i0+mi-1)*n+j0+nj]})
+	})
+}
+
+// headGemmNNSerial computes c = a·b (a m×p, b p×n, c m×n, row-major) with
+// gonum's blas32 on the calling goroutine.
+func headGemmNNSerial(c, a, b []float32, m, n, p int) {
+	headTiles(m, n, func(i0, mi, j0, nj int) {
+		blas32.Gemm(blas.NoTrans, blas.NoTrans, 1,
+			blas32.General{Rows: mi, Cols: p, Stride: p, Data: a[i0*p : (i0+mi)*p]},
+			blas32.General{Rows: p, Cols: nj, Stride: n, Data: b[j0 : (p-1)*n+j0+nj]},
+			0, blas32.General{Rows: mi, Cols: nj, Stride: n, Data: c[i0*n+j0 : (i0+mi-1)*n+j0+nj]})
+	})
+}
+
+// headTiles calls f(i0, mi, j0, nj) for the tiles of an m×n product.
+func headTiles(m, n int, f func(i0, mi, j0, nj int)) {
 	for i0 := 0; i0 < m; i0 += headTileRows {
 		mi := min(headTileRows, m-i0)
 		for j0 := 0; j0 < n; j0 += headTileCols {
-			nj := min(headTileCols, n-j0)
-			blas32.Gemm(blas.NoTrans, blas.Trans, 1,
-				blas32.General{Rows: mi, Cols: p, Stride: p, Data: a[i0*p : (i0+mi)*p]},
-				blas32.General{Rows: nj, Cols: p, Stride: p, Data: b[j0*p : (j0+nj)*p]},
-				0, blas32.General{Rows: mi, Cols: nj, Stride: n, Data: c[i0*n+j0 : (i0+mi-1)*n+j0+nj]})
+			f(i0, mi, j0, min(headTileCols, n-j0))
 		}
 	}
 }

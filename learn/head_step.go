@@ -119,16 +119,7 @@ func (s *headStepper) update(u int) {
 	p, g := s.params[r.i][r.lo:r.hi], s.grads[r.i][r.lo:r.hi]
 	m := s.st.opt1[r.i][r.lo:r.hi]
 	if s.adam {
-		const b1, b2 = float32(adamBeta1), float32(adamBeta2)
-		step, eps := s.step, s.eps
-		v := s.st.opt2[r.i][r.lo:r.hi]
-		g, m, v = g[:len(p)], m[:len(p)], v[:len(p)]
-		for j := range p {
-			gj := g[j]
-			m[j] = b1*m[j] + (1-b1)*gj
-			v[j] = b2*v[j] + (1-b2)*gj*gj
-			p[j] -= step * m[j] / (float32(math.Sqrt(float64(v[j]))) + eps)
-		}
+		adamRange(p, g, m, s.st.opt2[r.i][r.lo:r.hi], s.step, s.eps)
 		return
 	}
 	mu, a := s.mu, s.step
@@ -136,6 +127,25 @@ func (s *headStepper) update(u int) {
 	for j := range p {
 		m[j] = mu*m[j] + g[j]
 		p[j] -= a * m[j]
+	}
+}
+
+// adamRange applies one Adam step (Kingma & Ba 2015, Algorithm 1, the bias
+// corrections folded into step and eps, see apply) to the parameters p with
+// gradients g and moments m, v, all of one length. The SIMD build replaces
+// it by 8-lane code doing the same float32 operations in the same order
+// (float32 square roots are correctly rounded either way), so both give the
+// same bits (TestAdamRangeMatchesScalar).
+var adamRange = adamRangeGo
+
+func adamRangeGo(p, g, m, v []float32, step, eps float32) {
+	const b1, b2 = float32(adamBeta1), float32(adamBeta2)
+	g, m, v = g[:len(p)], m[:len(p)], v[:len(p)]
+	for j := range p {
+		gj := g[j]
+		m[j] = b1*m[j] + (1-b1)*gj
+		v[j] = b2*v[j] + (1-b2)*gj*gj
+		p[j] -= step * m[j] / (float32(math.Sqrt(float64(v[j]))) + eps)
 	}
 }
 

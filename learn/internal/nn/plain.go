@@ -78,25 +78,25 @@ type Plain struct {
 	x, y   []float32
 	w2t    []float32 // W2ᵀ (H×K), shared by the chunks (mlp)
 	// the whole-batch dAᵀ (H×B) the hidden blocks read (mlp)
-	dat []float32
-	chunks  []plainChunk
-	shared  []bool       // per tensor: summed from chunk shares (else written by the hidden blocks)
-	ranges  []paramRange // reduction units over the parameters
-	sq      []float64    // per range: Σ w² of its weights (L2 term)
-	grads   [][]float32  // the caller's gradients during Eval
+	dat    []float32
+	chunks []plainChunk
+	shared []bool       // per tensor: summed from chunk shares (else written by the hidden blocks)
+	ranges []paramRange // reduction units over the parameters
+	sq     []float64    // per range: Σ w² of its weights (L2 term)
+	grads  [][]float32  // the caller's gradients during Eval
 	// func values made once, so that Eval allocates nothing
 	chunkFn, hiddenFn, reduceFn func(int)
 }
 
 // plainChunk is one row chunk's scratch.
 type plainChunk struct {
-	r0, r1 int       // rows [r0, r1) of the batch
-	z      []float32 // rows×K logits, then dZ
-	at, a  []float32 // activations Aᵀ (H×rows) and A (rows×H) (mlp)
-	da     []float32 // their gradient dAᵀ (H×rows) (mlp)
-	tout   []float32 // the transpose of dZ (K×rows)
-	g         [][]float32 // gradient shares of the shared tensors (chunk 0: the caller's)
-	loss      float64     // Σ over its rows of −log p(y), not yet divided by B
+	r0, r1 int         // rows [r0, r1) of the batch
+	z      []float32   // rows×K logits, then dZ
+	at, a  []float32   // activations Aᵀ (H×rows) and A (rows×H) (mlp)
+	da     []float32   // their gradient dAᵀ (H×rows) (mlp)
+	tout   []float32   // the transpose of dZ (K×rows)
+	g      [][]float32 // gradient shares of the shared tensors (chunk 0: the caller's)
+	loss   float64     // Σ over its rows of −log p(y), not yet divided by B
 }
 
 // paramRange is elements [lo, hi) of parameter tensor i.
@@ -340,13 +340,7 @@ func (p *Plain) reduce(u int) {
 	}
 	p.sq[u] = 0
 	if p.spec.L2 > 0 && (r.i == 0 || r.i == 2) {
-		lam := float32(p.spec.L2)
-		var sq float64
-		for j, v := range p.params[r.i][r.lo:r.hi] {
-			sq += float64(v) * float64(v)
-			dst[j] += lam * v
-		}
-		p.sq[u] = sq
+		p.sq[u] = l2Range(dst, p.params[r.i][r.lo:r.hi], float32(p.spec.L2))
 	}
 }
 

@@ -1,0 +1,18 @@
+package nn
+
+// l2Range adds the L2 term's gradient lam·w to dst (dst[j] += lam·w[j],
+// one float32 multiplication and addition per element) and returns Σ w²,
+// summed in float64. The SIMD build replaces it by an 8-lane version
+// (l2_simd_amd64.go) with the same gradient bits and the sum taken over
+// eight float64 lanes, whose order is fixed by the length alone.
+var l2Range = l2RangeGo
+
+func l2RangeGo(dst, w []float32, lam float32) float64 {
+	var sq float64
+	dst = dst[:len(w)]
+	for j, v := range w {
+		sq += float64(v) * float64(v)
+		dst[j] += lam * v
+	}
+	return sq
+}

@@ -3,6 +3,7 @@ package learn
 import (
 	"math"
 	"math/rand/v2"
+	"strings"
 	"testing"
 )
 
@@ -170,4 +171,46 @@ func BenchmarkGemmNT(b *testing.B) {
 		gemmNT(c, a, w, m, n, p)
 	}
 	b.ReportMetric(2*m*n*p*float64(b.N)/b.Elapsed().Seconds()/1e9, "GFLOP/s")
+}
+
+// TestKernelTilingInvariant: a row of a product does not depend on which
+// tile kernel computes it or on the row blocks, and gemmNN gives gemmNT's
+// bits on the transposed operand, since every element is one chain of
+// multiply-adds in the order of the inner index. The head relies on this:
+// its weight gradients use gemmNN where they used gemmNT of transposed
+// copies, and the chunking of a minibatch must not move a bit.
+func TestKernelTilingInvariant(t *testing.T) {
+	if !strings.HasPrefix(kernelBuild, "simd") {
+		t.Skipf("kernels: %s; gonum's blas32 sums NN and NT products in different orders", kernelBuild)
+	}
+	r := rand.New(rand.NewPCG(7, 8))
+	for _, sh := range [][3]int{{131, 45, 1085}, {23, 19, 128}, {6, 16, 3}} {
+		m, n, p := sh[0], sh[1], sh[2]
+		a, b, bt := make([]float32, m*p), make([]float32, n*p), make([]float32, p*n)
+		for i := range a {
+			a[i] = float32(r.NormFloat64())
+		}
+		for i := range b {
+			b[i] = float32(r.NormFloat64())
+		}
+		for j := 0; j < n; j++ {
+			for q := 0; q < p; q++ {
+				bt[q*n+j] = b[j*p+q]
+			}
+		}
+		whole, nn, row := make([]float32, m*n), make([]float32, m*n), make([]float32, n)
+		gemmNT(whole, a, b, m, n, p)
+		gemmNN(nn, a, bt, m, n, p)
+		for i := 0; i < m; i++ {
+			gemmNT(row, a[i*p:(i+1)*p], b, 1, n, p)
+			for j := 0; j < n; j++ {
+				if math.Float32bits(whole[i*n+j]) != math.Float32bits(row[j]) {
+					t.Fatalf("%v: c[%d][%d] = %v in the whole product, %v computed alone", sh, i, j, whole[i*n+j], row[j])
+				}
+				if math.Float32bits(whole[i*n+j]) != math.Float32bits(nn[i*n+j]) {
+					t.Fatalf("%v: c[%d][%d] = %v by gemmNT, %v by gemmNN", sh, i, j, whole[i*n+j], nn[i*n+j])
+				}
+			}
+		}
+	}
 }

@@ -28,10 +28,11 @@ func st8(p unsafe.Pointer, v archsimd.Float32x8) { v.Store((*[8]float32)(p)) }
 
 var packPool = sync.Pool{New: func() any { return new([]float32) }}
 
-// The two products share their micro-kernels: tile4x16 and tile1x16 hold
-// a 4×16 (or 1×16) tile of the result in 8 (or 2) registers and update it
-// by outer products, one element of each row of a broadcast against two
-// vectors of one row of b per step.
+// The products share their micro-kernels: tile6x16asm (assembly,
+// dictkernel_simd_amd64.s), tile4x16 and tile1x16 hold a 6×16, 4×16 or
+// 1×16 tile of the result in 12, 8 or 2 registers and update it by outer
+// products, one element of each row of a broadcast against two vectors of
+// one row of b per step; tileStrip runs them down a strip of rows.
 
 // tile4x16 computes t_r = Σ_{q<p} a_r[q]·b_q[0..16) for the four rows
 // a_r = a + r·as of a and the rows b_q = b + q·bs of b (offsets in bytes),

@@ -285,10 +285,7 @@ func (p *Plain) evalChunk(c int) {
 	at := ch.at
 	p.gemm(at, p.params[0], x, H, B, D)
 	for h, bh := range p.params[1] {
-		row := at[h*B : (h+1)*B]
-		for i, v := range row {
-			row[i] = max(0, v+bh)
-		}
+		biasReLU(at[h*B:(h+1)*B], bh)
 	}
 	transpose(ch.a, at, H, B, H)
 	p.forwardAffine(ch.z, ch.a, p.params[2], p.params[3], B, H, K)
@@ -303,14 +300,7 @@ func (p *Plain) evalChunk(c int) {
 	p.gemm(da, p.w2t, ch.z, H, B, K)
 	Bw := s.Batch
 	for h := 0; h < H; h++ {
-		src, act := da[h*B:(h+1)*B], at[h*B:(h+1)*B]
-		dst := p.dat[h*Bw+ch.r0 : h*Bw+ch.r1]
-		for i, v := range src {
-			if act[i] <= 0 {
-				v = 0
-			}
-			dst[i] = v
-		}
+		maskReLU(p.dat[h*Bw+ch.r0:h*Bw+ch.r1], da[h*B:(h+1)*B], at[h*B:(h+1)*B])
 	}
 }
 

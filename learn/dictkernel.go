@@ -1,6 +1,7 @@
 package learn
 
 import (
+	"github.com/striate/striate/learn/internal/nn"
 	"gonum.org/v1/gonum/blas"
 	"gonum.org/v1/gonum/blas/blas32"
 )
@@ -10,7 +11,7 @@ import (
 // TestKernelsMatchReference checks whichever is in place.
 var (
 	gemmNT    = gemmNTGonum
-	gemmNN    = gemmNNGonum
+	gemmNN    = nn.GemmNNGonum // c = a·b: the head's weight gradients
 	gemmNNSub = gemmNNSubGonum
 	axpy      = axpyGonum
 	// kernelBuild names the kernels in use, for benchmark logs.
@@ -27,19 +28,6 @@ func gemmNTGonum(c, a, b []float32, m, n, p int) {
 	blas32.Gemm(blas.NoTrans, blas.Trans, 1,
 		blas32.General{Rows: m, Cols: p, Stride: p, Data: a},
 		blas32.General{Rows: n, Cols: p, Stride: p, Data: b},
-		0, blas32.General{Rows: m, Cols: n, Stride: n, Data: c})
-}
-
-// gemmNNGonum computes c = a·b for a (m×p), b (p×n), c (m×n), all
-// row-major and contiguous: the head's weight gradients dZᵀ·X read the
-// minibatch in place.
-func gemmNNGonum(c, a, b []float32, m, n, p int) {
-	if m == 0 || n == 0 {
-		return
-	}
-	blas32.Gemm(blas.NoTrans, blas.NoTrans, 1,
-		blas32.General{Rows: m, Cols: p, Stride: p, Data: a},
-		blas32.General{Rows: p, Cols: n, Stride: n, Data: b},
 		0, blas32.General{Rows: m, Cols: n, Stride: n, Data: c})
 }
 

@@ -14,65 +14,49 @@ import (
 func TestKernelsMatchReference(t *testing.T) {
 	t.Logf("kernels: %s", kernelBuild)
 	r := rand.New(rand.NewPCG(1, 2))
-	for _, sh := range [][3]int{{1, 1, 1}, {4, 16, 8}, {5, 17, 3}, {7, 33, 64}, {256, 256, 256}, {3, 9, 1}, {13, 15, 20}, {131, 29, 1085}, {6, 16, 5}, {11, 40, 7}} {
-		m, n, p := sh[0], sh[1], sh[2]
-		a := make([]float32, m*p)
-		b := make([]float32, n*p)
-		for i := range a {
-			a[i] = float32(r.NormFloat64())
-		}
-		for i := range b {
-			b[i] = float32(r.NormFloat64())
-		}
-		c := make([]float32, m*n)
-		for i := range c {
-			c[i] = 99 // must be overwritten
-		}
-		gemmNT(c, a, b, m, n, p)
-		var worst float64
-		for i := 0; i < m; i++ {
-			for j := 0; j < n; j++ {
-				var s float64
-				for q := 0; q < p; q++ {
-					s += float64(a[i*p+q]) * float64(b[j*p+q])
-				}
-				// float32 accumulation error grows like sqrt(p)·ε·|terms|
-				worst = math.Max(worst, math.Abs(float64(c[i*n+j])-s)/math.Sqrt(float64(p)))
+	for _, k := range []struct {
+		name   string
+		f      func(c, a, b []float32, m, n, p int)
+		bt     bool // b is p×n (c = a·b), else n×p (c = a·bᵀ)
+		shapes [][3]int
+	}{
+		{"gemmNT", gemmNT, false, [][3]int{{1, 1, 1}, {4, 16, 8}, {5, 17, 3}, {7, 33, 64}, {256, 256, 256}, {3, 9, 1}, {13, 15, 20}, {131, 29, 1085}, {6, 16, 5}, {11, 40, 7}}},
+		{"gemmNN", gemmNN, true, [][3]int{{1, 1, 1}, {4, 16, 8}, {5, 17, 3}, {7, 33, 64}, {256, 256, 256}, {3, 9, 1}, {13, 15, 20}, {131, 29, 1085}, {359, 61, 128}, {11, 40, 7}}},
+	} {
+		for _, sh := range k.shapes {
+			m, n, p := sh[0], sh[1], sh[2]
+			a := make([]float32, m*p)
+			b := make([]float32, n*p)
+			for i := range a {
+				a[i] = float32(r.NormFloat64())
 			}
-		}
-		const gemmTol = 1e-5 // per sqrt(p), for N(0,1) entries: ~10 float32 ulps
-		if worst > gemmTol {
-			t.Errorf("gemmNT %v: error %.3g (per √p) > %g", sh, worst, gemmTol)
-		}
-	}
-	for _, sh := range [][3]int{{1, 1, 1}, {4, 16, 8}, {5, 17, 3}, {7, 33, 64}, {256, 256, 256}, {3, 9, 1}, {13, 15, 20}, {131, 29, 1085}, {359, 61, 128}, {11, 40, 7}} {
-		m, n, p := sh[0], sh[1], sh[2]
-		a := make([]float32, m*p)
-		b := make([]float32, p*n)
-		for i := range a {
-			a[i] = float32(r.NormFloat64())
-		}
-		for i := range b {
-			b[i] = float32(r.NormFloat64())
-		}
-		c := make([]float32, m*n)
-		for i := range c {
-			c[i] = 99 // must be overwritten
-		}
-		gemmNN(c, a, b, m, n, p)
-		var worst float64
-		for i := 0; i < m; i++ {
-			for j := 0; j < n; j++ {
-				var s float64
-				for q := 0; q < p; q++ {
-					s += float64(a[i*p+q]) * float64(b[q*n+j])
-				}
-				worst = math.Max(worst, math.Abs(float64(c[i*n+j])-s)/math.Sqrt(float64(p)))
+			for i := range b {
+				b[i] = float32(r.NormFloat64())
 			}
-		}
-		const gemmTol = 1e-5 // as for gemmNT
-		if worst > gemmTol {
-			t.Errorf("gemmNN %v: error %.3g (per √p) > %g", sh, worst, gemmTol)
+			bAt := func(j, q int) float32 { return b[j*p+q] }
+			if k.bt {
+				bAt = func(j, q int) float32 { return b[q*n+j] }
+			}
+			c := make([]float32, m*n)
+			for i := range c {
+				c[i] = 99 // must be overwritten
+			}
+			k.f(c, a, b, m, n, p)
+			var worst float64
+			for i := 0; i < m; i++ {
+				for j := 0; j < n; j++ {
+					var s float64
+					for q := 0; q < p; q++ {
+						s += float64(a[i*p+q]) * float64(bAt(j, q))
+					}
+					// float32 accumulation error grows like sqrt(p)·ε·|terms|
+					worst = math.Max(worst, math.Abs(float64(c[i*n+j])-s)/math.Sqrt(float64(p)))
+				}
+			}
+			const gemmTol = 1e-5 // per sqrt(p), for N(0,1) entries: ~10 float32 ulps
+			if worst > gemmTol {
+				t.Errorf("%s %v: error %.3g (per √p) > %g", k.name, sh, worst, gemmTol)
+			}
 		}
 	}
 	for _, sh := range [][3]int{{1, 1, 1}, {4, 16, 8}, {5, 17, 3}, {7, 33, 64}, {16, 256, 256}, {14, 48, 30}, {3, 9, 1}, {13, 100, 20}} {

@@ -175,26 +175,22 @@ func TestBadSpec(t *testing.T) {
 // safe bound that any wrong formula (an O(1) error) still fails.
 const plainTol = 1e-4
 
-// naiveGemmNT is the textbook triple loop, in float64.
+// naiveGemmNT and naiveGemmNN are the textbook triple loops of c = a·bᵀ
+// and c = a·b, in float64.
 func naiveGemmNT(c, a, b []float32, m, n, p int) {
-	for i := 0; i < m; i++ {
-		for j := 0; j < n; j++ {
-			var s float64
-			for l := 0; l < p; l++ {
-				s += float64(a[i*p+l]) * float64(b[j*p+l])
-			}
-			c[i*n+j] = float32(s)
-		}
-	}
+	naiveGemm(c, a, m, n, p, func(j, l int) float32 { return b[j*p+l] })
 }
 
-// naiveGemmNN is the textbook triple loop of c = a·b, in float64.
 func naiveGemmNN(c, a, b []float32, m, n, p int) {
+	naiveGemm(c, a, m, n, p, func(j, l int) float32 { return b[l*n+j] })
+}
+
+func naiveGemm(c, a []float32, m, n, p int, bAt func(j, l int) float32) {
 	for i := 0; i < m; i++ {
 		for j := 0; j < n; j++ {
 			var s float64
 			for l := 0; l < p; l++ {
-				s += float64(a[i*p+l]) * float64(b[l*n+j])
+				s += float64(a[i*p+l]) * float64(bAt(j, l))
 			}
 			c[i*n+j] = float32(s)
 		}

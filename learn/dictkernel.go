@@ -1,6 +1,7 @@
 package learn
 
 import (
+	"github.com/striate/striate/learn/internal/nn"
 	"gonum.org/v1/gonum/blas"
 	"gonum.org/v1/gonum/blas/blas32"
 )
@@ -10,6 +11,7 @@ import (
 // TestKernelsMatchReference checks whichever is in place.
 var (
 	gemmNT    = gemmNTGonum
+	gemmNN    = nn.GemmNNGonum // c = a·b: the head's weight gradients
 	gemmNNSub = gemmNNSubGonum
 	axpy      = axpyGonum
 	// kernelBuild names the kernels in use, for benchmark logs.

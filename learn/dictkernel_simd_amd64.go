@@ -17,7 +17,7 @@ import (
 // 256-float axpy measured 185 ns instead of 50 on the 2-core EPYC.
 func init() {
 	if archsimd.X86.AVX2() && archsimd.X86.FMA() {
-		gemmNT, gemmNNSub, axpy = gemmNTSIMD, gemmNNSubSIMD, axpySIMD
+		gemmNT, gemmNN, gemmNNSub, axpy = gemmNTSIMD, gemmNNSIMD, gemmNNSubSIMD, axpySIMD
 		kernelBuild = "simd (GOEXPERIMENT=simd, AVX2+FMA, 8 float32 lanes)"
 	}
 }
@@ -28,10 +28,11 @@ func st8(p unsafe.Pointer, v archsimd.Float32x8) { v.Store((*[8]float32)(p)) }
 
 var packPool = sync.Pool{New: func() any { return new([]float32) }}
 
-// The two products share their micro-kernels: tile4x16 and tile1x16 hold
-// a 4×16 (or 1×16) tile of the result in 8 (or 2) registers and update it
-// by outer products, one element of each row of a broadcast against two
-// vectors of one row of b per step.
+// The products share their micro-kernels: tile6x16asm (assembly,
+// dictkernel_simd_amd64.s), tile4x16 and tile1x16 hold a 6×16, 4×16 or
+// 1×16 tile of the result in 12, 8 or 2 registers and update it by outer
+// products, one element of each row of a broadcast against two vectors of
+// one row of b per step; tileStrip runs them down a strip of rows.
 
 // tile4x16 computes t_r = Σ_{q<p} a_r[q]·b_q[0..16) for the four rows
 // a_r = a + r·as of a and the rows b_q = b + q·bs of b (offsets in bytes),
@@ -105,10 +106,49 @@ func tile1x16(c, a, b unsafe.Pointer, bs uintptr, p int, sub bool) {
 	st8(unsafe.Add(c, 32), c1)
 }
 
+//go:noescape
+func tile6x16asm(c unsafe.Pointer, cs uintptr, a unsafe.Pointer, as uintptr, b unsafe.Pointer, bs uintptr, p int, sub int)
+
+// tileStrip computes the m×16 strip t = a·b16 for rows a_i = a + i·as
+// (i < m) and the p rows b_q = b + q·bs of a 16-column strip of b, stored
+// at c + i·cs (or subtracted with sub): six rows at a time by the assembly
+// kernel (12 accumulators; the Go kernels above spend more instructions on
+// register moves than on multiply-adds), the rest four rows and one row at
+// a time. Every element is one chain of fused multiply-adds in the order
+// q = 0, 1, …, p−1, whichever kernel computes it, so the result does not
+// depend on the tiling.
+func tileStrip(c unsafe.Pointer, cs uintptr, a unsafe.Pointer, as uintptr, b unsafe.Pointer, bs uintptr, m, p int, sub bool) {
+	s := 0
+	if sub {
+		s = 1
+	}
+	i := 0
+	for ; i+6 <= m; i += 6 {
+		tile6x16asm(unsafe.Add(c, uintptr(i)*cs), cs, unsafe.Add(a, uintptr(i)*as), as, b, bs, p, s)
+	}
+	for ; i+4 <= m; i += 4 {
+		tile4x16(unsafe.Add(c, uintptr(i)*cs), cs, unsafe.Add(a, uintptr(i)*as), as, b, bs, p, sub)
+	}
+	for ; i < m; i++ {
+		tile1x16(unsafe.Add(c, uintptr(i)*cs), unsafe.Add(a, uintptr(i)*as), b, bs, p, sub)
+	}
+}
+
+// tileRowBlock is the number of rows of a that gemmNTSIMD and gemmNNSIMD
+// run against every 16-column strip of b before moving on: rows of
+// tileBlockBytes in all, so that the block stays in the L2 cache (1 MB
+// per core on Zen 4, 256 KB and up on other AVX2 cores) while the strips
+// pass, a multiple of the assembly kernel's six rows.
+const tileBlockBytes = 192 << 10
+
+func tileRowBlock(p int) int {
+	return max(6, tileBlockBytes/(4*p)/6*6)
+}
+
 // gemmNTSIMD is gemmNTGonum. b is packed into panels of 16 rows stored
 // column-interleaved (panel[q*16+c] = b[(j0+c)*p+q], zero past n), so that
 // the tile kernels read the panel's rows 64 bytes apart. Tiles that reach
-// past column n go through a 4×16 buffer.
+// past column n go through a 6×16 buffer.
 func gemmNTSIMD(c, a, b []float32, m, n, p int) {
 	if m == 0 || n == 0 {
 		return
@@ -142,28 +182,77 @@ func gemmNTSIMD(c, a, b []float32, m, n, p int) {
 			}
 		}
 	}
-	var tile [4 * 16]float32
+	var tile [6 * 16]float32
 	tp := unsafe.Pointer(&tile[0])
 	as := uintptr(4 * p)
-	for jp := 0; jp < np; jp++ {
-		panel := unsafe.Pointer(unsafe.SliceData(pk[jp*16*p:]))
-		j0 := jp * 16
-		full := j0+16 <= n
-		i := 0
-		for ; i+4 <= m; i += 4 {
-			ai := unsafe.Pointer(unsafe.SliceData(a[i*p:]))
-			if full {
-				tile4x16(unsafe.Pointer(unsafe.SliceData(c[i*n+j0:])), uintptr(4*n), ai, as, panel, 64, p, false)
+	rb := tileRowBlock(p)
+	for i0 := 0; i0 < m; i0 += rb {
+		mi := min(rb, m-i0)
+		ai := unsafe.Pointer(unsafe.SliceData(a[i0*p:]))
+		for jp := 0; jp < np; jp++ {
+			panel := unsafe.Pointer(unsafe.SliceData(pk[jp*16*p:]))
+			j0 := jp * 16
+			if j0+16 <= n {
+				tileStrip(unsafe.Pointer(unsafe.SliceData(c[i0*n+j0:])), uintptr(4*n), ai, as, panel, 64, mi, p, false)
 				continue
 			}
-			tile4x16(tp, 64, ai, as, panel, 64, p, false)
-			for r := 0; r < 4; r++ {
-				copy(c[(i+r)*n+j0:(i+r)*n+n], tile[r*16:r*16+n-j0])
+			for r0 := 0; r0 < mi; r0 += 6 {
+				rows := min(6, mi-r0)
+				tileStrip(tp, 64, unsafe.Add(ai, uintptr(r0)*as), as, panel, 64, rows, p, false)
+				for r := 0; r < rows; r++ {
+					i := i0 + r0 + r
+					copy(c[i*n+j0:i*n+n], tile[r*16:r*16+n-j0])
+				}
 			}
 		}
-		for ; i < m; i++ { // remaining rows, one at a time
-			tile1x16(tp, unsafe.Pointer(unsafe.SliceData(a[i*p:])), panel, 64, p, false)
-			copy(c[i*n+j0:i*n+min(n, j0+16)], tile[:min(16, n-j0)])
+	}
+	archsimd.ClearAVXUpperBits()
+	packPool.Put(bufp)
+}
+
+// gemmNNSIMD computes c = a·b for a (m×p), b (p×n), c (m×n), all row-major
+// and contiguous, as gemmNTSIMD does, each 16-column strip of b copied
+// into a contiguous p×16 panel first (zero-padded past n): read in place,
+// a strip's rows lie 4n bytes apart, one page each for a wide b, and the
+// data TLB misses cost more than the copy.
+func gemmNNSIMD(c, a, b []float32, m, n, p int) {
+	if m == 0 || n == 0 {
+		return
+	}
+	if len(a) < m*p || len(b) < p*n || len(c) < m*n {
+		panic("learn: internal error: gemmNNSIMD slice too short")
+	}
+	if p == 0 {
+		clear(c[:m*n])
+		return
+	}
+	bufp := packPool.Get().(*[]float32)
+	if cap(*bufp) < 16*p {
+		*bufp = make([]float32, 16*p)
+	}
+	pk := (*bufp)[:16*p]
+	panel := unsafe.Pointer(unsafe.SliceData(pk))
+	var tile [6 * 16]float32
+	tp := unsafe.Pointer(&tile[0])
+	as := uintptr(4 * p)
+	ap := unsafe.Pointer(unsafe.SliceData(a))
+	for j0 := 0; j0 < n; j0 += 16 {
+		w := min(16, n-j0)
+		for q := 0; q < p; q++ {
+			copy(pk[q*16:q*16+w], b[q*n+j0:q*n+j0+w])
+			clear(pk[q*16+w : (q+1)*16])
+		}
+		if w == 16 {
+			tileStrip(unsafe.Pointer(unsafe.SliceData(c[j0:])), uintptr(4*n), ap, as, panel, 64, m, p, false)
+			continue
+		}
+		for r0 := 0; r0 < m; r0 += 6 {
+			rows := min(6, m-r0)
+			tileStrip(tp, 64, unsafe.Add(ap, uintptr(r0)*as), as, panel, 64, rows, p, false)
+			for r := 0; r < rows; r++ {
+				i := r0 + r
+				copy(c[i*n+j0:i*n+n], tile[r*16:r*16+w])
+			}
 		}
 	}
 	archsimd.ClearAVXUpperBits()
@@ -183,18 +272,9 @@ func gemmNNSubSIMD(c, a, b []float32, m, n, p int) {
 	n16 := n &^ 15
 	rs := uintptr(4 * n) // row stride of b and c in bytes
 	as := uintptr(4 * p)
-	i := 0
-	for ; i+4 <= m; i += 4 {
-		ai := unsafe.Pointer(unsafe.SliceData(a[i*p:]))
-		for j := 0; j < n16; j += 16 {
-			tile4x16(unsafe.Pointer(unsafe.SliceData(c[i*n+j:])), rs, ai, as, unsafe.Pointer(unsafe.SliceData(b[j:])), rs, p, true)
-		}
-	}
-	for ; i < m; i++ { // remaining rows: one row of a at a time
-		ai := unsafe.Pointer(unsafe.SliceData(a[i*p:]))
-		for j := 0; j < n16; j += 16 {
-			tile1x16(unsafe.Pointer(unsafe.SliceData(c[i*n+j:])), ai, unsafe.Pointer(unsafe.SliceData(b[j:])), rs, p, true)
-		}
+	ap := unsafe.Pointer(unsafe.SliceData(a))
+	for j := 0; j < n16; j += 16 {
+		tileStrip(unsafe.Pointer(unsafe.SliceData(c[j:])), rs, ap, as, unsafe.Pointer(unsafe.SliceData(b[j:])), rs, m, p, true)
 	}
 	archsimd.ClearAVXUpperBits()
 	if n16 == n {

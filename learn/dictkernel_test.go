@@ -3,47 +3,63 @@ package learn
 import (
 	"math"
 	"math/rand/v2"
+	"strings"
 	"testing"
 )
 
 // TestKernelsMatchReference checks the dense kernels in use (gonum's, or
 // the SIMD ones under GOEXPERIMENT=simd) against a float64 triple loop on
-// shapes that exercise every edge case of the 4×16 tiling.
+// shapes that exercise every edge case of the 6×16, 4×16 and 1×16 tiles and
+// of the row blocks (60 rows at p = 1,085; 354 at p = 128).
 func TestKernelsMatchReference(t *testing.T) {
 	t.Logf("kernels: %s", kernelBuild)
 	r := rand.New(rand.NewPCG(1, 2))
-	for _, sh := range [][3]int{{1, 1, 1}, {4, 16, 8}, {5, 17, 3}, {7, 33, 64}, {256, 256, 256}, {3, 9, 1}, {13, 15, 20}} {
-		m, n, p := sh[0], sh[1], sh[2]
-		a := make([]float32, m*p)
-		b := make([]float32, n*p)
-		for i := range a {
-			a[i] = float32(r.NormFloat64())
-		}
-		for i := range b {
-			b[i] = float32(r.NormFloat64())
-		}
-		c := make([]float32, m*n)
-		for i := range c {
-			c[i] = 99 // must be overwritten
-		}
-		gemmNT(c, a, b, m, n, p)
-		var worst float64
-		for i := 0; i < m; i++ {
-			for j := 0; j < n; j++ {
-				var s float64
-				for q := 0; q < p; q++ {
-					s += float64(a[i*p+q]) * float64(b[j*p+q])
+	for _, k := range []struct {
+		name   string
+		f      func(c, a, b []float32, m, n, p int)
+		bt     bool // b is p×n (c = a·b), else n×p (c = a·bᵀ)
+		shapes [][3]int
+	}{
+		{"gemmNT", gemmNT, false, [][3]int{{1, 1, 1}, {4, 16, 8}, {5, 17, 3}, {7, 33, 64}, {256, 256, 256}, {3, 9, 1}, {13, 15, 20}, {131, 29, 1085}, {6, 16, 5}, {11, 40, 7}}},
+		{"gemmNN", gemmNN, true, [][3]int{{1, 1, 1}, {4, 16, 8}, {5, 17, 3}, {7, 33, 64}, {256, 256, 256}, {3, 9, 1}, {13, 15, 20}, {131, 29, 1085}, {359, 61, 128}, {11, 40, 7}}},
+	} {
+		for _, sh := range k.shapes {
+			m, n, p := sh[0], sh[1], sh[2]
+			a := make([]float32, m*p)
+			b := make([]float32, n*p)
+			for i := range a {
+				a[i] = float32(r.NormFloat64())
+			}
+			for i := range b {
+				b[i] = float32(r.NormFloat64())
+			}
+			bAt := func(j, q int) float32 { return b[j*p+q] }
+			if k.bt {
+				bAt = func(j, q int) float32 { return b[q*n+j] }
+			}
+			c := make([]float32, m*n)
+			for i := range c {
+				c[i] = 99 // must be overwritten
+			}
+			k.f(c, a, b, m, n, p)
+			var worst float64
+			for i := 0; i < m; i++ {
+				for j := 0; j < n; j++ {
+					var s float64
+					for q := 0; q < p; q++ {
+						s += float64(a[i*p+q]) * float64(bAt(j, q))
+					}
+					// float32 accumulation error grows like sqrt(p)·ε·|terms|
+					worst = math.Max(worst, math.Abs(float64(c[i*n+j])-s)/math.Sqrt(float64(p)))
 				}
-				// float32 accumulation error grows like sqrt(p)·ε·|terms|
-				worst = math.Max(worst, math.Abs(float64(c[i*n+j])-s)/math.Sqrt(float64(p)))
+			}
+			const gemmTol = 1e-5 // per sqrt(p), for N(0,1) entries: ~10 float32 ulps
+			if worst > gemmTol {
+				t.Errorf("%s %v: error %.3g (per √p) > %g", k.name, sh, worst, gemmTol)
 			}
 		}
-		const gemmTol = 1e-5 // per sqrt(p), for N(0,1) entries: ~10 float32 ulps
-		if worst > gemmTol {
-			t.Errorf("gemmNT %v: error %.3g (per √p) > %g", sh, worst, gemmTol)
-		}
 	}
-	for _, sh := range [][3]int{{1, 1, 1}, {4, 16, 8}, {5, 17, 3}, {7, 33, 64}, {16, 256, 256}, {3, 9, 1}, {13, 100, 20}} {
+	for _, sh := range [][3]int{{1, 1, 1}, {4, 16, 8}, {5, 17, 3}, {7, 33, 64}, {16, 256, 256}, {14, 48, 30}, {3, 9, 1}, {13, 100, 20}} {
 		m, n, p := sh[0], sh[1], sh[2]
 		a := make([]float32, m*p)
 		b := make([]float32, p*n)
@@ -139,4 +155,46 @@ func BenchmarkGemmNT(b *testing.B) {
 		gemmNT(c, a, w, m, n, p)
 	}
 	b.ReportMetric(2*m*n*p*float64(b.N)/b.Elapsed().Seconds()/1e9, "GFLOP/s")
+}
+
+// TestKernelTilingInvariant: a row of a product does not depend on which
+// tile kernel computes it or on the row blocks, and gemmNN gives gemmNT's
+// bits on the transposed operand, since every element is one chain of
+// multiply-adds in the order of the inner index. The head relies on this:
+// its weight gradients use gemmNN where they used gemmNT of transposed
+// copies, and the chunking of a minibatch must not move a bit.
+func TestKernelTilingInvariant(t *testing.T) {
+	if !strings.HasPrefix(kernelBuild, "simd") {
+		t.Skipf("kernels: %s; gonum's blas32 sums NN and NT products in different orders", kernelBuild)
+	}
+	r := rand.New(rand.NewPCG(7, 8))
+	for _, sh := range [][3]int{{131, 45, 1085}, {23, 19, 128}, {6, 16, 3}} {
+		m, n, p := sh[0], sh[1], sh[2]
+		a, b, bt := make([]float32, m*p), make([]float32, n*p), make([]float32, p*n)
+		for i := range a {
+			a[i] = float32(r.NormFloat64())
+		}
+		for i := range b {
+			b[i] = float32(r.NormFloat64())
+		}
+		for j := 0; j < n; j++ {
+			for q := 0; q < p; q++ {
+				bt[q*n+j] = b[j*p+q]
+			}
+		}
+		whole, nn, row := make([]float32, m*n), make([]float32, m*n), make([]float32, n)
+		gemmNT(whole, a, b, m, n, p)
+		gemmNN(nn, a, bt, m, n, p)
+		for i := 0; i < m; i++ {
+			gemmNT(row, a[i*p:(i+1)*p], b, 1, n, p)
+			for j := 0; j < n; j++ {
+				if math.Float32bits(whole[i*n+j]) != math.Float32bits(row[j]) {
+					t.Fatalf("%v: c[%d][%d] = %v in the whole product, %v computed alone", sh, i, j, whole[i*n+j], row[j])
+				}
+				if math.Float32bits(whole[i*n+j]) != math.Float32bits(nn[i*n+j]) {
+					t.Fatalf("%v: c[%d][%d] = %v by gemmNT, %v by gemmNN", sh, i, j, whole[i*n+j], nn[i*n+j])
+				}
+			}
+		}
+	}
 }

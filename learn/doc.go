@@ -201,10 +201,19 @@
 // Engine "go" (the default) is a hand-written backward pass on float32
 // products, checked against gorgonia's gradients, and is faster because it
 // skips the input gradient and gorgonia's per-op allocations. Every product
-// is one c = a·bᵀ call: the package's AVX2/FMA kernel in the
-// GOEXPERIMENT=simd build (except the thin class-dimension products, where
-// gonum is faster), gonum's blas32 elsewhere, always on the calling
-// goroutine.
+// is one c = a·bᵀ call (forward passes, dA) or one c = a·b call (weight
+// gradients dW = dZᵀ·X, reading the minibatch where it lies): the package's
+// AVX2/FMA kernels in the GOEXPERIMENT=simd build, gonum's blas32
+// elsewhere, always on the calling goroutine. The SIMD kernels pack the
+// second operand into 16-column panels and run them against six rows of
+// the first at a time in an assembly tile that holds the 6×16 result in
+// twelve registers (dictkernel_simd_amd64.s; the archsimd tiles spend more
+// instructions on register moves than on multiply-adds), in blocks of rows
+// that stay in the L2 cache. Each output element is one chain of fused
+// multiply-adds in the order of the inner index, whichever tile computes
+// it, so neither the tiling nor the minibatch chunks below move a bit. The
+// Adam update and the L2 term run on 8 lanes in the same build, with the
+// scalar loops' operations in the scalar order.
 //
 // A step runs on HeadFitOptions.Workers goroutines. The work is cut into
 // units fixed by the data and the config, never by the worker count, and

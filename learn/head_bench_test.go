@@ -82,19 +82,22 @@ func BenchmarkHeadPredict(b *testing.B) {
 }
 
 // BenchmarkHeadStep times one minibatch gradient evaluation of each engine
-// at the full-MNIST head's shapes (2,000 features, 10 classes); with
-// GOEXPERIMENT=simd the "go" engine uses the AVX2 product kernel.
+// at 2,000 features and at the full-MNIST head's shapes (1,085 features,
+// 512 hidden units, the fit's 4 chunks), 10 classes, on one goroutine;
+// with GOEXPERIMENT=simd the "go" engine uses the AVX2 product kernels.
 func BenchmarkHeadStep(b *testing.B) {
 	for _, sp := range []nn.Spec{
 		{In: 2000, Out: 10, Batch: 128, L2: 1e-4},
 		{In: 2000, Hidden: 256, Out: 10, Batch: 128, L2: 1e-4},
+		{In: 1085, Out: 10, Batch: 128, L2: 1e-4, Chunks: headChunks(128)},
+		{In: 1085, Hidden: 512, Out: 10, Batch: 128, L2: 1e-4, Chunks: headChunks(128)},
 	} {
 		for _, eng := range []string{EngineGo, EngineGorgonia} {
-			b.Run(fmt.Sprintf("%s-h%d-b%d", eng, sp.Hidden, sp.Batch), func(b *testing.B) {
+			b.Run(fmt.Sprintf("%s-d%d-h%d-b%d", eng, sp.In, sp.Hidden, sp.Batch), func(b *testing.B) {
 				var e nn.Engine
 				var err error
 				if eng == EngineGo {
-					e, err = nn.NewPlain(sp, headKernel(), nil)
+					e, err = nn.NewPlain(sp, headKernels(), nil)
 				} else {
 					e, err = nn.New(sp)
 				}

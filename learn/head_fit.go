@@ -344,7 +344,7 @@ func (c HeadConfig) FitWith(X []float32, y []int, nClasses int, opt HeadFitOptio
 	if cfg.Engine == EngineGorgonia {
 		net, err = nn.New(spec)
 	} else {
-		net, err = nn.NewPlain(spec, headKernel(), team)
+		net, err = nn.NewPlain(spec, headKernels(), team)
 	}
 	if err != nil {
 		return nil, rep, fmt.Errorf("learn: head fit: %w", err)

@@ -59,7 +59,7 @@ func TestHeadStepAllocatesNothing(t *testing.T) {
 	mean, std := standardize(X, d, all)
 	team := nn.NewTeam(2)
 	defer team.Close()
-	net, err := nn.NewPlain(nn.Spec{In: d, Hidden: h, Out: k, Batch: batch, L2: cfg.L2, Chunks: headChunks(batch)}, headKernel(), team)
+	net, err := nn.NewPlain(nn.Spec{In: d, Hidden: h, Out: k, Batch: batch, L2: cfg.L2, Chunks: headChunks(batch)}, headKernels(), team)
 	if err != nil {
 		t.Fatal(err)
 	}

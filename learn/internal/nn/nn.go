@@ -8,8 +8,9 @@
 //     machine. It is the reference: its gradients are checked against central
 //     finite differences.
 //   - Plain: the same loss with a hand-written backward pass in which every
-//     matrix product is one call of a pluggable c = a·bᵀ kernel (gonum's
-//     blas32 by default, package learn's AVX2 kernel in its SIMD build). At
+//     matrix product is one call of a pluggable c = a·bᵀ or c = a·b kernel
+//     (gonum's blas32 by default, package learn's AVX2 kernels in its SIMD
+//     build). At
 //     the full-MNIST head's shapes it is 2-4× faster than Graph because it
 //     skips the input gradient and gorgonia's per-op allocations. It splits
 //     a batch into a fixed number of row chunks whose gradient shares are

@@ -175,13 +175,22 @@ func TestBadSpec(t *testing.T) {
 // safe bound that any wrong formula (an O(1) error) still fails.
 const plainTol = 1e-4
 
-// naiveGemmNT is the textbook triple loop, in float64.
+// naiveGemmNT and naiveGemmNN are the textbook triple loops of c = a·bᵀ
+// and c = a·b, in float64.
 func naiveGemmNT(c, a, b []float32, m, n, p int) {
+	naiveGemm(c, a, m, n, p, func(j, l int) float32 { return b[j*p+l] })
+}
+
+func naiveGemmNN(c, a, b []float32, m, n, p int) {
+	naiveGemm(c, a, m, n, p, func(j, l int) float32 { return b[l*n+j] })
+}
+
+func naiveGemm(c, a []float32, m, n, p int, bAt func(j, l int) float32) {
 	for i := 0; i < m; i++ {
 		for j := 0; j < n; j++ {
 			var s float64
 			for l := 0; l < p; l++ {
-				s += float64(a[i*p+l]) * float64(b[j*p+l])
+				s += float64(a[i*p+l]) * float64(bAt(j, l))
 			}
 			c[i*n+j] = float32(s)
 		}
@@ -189,12 +198,12 @@ func naiveGemmNT(c, a, b []float32, m, n, p int) {
 }
 
 func TestPlainMatchesGraph(t *testing.T) {
-	for _, kern := range []GemmNTFunc{nil, naiveGemmNT} {
+	for _, kern := range []Kernels{{}, {NT: naiveGemmNT, NN: naiveGemmNN}} {
 		testPlainMatchesGraph(t, kern)
 	}
 }
 
-func testPlainMatchesGraph(t *testing.T, kern GemmNTFunc) {
+func testPlainMatchesGraph(t *testing.T, kern Kernels) {
 	for _, sp := range []Spec{
 		{In: 37, Out: 5, Batch: 19, L2: 0.01},
 		{In: 30, Hidden: 23, Out: 4, Batch: 17, L2: 0.02},
@@ -306,7 +315,7 @@ func TestChunkedGradient(t *testing.T) {
 			checkGrads(t, fmt.Sprintf("%+v %s", sp, what), ref, got, lref, lgot, tol)
 		}
 		gGraph, lGraph := eval(gr)
-		single, err := NewPlain(one, nil, nil)
+		single, err := NewPlain(one, Kernels{}, nil)
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -315,7 +324,7 @@ func TestChunkedGradient(t *testing.T) {
 		var lW1 float64
 		for _, workers := range []int{1, 2, 3} {
 			team := NewTeam(workers)
-			pl, err := NewPlain(sp, nil, team)
+			pl, err := NewPlain(sp, Kernels{}, team)
 			if err != nil {
 				t.Fatal(err)
 			}
@@ -348,7 +357,7 @@ func TestPlainEvalAllocatesNothing(t *testing.T) {
 	sp := Spec{In: 64, Hidden: 32, Out: 10, Batch: 64, L2: 1e-4, Chunks: 4}
 	team := NewTeam(2)
 	defer team.Close()
-	pl, err := NewPlain(sp, nil, team)
+	pl, err := NewPlain(sp, Kernels{}, team)
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -12,6 +12,29 @@ import (
 // overwriting c.
 type GemmNTFunc func(c, a, b []float32, m, n, p int)
 
+// GemmNNFunc computes c = a·b for row-major a (m×p), b (p×n), c (m×n),
+// overwriting c.
+type GemmNNFunc func(c, a, b []float32, m, n, p int)
+
+// Kernels are the two matrix products of the plain engine; a nil field
+// means gonum's (GemmNTGonum, GemmNNGonum). With several workers both must
+// be safe for concurrent use.
+type Kernels struct {
+	NT GemmNTFunc // c = a·bᵀ: forward passes and dA
+	NN GemmNNFunc // c = a·b: weight gradients dW = dZᵀ·X read the layer input in place
+}
+
+// GemmNNGonum is the GemmNNFunc on gonum's blas32 (the default).
+func GemmNNGonum(c, a, b []float32, m, n, p int) {
+	if m == 0 || n == 0 {
+		return
+	}
+	blas32.Gemm(blas.NoTrans, blas.NoTrans, 1,
+		blas32.General{Rows: m, Cols: p, Stride: p, Data: a},
+		blas32.General{Rows: p, Cols: n, Stride: n, Data: b},
+		0, blas32.General{Rows: m, Cols: n, Stride: n, Data: c})
+}
+
 // GemmNTGonum is the GemmNTFunc on gonum's blas32 (the default).
 func GemmNTGonum(c, a, b []float32, m, n, p int) {
 	if m == 0 || n == 0 {
@@ -24,10 +47,11 @@ func GemmNTGonum(c, a, b []float32, m, n, p int) {
 }
 
 // Plain is the hand-written float32 engine (see the package comment). Every
-// matrix product is one call of a GemmNTFunc (c = a·bᵀ, both operands read
-// along rows), so a faster kernel (package learn's SIMD build) plugs in
-// through NewPlain; weight gradients dW = dZᵀ·X are formed as (dZᵀ)·(Xᵀ)ᵀ
-// from transposed copies of the batch.
+// matrix product is one call of a Kernels product, so faster kernels
+// (package learn's SIMD build) plug in through NewPlain: forward passes
+// and dA are c = a·bᵀ products, the weight gradients dW = dZᵀ·X are c = a·b
+// products of the transposed output gradient with the layer input as it
+// lies in memory.
 //
 // The batch is split into Spec.Chunks row chunks (rows [c·B/C, (c+1)·B/C)),
 // each with its own scratch; the work of Eval is cut into units fixed by the
@@ -48,31 +72,31 @@ func GemmNTGonum(c, a, b []float32, m, n, p int) {
 type Plain struct {
 	spec   Spec
 	gemm   GemmNTFunc
+	gemmNN GemmNNFunc
 	team   *Team
 	params [][]float32
 	x, y   []float32
 	w2t    []float32 // W2ᵀ (H×K), shared by the chunks (mlp)
-	// whole-batch transposes the hidden blocks read (mlp): Xᵀ (D×B), dAᵀ (H×B)
-	xt, dat []float32
-	chunks  []plainChunk
-	shared  []bool       // per tensor: summed from chunk shares (else written by the hidden blocks)
-	ranges  []paramRange // reduction units over the parameters
-	sq      []float64    // per range: Σ w² of its weights (L2 term)
-	grads   [][]float32  // the caller's gradients during Eval
+	// the whole-batch dAᵀ (H×B) the hidden blocks read (mlp)
+	dat    []float32
+	chunks []plainChunk
+	shared []bool       // per tensor: summed from chunk shares (else written by the hidden blocks)
+	ranges []paramRange // reduction units over the parameters
+	sq     []float64    // per range: Σ w² of its weights (L2 term)
+	grads  [][]float32  // the caller's gradients during Eval
 	// func values made once, so that Eval allocates nothing
 	chunkFn, hiddenFn, reduceFn func(int)
 }
 
 // plainChunk is one row chunk's scratch.
 type plainChunk struct {
-	r0, r1 int       // rows [r0, r1) of the batch
-	z      []float32 // rows×K logits, then dZ
-	at, a  []float32 // activations Aᵀ (H×rows) and A (rows×H) (mlp)
-	da     []float32 // their gradient dAᵀ (H×rows) (mlp)
-	// transposes of the layer input (in×rows; softmax) and of dZ (K×rows)
-	tin, tout []float32
-	g         [][]float32 // gradient shares of the shared tensors (chunk 0: the caller's)
-	loss      float64     // Σ over its rows of −log p(y), not yet divided by B
+	r0, r1 int         // rows [r0, r1) of the batch
+	z      []float32   // rows×K logits, then dZ
+	at, a  []float32   // activations Aᵀ (H×rows) and A (rows×H) (mlp)
+	da     []float32   // their gradient dAᵀ (H×rows) (mlp)
+	tout   []float32   // the transpose of dZ (K×rows)
+	g      [][]float32 // gradient shares of the shared tensors (chunk 0: the caller's)
+	loss   float64     // Σ over its rows of −log p(y), not yet divided by B
 }
 
 // paramRange is elements [lo, hi) of parameter tensor i.
@@ -89,20 +113,22 @@ const (
 )
 
 // NewPlain validates s (which must be float32) and allocates the engine.
-// gemm nil means GemmNTGonum. team runs the work units and may be nil (all
-// on the caller); Plain does not close it. With several workers gemm must be
-// safe for concurrent use.
-func NewPlain(s Spec, gemm GemmNTFunc, team *Team) (*Plain, error) {
+// team runs the work units and may be nil (all on the caller); Plain does
+// not close it.
+func NewPlain(s Spec, k Kernels, team *Team) (*Plain, error) {
 	if err := s.validate(); err != nil {
 		return nil, err
 	}
 	if s.Float64 {
 		return nil, fmt.Errorf("nn: the plain engine is float32 only")
 	}
-	if gemm == nil {
-		gemm = GemmNTGonum
+	if k.NT == nil {
+		k.NT = GemmNTGonum
 	}
-	p := &Plain{spec: s, gemm: gemm, team: team,
+	if k.NN == nil {
+		k.NN = GemmNNGonum
+	}
+	p := &Plain{spec: s, gemm: k.NT, gemmNN: k.NN, team: team,
 		x: make([]float32, s.Batch*s.In),
 		y: make([]float32, s.Batch*s.Out),
 	}
@@ -120,7 +146,6 @@ func NewPlain(s Spec, gemm GemmNTFunc, team *Team) (*Plain, error) {
 	p.sq = make([]float64, len(p.ranges))
 	if s.Hidden > 0 {
 		p.w2t = make([]float32, s.Hidden*s.Out)
-		p.xt = make([]float32, s.In*s.Batch)
 		p.dat = make([]float32, s.Hidden*s.Batch)
 	}
 	nc := s.chunks()
@@ -133,8 +158,6 @@ func NewPlain(s Spec, gemm GemmNTFunc, team *Team) (*Plain, error) {
 			ch.a = make([]float32, rows*s.Hidden)
 			ch.at = make([]float32, rows*s.Hidden)
 			ch.da = make([]float32, rows*s.Hidden)
-		} else {
-			ch.tin = make([]float32, s.In*rows)
 		}
 		if c > 0 {
 			for i, q := range p.params {
@@ -252,9 +275,8 @@ func (p *Plain) evalChunk(c int) {
 	if H == 0 {
 		p.forwardAffine(ch.z, x, p.params[0], p.params[1], B, D, K)
 		ch.loss = softmaxCE(ch.z, y, B, K, invB)
-		transpose(ch.tin, x, B, D, B)
 		transpose(tout, ch.z, B, K, B)
-		p.gemm(g[0], tout, ch.tin, K, D, B)
+		p.gemmNN(g[0], tout, x, K, D, B)
 		rowSums(g[1], tout, B)
 		return
 	}
@@ -263,10 +285,7 @@ func (p *Plain) evalChunk(c int) {
 	at := ch.at
 	p.gemm(at, p.params[0], x, H, B, D)
 	for h, bh := range p.params[1] {
-		row := at[h*B : (h+1)*B]
-		for i, v := range row {
-			row[i] = max(0, v+bh)
-		}
+		biasReLU(at[h*B:(h+1)*B], bh)
 	}
 	transpose(ch.a, at, H, B, H)
 	p.forwardAffine(ch.z, ch.a, p.params[2], p.params[3], B, H, K)
@@ -276,31 +295,23 @@ func (p *Plain) evalChunk(c int) {
 	p.gemm(g[2], tout, at, K, H, B)
 	rowSums(g[3], tout, B)
 	// dAᵀ = W2ᵀ·dZᵀ = (W2ᵀ)·(dZ)ᵀ, masked by the ReLU, into the chunk's
-	// columns of the whole-batch dAᵀ; the chunk's columns of Xᵀ beside it.
+	// columns of the whole-batch dAᵀ.
 	da := ch.da
 	p.gemm(da, p.w2t, ch.z, H, B, K)
 	Bw := s.Batch
 	for h := 0; h < H; h++ {
-		src, act := da[h*B:(h+1)*B], at[h*B:(h+1)*B]
-		dst := p.dat[h*Bw+ch.r0 : h*Bw+ch.r1]
-		for i, v := range src {
-			if act[i] <= 0 {
-				v = 0
-			}
-			dst[i] = v
-		}
+		maskReLU(p.dat[h*Bw+ch.r0:h*Bw+ch.r1], da[h*B:(h+1)*B], at[h*B:(h+1)*B])
 	}
-	transpose(p.xt[ch.r0:], x, B, D, Bw)
 }
 
-// hiddenBlock computes rows [u·plainHiddenBlock, …) of dW1 = dAᵀ·X =
-// (dAᵀ)·(Xᵀ)ᵀ and of db1 = row sums of dAᵀ, over the whole batch.
+// hiddenBlock computes rows [u·plainHiddenBlock, …) of dW1 = dAᵀ·X and of
+// db1 = row sums of dAᵀ, over the whole batch.
 func (p *Plain) hiddenBlock(u int) {
 	s := p.spec
 	B, D := s.Batch, s.In
 	h0, h1 := u*plainHiddenBlock, min(s.Hidden, (u+1)*plainHiddenBlock)
 	dat := p.dat[h0*B : h1*B]
-	p.gemm(p.grads[0][h0*D:h1*D], dat, p.xt, h1-h0, D, B)
+	p.gemmNN(p.grads[0][h0*D:h1*D], dat, p.x, h1-h0, D, B)
 	rowSums(p.grads[1][h0:h1], dat, B)
 }
 
@@ -319,13 +330,7 @@ func (p *Plain) reduce(u int) {
 	}
 	p.sq[u] = 0
 	if p.spec.L2 > 0 && (r.i == 0 || r.i == 2) {
-		lam := float32(p.spec.L2)
-		var sq float64
-		for j, v := range p.params[r.i][r.lo:r.hi] {
-			sq += float64(v) * float64(v)
-			dst[j] += lam * v
-		}
-		p.sq[u] = sq
+		p.sq[u] = l2Range(dst, p.params[r.i][r.lo:r.hi], float32(p.spec.L2))
 	}
 }
 

@@ -1,0 +1,44 @@
+package nn
+
+// l2Range adds the L2 term's gradient lam·w to dst (dst[j] += lam·w[j],
+// one float32 multiplication and addition per element) and returns Σ w²,
+// summed in float64. The SIMD build replaces it by an 8-lane version
+// (l2_simd_amd64.go) with the same gradient bits and the sum taken over
+// eight float64 lanes, whose order is fixed by the length alone.
+var l2Range = l2RangeGo
+
+func l2RangeGo(dst, w []float32, lam float32) float64 {
+	var sq float64
+	dst = dst[:len(w)]
+	for j, v := range w {
+		sq += float64(v) * float64(v)
+		dst[j] += lam * v
+	}
+	return sq
+}
+
+// biasReLU sets row[i] = max(0, row[i] + b): a hidden unit's activations
+// over a chunk's rows (the SIMD build: 8 lanes, the same bits but for the
+// sign of an exact zero).
+var biasReLU = biasReLUGo
+
+func biasReLUGo(row []float32, b float32) {
+	for i, v := range row {
+		row[i] = max(0, v+b)
+	}
+}
+
+// maskReLU sets dst[i] = src[i] where act[i] > 0 and 0 elsewhere (a NaN
+// activation included: its NaN already reaches the loss): the gradient
+// through the ReLU.
+var maskReLU = maskReLUGo
+
+func maskReLUGo(dst, src, act []float32) {
+	src, act = src[:len(dst)], act[:len(dst)]
+	for i, v := range src {
+		if !(act[i] > 0) {
+			v = 0
+		}
+		dst[i] = v
+	}
+}

@@ -1,0 +1,82 @@
+//go:build goexperiment.simd && amd64
+
+package nn
+
+import (
+	"simd/archsimd"
+	"unsafe"
+)
+
+func init() {
+	if archsimd.X86.AVX2() && archsimd.X86.FMA() {
+		l2Range = l2RangeSIMD
+		biasReLU, maskReLU = biasReLUSIMD, maskReLUSIMD
+	}
+}
+
+// l2RangeSIMD is l2RangeGo on 8 lanes. The squares are exact in float64,
+// so the fused multiply-add of the sums rounds as an addition would; the
+// eight lane sums are added in lane order at the end, then the tail.
+func l2RangeSIMD(dst, w []float32, lam float32) float64 {
+	n := len(w)
+	if len(dst) < n {
+		panic("nn: internal error: l2RangeSIMD lengths")
+	}
+	vl := archsimd.BroadcastFloat32x8(lam)
+	dp, wp := unsafe.Pointer(unsafe.SliceData(dst)), unsafe.Pointer(unsafe.SliceData(w))
+	var s0, s1 archsimd.Float64x4
+	i := 0
+	for ; i+8 <= n; i += 8 {
+		o := uintptr(i) * 4
+		v := archsimd.LoadFloat32x8((*[8]float32)(unsafe.Add(wp, o)))
+		d := archsimd.LoadFloat32x8((*[8]float32)(unsafe.Add(dp, o)))
+		d.Add(vl.Mul(v)).Store((*[8]float32)(unsafe.Add(dp, o)))
+		lo, hi := v.GetLo().ConvertToFloat64(), v.GetHi().ConvertToFloat64()
+		s0 = lo.MulAdd(lo, s0)
+		s1 = hi.MulAdd(hi, s1)
+	}
+	var lanes [8]float64
+	s0.Store((*[4]float64)(lanes[:4]))
+	s1.Store((*[4]float64)(lanes[4:]))
+	archsimd.ClearAVXUpperBits()
+	var sq float64
+	for _, v := range lanes {
+		sq += v
+	}
+	return sq + l2RangeGo(dst[i:n], w[i:], lam)
+}
+
+// biasReLUSIMD is biasReLUGo on 8 lanes; VMAXPS returns its second operand
+// for a NaN (kept, as max does) and for two zeros (so −0 stays −0 where max
+// gives +0, which no product or sum downstream can tell apart but by the
+// sign of an exact zero).
+func biasReLUSIMD(row []float32, b float32) {
+	n := len(row)
+	vb, zero := archsimd.BroadcastFloat32x8(b), archsimd.BroadcastFloat32x8(0)
+	rp := unsafe.Pointer(unsafe.SliceData(row))
+	i := 0
+	for ; i+8 <= n; i += 8 {
+		p := (*[8]float32)(unsafe.Add(rp, uintptr(i)*4))
+		zero.Max(archsimd.LoadFloat32x8(p).Add(vb)).Store(p)
+	}
+	archsimd.ClearAVXUpperBits()
+	biasReLUGo(row[i:], b)
+}
+
+// maskReLUSIMD is maskReLUGo on 8 lanes.
+func maskReLUSIMD(dst, src, act []float32) {
+	n := len(dst)
+	if len(src) < n || len(act) < n {
+		panic("nn: internal error: maskReLUSIMD lengths")
+	}
+	zero := archsimd.BroadcastFloat32x8(0)
+	dp, sp, ap := unsafe.Pointer(unsafe.SliceData(dst)), unsafe.Pointer(unsafe.SliceData(src)), unsafe.Pointer(unsafe.SliceData(act))
+	i := 0
+	for ; i+8 <= n; i += 8 {
+		o := uintptr(i) * 4
+		a := archsimd.LoadFloat32x8((*[8]float32)(unsafe.Add(ap, o)))
+		archsimd.LoadFloat32x8((*[8]float32)(unsafe.Add(sp, o))).Masked(a.Greater(zero)).Store((*[8]float32)(unsafe.Add(dp, o)))
+	}
+	archsimd.ClearAVXUpperBits()
+	maskReLUGo(dst[i:], src[i:n], act[i:n])
+}

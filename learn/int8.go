@@ -325,6 +325,9 @@ type int8Matrix struct {
 	pairs []int64
 	w16   []int16
 	dpad  int
+	wp    []int16 // column pairs for mulPairs (usePairs), or nil
+	mpad  int
+	dim2  int
 }
 
 // mulWide, when not nil, is the SIMD kernel: acc_j = Σ_c w[j·dpad+c]·x[c]
@@ -381,4 +384,71 @@ func (a *int8Matrix) mulVec2(ax, ay []int32, x, y []uint8, buf *[]int16) {
 	}
 	mulWide(ax, a.w16, widen(buf, x, a.dpad), a.m, a.dpad)
 	mulWide(ay, a.w16, widen(buf, y, a.dpad), a.m, a.dpad)
+}
+
+// mulPairs, when not nil, is the SIMD batch kernel: for n inputs it sets
+// acc[i·m+j] = Σ_c wp-pair products, from weights laid out as pairs of
+// columns (pairsLayout) and inputs packed as column pairs (packPairs).
+var mulPairs func(acc []int32, wp []int16, xp []int32, n, m, mpad, dim2 int)
+
+// pairsLayout returns the m×d int8 matrix w as int16 column pairs for
+// mulPairs: element ((c·mpad + j)·2 + e) is w_j,2c+e, with mpad = m rounded
+// up to 16 and zeros past m and d, so that one 32-lane load holds the pair
+// c of 16 consecutive rows.
+func pairsLayout(w []int8, m, d int) (wp []int16, mpad, dim2 int) {
+	mpad, dim2 = (m+15)&^15, (d+1)/2
+	wp = make([]int16, dim2*mpad*2)
+	for j := 0; j < m; j++ {
+		for i, v := range w[j*d : (j+1)*d] {
+			wp[((i/2)*mpad+j)*2+i%2] = int16(v)
+		}
+	}
+	return wp, mpad, dim2
+}
+
+// packPairs writes the n inputs of length d in x (contiguous) as column
+// pairs x_2c + x_2c+1·2^16, one int32 each (a zero past d), into *buf and
+// returns it.
+func packPairs(buf *[]int32, x []uint8, n, d int) []int32 {
+	dim2 := (d + 1) / 2
+	if cap(*buf) < n*dim2 {
+		*buf = make([]int32, n*dim2)
+	}
+	p := (*buf)[:n*dim2]
+	for i := 0; i < n; i++ {
+		row, dst := x[i*d:(i+1)*d], p[i*dim2:(i+1)*dim2]
+		c := 0
+		for ; 2*c+1 < len(row); c++ {
+			dst[c] = int32(row[2*c]) | int32(row[2*c+1])<<16
+		}
+		if c < len(dst) {
+			dst[c] = int32(row[2*c])
+		}
+	}
+	return p
+}
+
+// usePairs builds the column-pair layout of the batch kernel, when this
+// build has one; mulRows then uses it.
+func (a *int8Matrix) usePairs(w []int8) {
+	if mulPairs != nil {
+		a.wp, a.mpad, a.dim2 = pairsLayout(w, a.m, a.d)
+	}
+}
+
+// mulRows sets acc[i·m+j] = Σ_c w_jc·x[i·d+c] for the n inputs of length d
+// held one after another in x. buf and pairs are scratch.
+func (a *int8Matrix) mulRows(acc []int32, x []uint8, n int, buf *[]int16, pairs *[]int32) {
+	m, d := a.m, a.d
+	if a.wp != nil {
+		mulPairs(acc[:n*m], a.wp, packPairs(pairs, x[:n*d], n, d), n, m, a.mpad, a.dim2)
+		return
+	}
+	i := 0
+	for ; i+2 <= n; i += 2 {
+		a.mulVec2(acc[i*m:(i+1)*m], acc[(i+1)*m:(i+2)*m], x[i*d:(i+1)*d], x[(i+1)*d:(i+2)*d], buf)
+	}
+	if i < n {
+		a.mulVec(acc[i*m:(i+1)*m], x[i*d:(i+1)*d], nil, buf)
+	}
 }

@@ -55,16 +55,17 @@ type QuantTemplates struct {
 }
 
 type quantTmplScratch struct {
-	rs   v1layer.Maps
-	q    []uint8 // quantised maps
-	box  []int64
-	p    []uint8 // positions×dim patches
-	a    []int32 // positions×k products
-	f    []uint8 // positions×2k features
-	pl   []uint8 // one scale's pooled vector
-	sums []int64 // positions×2: Σq, Σq²
-	wide []int16 // the product kernel's scratch
-	cell []int32 // one pooling cell's F accumulators
+	rs    v1layer.Maps
+	q     []uint8 // quantised maps
+	box   []int64
+	p     []uint8 // positions×dim patches
+	a     []int32 // positions×k products
+	f     []uint8 // positions×2k features
+	pl    []uint8 // one scale's pooled vector
+	sums  []int64 // positions×2: Σq, Σq²
+	wide  []int16 // the product kernel's scratch
+	pairs []int32 // the batch kernel's packed inputs
+	cell  []int32 // one pooling cell's F accumulators
 }
 
 // Bounds that keep every intermediate within 64 bits: D·2^16 < 2^63.
@@ -181,6 +182,7 @@ func (q *QuantTemplates) derive() error {
 		q.bneg[j] = roundHalfAway(float64((float64(q.fmu[j])-float64(q.alpha))/o) * 65536)
 	}
 	q.wm = newInt8Matrix(q.w, k, n)
+	q.wm.usePairs(q.w)
 	return nil
 }
 
@@ -308,13 +310,7 @@ func (q *QuantTemplates) features(s *quantTmplScratch, m *v1layer.Maps) (oh, ow 
 		s.a = make([]int32, np*k)
 	}
 	s.a = s.a[:np*k]
-	i := 0
-	for ; i+2 <= np; i += 2 {
-		q.wm.mulVec2(s.a[i*k:(i+1)*k], s.a[(i+1)*k:(i+2)*k], s.p[i*dim:(i+1)*dim], s.p[(i+1)*dim:(i+2)*dim], &s.wide)
-	}
-	if i < np {
-		q.wm.mulVec(s.a[i*k:(i+1)*k], s.p[i*dim:(i+1)*dim], nil, &s.wide)
-	}
+	q.wm.mulRows(s.a, s.p, np, &s.wide, &s.pairs)
 	// Σq and Σq² of every patch from integral images (exact in int64).
 	if cap(s.sums) < 2*np {
 		s.sums = make([]int64, 2*np)

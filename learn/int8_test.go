@@ -526,7 +526,7 @@ func TestQuantPredictAllocatesNothing(t *testing.T) {
 // maxQuantIn columns) and on random values, for odd and even row counts.
 func TestPackedProductsExact(t *testing.T) {
 	rng := rand.New(rand.NewPCG(8, 9))
-	for _, c := range []struct{ m, d int }{{5, 300}, {4, 7}, {3, maxQuantIn}, {1, 1}} {
+	for _, c := range []struct{ m, d int }{{5, 300}, {64, 300}, {80, 301}, {4, 7}, {3, maxQuantIn}, {1, 1}} {
 		for _, fill := range []string{"max", "min", "random"} {
 			w := make([]int8, c.m*c.d)
 			x := make([]uint8, c.d)
@@ -576,6 +576,28 @@ func TestPackedProductsExact(t *testing.T) {
 			a.mulVec2(gx, gy, x, y, &buf)
 			if !reflect.DeepEqual(gx, wx) || !reflect.DeepEqual(gy, wy) {
 				t.Fatalf("%d×%d %s: two-input kernel products differ from the plain ones", c.m, c.d, fill)
+			}
+			// The batch kernel (column pairs under AVX-512), over 1 to 6
+			// inputs so that every tile and remainder runs.
+			a.usePairs(w)
+			var pairs []int32
+			for n := 1; n <= 6; n++ {
+				xs := make([]uint8, n*c.d)
+				for i := range xs {
+					xs[i] = uint8(rng.IntN(256))
+					if fill != "random" {
+						xs[i] = 255
+					}
+				}
+				want := make([]int32, n*c.m)
+				for i := 0; i < n; i++ {
+					dotRowsU8(want[i*c.m:(i+1)*c.m], w, xs[i*c.d:(i+1)*c.d], zero)
+				}
+				got := make([]int32, n*c.m)
+				a.mulRows(got, xs, n, &buf, &pairs)
+				if !reflect.DeepEqual(got, want) {
+					t.Fatalf("%d×%d %s, %d inputs: batch kernel differs from the plain products", c.m, c.d, fill, n)
+				}
 			}
 		}
 	}

@@ -29,7 +29,8 @@ const (
 type SparseSet struct {
 	Train, Held []float32
 	Dim         int
-	Source      string // how the patches were made
+	Eigen       []float64 // eigenvalues of the training covariance the ZCA was fitted on
+	Source      string    // how the patches were made
 }
 
 // Sparse regenerates the sparse-coding protocol on the embedded photos:
@@ -61,7 +62,7 @@ func Sparse(n int) (*SparseSet, error) {
 	}
 	z.Apply(train)
 	z.Apply(held)
-	return &SparseSet{Train: train.Pix, Held: held.Pix, Dim: d,
+	return &SparseSet{Train: train.Pix, Held: held.Pix, Dim: d, Eigen: z.Eigenvalues(),
 		Source: fmt.Sprintf("%d patches of %d×%d from the %d embedded photos (datasets.SamplePatches, seed %d), ZCA ε %g on the first %d",
 			n, SparseSize, SparseSize, len(photos), SparseSeed, SparseZCAEps, ntr)}, nil
 }

@@ -325,6 +325,8 @@ type int8Matrix struct {
 	pairs []int64
 	w16   []int16
 	dpad  int
+	wp    []int16 // column pairs for mulPairs (usePairs), or nil
+	mpad  int
 }
 
 // mulWide, when not nil, is the SIMD kernel: acc_j = Σ_c w[j·dpad+c]·x[c]
@@ -381,4 +383,110 @@ func (a *int8Matrix) mulVec2(ax, ay []int32, x, y []uint8, buf *[]int16) {
 	}
 	mulWide(ax, a.w16, widen(buf, x, a.dpad), a.m, a.dpad)
 	mulWide(ay, a.w16, widen(buf, y, a.dpad), a.m, a.dpad)
+}
+
+// mulPairs, when not nil, is the SIMD batch kernel. Its inputs are pairs
+// of activations packed in one int32, x_a + x_b·2^16; for input i and pair
+// c the pair is xp[base[i]+offs[c]], so a kernel can read the pairs of a
+// patch straight out of a map of packed pairs. It sets acc[i·m+j] = Σ_c of
+// the pair c times row j's weights for that pair, from the weights laid out
+// by pairsLayout.
+var mulPairs func(acc []int32, wp []int16, xp, base, offs []int32, m, mpad int)
+
+// pairsLayout returns the m×d int8 matrix w in mulPairs' layout for the
+// column pairs cols (cols[c] = the two columns of pair c, −1 for none):
+// element ((c·mpad + j)·2 + e) is w_j,cols[c][e], with mpad = m rounded up
+// to 16 and zeros past m, so that one 32-lane load holds pair c of 16
+// consecutive rows.
+func pairsLayout(w []int8, m, d int, cols [][2]int32) (wp []int16, mpad int) {
+	mpad = (m + 15) &^ 15
+	wp = make([]int16, len(cols)*mpad*2)
+	for c, pr := range cols {
+		for e, col := range pr {
+			if col < 0 {
+				continue
+			}
+			for j := 0; j < m; j++ {
+				wp[(c*mpad+j)*2+e] = int16(w[j*d+int(col)])
+			}
+		}
+	}
+	return wp, mpad
+}
+
+// contiguousPairs pairs the columns of a d-column matrix in order: (0, 1),
+// (2, 3), … (the last with none when d is odd).
+func contiguousPairs(d int) [][2]int32 {
+	cols := make([][2]int32, (d+1)/2)
+	for c := range cols {
+		cols[c] = [2]int32{int32(2 * c), int32(2*c + 1)}
+		if 2*c+1 >= d {
+			cols[c][1] = -1
+		}
+	}
+	return cols
+}
+
+// pairScratch is the batch kernel's scratch.
+type pairScratch struct {
+	xp, base, offs []int32
+}
+
+// grow32 returns (*b)[:n], reallocated when too short.
+func grow32(b *[]int32, n int) []int32 {
+	if cap(*b) < n {
+		*b = make([]int32, n)
+	}
+	return (*b)[:n]
+}
+
+// packPairs writes the n inputs of length d in x (contiguous) as column
+// pairs x_2c + x_2c+1·2^16, one int32 each (a zero past d), into s.xp, with
+// the bases and offsets that read them in order, and returns the three.
+func packPairs(s *pairScratch, x []uint8, n, d int) (xp, base, offs []int32) {
+	dim2 := (d + 1) / 2
+	xp, base, offs = grow32(&s.xp, n*dim2), grow32(&s.base, n), grow32(&s.offs, dim2)
+	for c := range offs {
+		offs[c] = int32(c)
+	}
+	for i := 0; i < n; i++ {
+		base[i] = int32(i * dim2)
+		row, dst := x[i*d:(i+1)*d], xp[i*dim2:(i+1)*dim2]
+		c := 0
+		for ; 2*c+1 < len(row); c++ {
+			dst[c] = int32(row[2*c]) | int32(row[2*c+1])<<16
+		}
+		if c < len(dst) {
+			dst[c] = int32(row[2*c])
+		}
+	}
+	return xp, base, offs
+}
+
+// usePairs builds the batch kernel's layout for the column pairs cols,
+// when this build has the kernel (mulRows and the pair path of the
+// template layer then use it).
+func (a *int8Matrix) usePairs(w []int8, cols [][2]int32) {
+	if mulPairs != nil {
+		a.wp, a.mpad = pairsLayout(w, a.m, a.d, cols)
+	}
+}
+
+// mulRows sets acc[i·m+j] = Σ_c w_jc·x[i·d+c] for the n inputs of length d
+// held one after another in x. buf and ps are scratch; with the batch
+// kernel the matrix must have been given contiguousPairs.
+func (a *int8Matrix) mulRows(acc []int32, x []uint8, n int, buf *[]int16, ps *pairScratch) {
+	m, d := a.m, a.d
+	if a.wp != nil {
+		xp, base, offs := packPairs(ps, x[:n*d], n, d)
+		mulPairs(acc[:n*m], a.wp, xp, base, offs, m, a.mpad)
+		return
+	}
+	i := 0
+	for ; i+2 <= n; i += 2 {
+		a.mulVec2(acc[i*m:(i+1)*m], acc[(i+1)*m:(i+2)*m], x[i*d:(i+1)*d], x[(i+1)*d:(i+2)*d], buf)
+	}
+	if i < n {
+		a.mulVec(acc[i*m:(i+1)*m], x[i*d:(i+1)*d], nil, buf)
+	}
 }

@@ -12,6 +12,81 @@ func init() {
 	if archsimd.X86.AVX2() {
 		mulWide = mulWideAVX2
 	}
+	if archsimd.X86.AVX512() {
+		mulPairs = mulPairsAVX512
+	}
+}
+
+// mulPairsAVX512 is mulPairs with AVX-512's VPMADDWD on 32 int16 lanes:
+// each input pair is broadcast to every lane and multiplied by the pair of
+// 16 consecutive rows, so the int32 lanes accumulate 16 outputs at once and
+// no horizontal sum is needed. A tile of 2 inputs × 32 outputs keeps its
+// accumulators, weights, broadcasts and products in the 15 vector registers
+// Go allocates (2 × 64 spills), each weight load feeding both inputs.
+// Exact: a pair product is at most 2·255·127 and a sum over maxPackedIn
+// columns stays below 2^31, as in the portable kernel.
+func mulPairsAVX512(acc []int32, wp []int16, xp, base, offs []int32, m, mpad int) {
+	n, np := len(base), len(offs)
+	wp = wp[:np*mpad*2]
+	acc = acc[:n*m]
+	var tmp [16]int32
+	i := 0
+	for ; i+2 <= n; i += 2 {
+		b0, b1 := int(base[i]), int(base[i+1])
+		j := 0
+		for ; j+32 <= mpad; j += 32 {
+			var a00, a01, a10, a11 archsimd.Int32x16
+			for c, o := range offs {
+				w := (*[64]int16)(wp[(c*mpad+j)*2:])
+				w0 := archsimd.LoadInt16x32((*[32]int16)(w[0:32]))
+				w1 := archsimd.LoadInt16x32((*[32]int16)(w[32:64]))
+				b := archsimd.BroadcastInt32x16(xp[b0+int(o)]).AsInt16x32()
+				a00 = a00.Add(w0.DotProductPairs(b))
+				a01 = a01.Add(w1.DotProductPairs(b))
+				b = archsimd.BroadcastInt32x16(xp[b1+int(o)]).AsInt16x32()
+				a10 = a10.Add(w0.DotProductPairs(b))
+				a11 = a11.Add(w1.DotProductPairs(b))
+			}
+			storePart(acc, &tmp, a00, i, j, m)
+			storePart(acc, &tmp, a01, i, j+16, m)
+			storePart(acc, &tmp, a10, i+1, j, m)
+			storePart(acc, &tmp, a11, i+1, j+16, m)
+		}
+		for ; j < mpad; j += 16 {
+			var a0, a1 archsimd.Int32x16
+			for c, o := range offs {
+				w := archsimd.LoadInt16x32((*[32]int16)(wp[(c*mpad+j)*2:]))
+				a0 = a0.Add(w.DotProductPairs(archsimd.BroadcastInt32x16(xp[b0+int(o)]).AsInt16x32()))
+				a1 = a1.Add(w.DotProductPairs(archsimd.BroadcastInt32x16(xp[b1+int(o)]).AsInt16x32()))
+			}
+			storePart(acc, &tmp, a0, i, j, m)
+			storePart(acc, &tmp, a1, i+1, j, m)
+		}
+	}
+	for ; i < n; i++ {
+		b0 := int(base[i])
+		for j := 0; j < mpad; j += 16 {
+			var a archsimd.Int32x16
+			for c, o := range offs {
+				w := archsimd.LoadInt16x32((*[32]int16)(wp[(c*mpad+j)*2:]))
+				a = a.Add(w.DotProductPairs(archsimd.BroadcastInt32x16(xp[b0+int(o)]).AsInt16x32()))
+			}
+			storePart(acc, &tmp, a, i, j, m)
+		}
+	}
+	archsimd.ClearAVXUpperBits()
+}
+
+// storePart stores the 16 outputs j… of input i into the n×m acc, those
+// below m only (tmp is scratch for a last partial block).
+func storePart(acc []int32, tmp *[16]int32, v archsimd.Int32x16, i, j, m int) {
+	switch {
+	case j+16 <= m:
+		v.Store((*[16]int32)(acc[i*m+j : i*m+j+16]))
+	case j < m:
+		v.Store(tmp)
+		copy(acc[i*m+j:i*m+m], tmp[:m-j])
+	}
 }
 
 // hsum8 returns the sum of the eight lanes of v.

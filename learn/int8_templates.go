@@ -49,22 +49,24 @@ type QuantTemplates struct {
 	wsum       []int64
 	eps        int64 // E
 	mul        []fixedMul
-	bpos, bneg []int64     // −(F·μ + α)/o and (F·μ − α)/o, 16 fraction bits
-	wm         *int8Matrix // w in the product kernel's form
+	bpos, bneg []int64        // −(F·μ + α)/o and (F·μ − α)/o, 16 fraction bits
+	wm         *int8Matrix    // w in the product kernel's form
+	rq         []requantConst // the normalised requantisation's constants, when every shift is in [1, 63]
 	pool       sync.Pool
 }
 
 type quantTmplScratch struct {
-	rs   v1layer.Maps
-	q    []uint8 // quantised maps
-	box  []int64
-	p    []uint8 // positions×dim patches
-	a    []int32 // positions×k products
-	f    []uint8 // positions×2k features
-	pl   []uint8 // one scale's pooled vector
-	sums []int64 // positions×2: Σq, Σq²
-	wide []int16 // the product kernel's scratch
-	cell []int32 // one pooling cell's F accumulators
+	rs    v1layer.Maps
+	q     []uint8 // quantised maps
+	box   []int64
+	p     []uint8     // positions×dim patches
+	a     []int32     // positions×k products
+	f     []uint8     // positions×2k features
+	pl    []uint8     // one scale's pooled vector
+	sums  []int64     // positions×2: Σq, Σq²
+	wide  []int16     // the product kernel's scratch
+	pairs pairScratch // the batch kernel's packed inputs
+	cell  []int32     // one pooling cell's F accumulators
 }
 
 // Bounds that keep every intermediate within 64 bits: D·2^16 < 2^63.
@@ -180,7 +182,19 @@ func (q *QuantTemplates) derive() error {
 		q.bpos[j] = roundHalfAway(float64(-(float64(q.fmu[j])+float64(q.alpha))/o) * 65536)
 		q.bneg[j] = roundHalfAway(float64((float64(q.fmu[j])-float64(q.alpha))/o) * 65536)
 	}
+	q.rq = nil
+	if q.eps >= 0 {
+		q.rq = make([]requantConst, k)
+		for j := range q.rq {
+			q.rq[j] = requantConst{wsum: q.wsum[j], m0: q.mul[j].m0, s: uint(q.mul[j].shift + 16), bpos: q.bpos[j], bneg: q.bneg[j]}
+			if q.rq[j].s < 1 || q.rq[j].s > 63 {
+				q.rq = nil
+				break
+			}
+		}
+	}
 	q.wm = newInt8Matrix(q.w, k, n)
+	q.wm.usePairs(q.w, channelPairs(t.c, t.p))
 	return nil
 }
 
@@ -287,33 +301,31 @@ func (q *QuantTemplates) features(s *quantTmplScratch, m *v1layer.Maps) (oh, ow 
 	for i, v := range m.Pix {
 		s.q[i] = QuantizeValue(v, q.sx, q.zx)
 	}
-	// Patches (extractPatch's layout) and their integer products.
-	if cap(s.p) < np*dim {
-		s.p = make([]uint8, np*dim)
-	}
-	s.p = s.p[:np*dim]
-	for y := 0; y < oh; y++ {
-		for x := 0; x < ow; x++ {
-			dst := s.p[(y*ow+x)*dim:]
-			j := 0
-			for c := 0; c < C; c++ {
-				for dy := 0; dy < p; dy++ {
-					off := (c*H+y*st+dy)*W + x*st
-					j += copy(dst[j:j+p], s.q[off:off+p])
-				}
-			}
-		}
-	}
 	if cap(s.a) < np*k {
 		s.a = make([]int32, np*k)
 	}
 	s.a = s.a[:np*k]
-	i := 0
-	for ; i+2 <= np; i += 2 {
-		q.wm.mulVec2(s.a[i*k:(i+1)*k], s.a[(i+1)*k:(i+2)*k], s.p[i*dim:(i+1)*dim], s.p[(i+1)*dim:(i+2)*dim], &s.wide)
-	}
-	if i < np {
-		q.wm.mulVec(s.a[i*k:(i+1)*k], s.p[i*dim:(i+1)*dim], nil, &s.wide)
+	if q.wm.wp != nil {
+		q.pairProducts(s, C, H, W, oh, ow)
+	} else {
+		// Patches (extractPatch's layout) and their integer products.
+		if cap(s.p) < np*dim {
+			s.p = make([]uint8, np*dim)
+		}
+		s.p = s.p[:np*dim]
+		for y := 0; y < oh; y++ {
+			for x := 0; x < ow; x++ {
+				dst := s.p[(y*ow+x)*dim:]
+				j := 0
+				for c := 0; c < C; c++ {
+					for dy := 0; dy < p; dy++ {
+						off := (c*H+y*st+dy)*W + x*st
+						j += copy(dst[j:j+p], s.q[off:off+p])
+					}
+				}
+			}
+		}
+		q.wm.mulRows(s.a, s.p, np, &s.wide, &s.pairs)
 	}
 	// Σq and Σq² of every patch from integral images (exact in int64).
 	if cap(s.sums) < 2*np {
@@ -369,6 +381,10 @@ func (q *QuantTemplates) features(s *quantTmplScratch, m *v1layer.Maps) (oh, ow 
 			d := nn*s.sums[2*i+1] - sum*sum + q.eps
 			recip = (1 << 62) / isqrt(uint64(d)<<16)
 		}
+		if q.rq != nil {
+			requantNorm(f[:k], f[k:2*k], acc, q.rq, nn, sum, recip)
+			continue
+		}
 		for j, a := range acc {
 			var z uint64 // |N_k|/root with 32 fraction bits (normalised), or |N_k|·2^32
 			var num int64
@@ -390,6 +406,103 @@ func (q *QuantTemplates) features(s *quantTmplScratch, m *v1layer.Maps) (oh, ow 
 		}
 	}
 	return oh, ow
+}
+
+// requantConst holds one template's constants of the normalised
+// requantisation, side by side for requantNorm.
+type requantConst struct {
+	wsum       int64
+	m0         uint64
+	s          uint // the multiplier's shift + 16, in [1, 63]
+	bpos, bneg int64
+}
+
+// requantNorm is the normalised requantisation of features for one patch
+// (Σq = sum, reciprocal root recip), the same integers as the general loop
+// with mulShift specialised to shifts in [1, 63]: fp and fn receive q⁺ and
+// q⁻ of each template.
+func requantNorm(fp, fn []uint8, acc []int32, rq []requantConst, nn, sum int64, recip uint64) {
+	fp, fn, rq = fp[:len(acc)], fn[:len(acc)], rq[:len(acc)]
+	for j, a := range acc {
+		c := &rq[j]
+		num := nn*int64(a) - sum*c.wsum
+		hi, lo := bits.Mul64(absU(num), recip)
+		z := min(hi<<34|lo>>30, satMax)
+		// mulShift(±z, m0, s) for s < 64: round half away from zero, saturate.
+		hi, lo = bits.Mul64(z, c.m0)
+		var cy uint64
+		lo, cy = bits.Add64(lo, 1<<(c.s-1), 0)
+		hi += cy
+		r := uint64(satMax)
+		if hi>>c.s == 0 {
+			r = min(lo>>c.s|hi<<(64-c.s), satMax)
+		}
+		tk := int64(r)
+		if num < 0 {
+			tk = -tk
+		}
+		fp[j] = clampU8((tk + c.bpos + 1<<15) >> 16)
+		fn[j] = clampU8((-tk + c.bneg + 1<<15) >> 16)
+	}
+}
+
+// channelPairs pairs the columns of a [C p p] patch by channel: pair
+// (c2, dy, dx) holds channels 2·c2 and 2·c2+1 at (dy, dx) (the second
+// none when C is odd), so that the pairs of every patch can be read from
+// one map of packed channel pairs (pairProducts).
+func channelPairs(c, p int) [][2]int32 {
+	c2n := (c + 1) / 2
+	cols := make([][2]int32, c2n*p*p)
+	for c2 := 0; c2 < c2n; c2++ {
+		for e := 0; e < p*p; e++ {
+			b := int32(-1)
+			if 2*c2+1 < c {
+				b = int32((2*c2+1)*p*p + e)
+			}
+			cols[c2*p*p+e] = [2]int32{int32(2*c2*p*p + e), b}
+		}
+	}
+	return cols
+}
+
+// pairProducts fills s.a with the products of every patch by the batch
+// kernel: the quantised maps s.q become one map of packed channel pairs,
+// and the kernel reads each patch's pairs from it by offset, so no patch is
+// copied.
+func (q *QuantTemplates) pairProducts(s *quantTmplScratch, C, H, W, oh, ow int) {
+	t := q.shape
+	p, st, hw := t.p, t.cfg.Stride, H*W
+	c2n := (C + 1) / 2
+	pm := grow32(&s.pairs.xp, c2n*hw)
+	for c2 := 0; c2 < c2n; c2++ {
+		a, d := s.q[2*c2*hw:(2*c2+1)*hw], pm[c2*hw:(c2+1)*hw]
+		if 2*c2+1 < C {
+			b := s.q[(2*c2+1)*hw : (2*c2+2)*hw]
+			b = b[:len(a)]
+			for i, v := range a {
+				d[i] = int32(v) | int32(b[i])<<16
+			}
+		} else {
+			for i, v := range a {
+				d[i] = int32(v)
+			}
+		}
+	}
+	offs := grow32(&s.pairs.offs, c2n*p*p)
+	for c2 := 0; c2 < c2n; c2++ {
+		for dy := 0; dy < p; dy++ {
+			for dx := 0; dx < p; dx++ {
+				offs[(c2*p+dy)*p+dx] = int32((c2*H+dy)*W + dx)
+			}
+		}
+	}
+	base := grow32(&s.pairs.base, oh*ow)
+	for y := 0; y < oh; y++ {
+		for x := 0; x < ow; x++ {
+			base[y*ow+x] = int32(y*st*W + x*st)
+		}
+	}
+	mulPairs(s.a, q.wm.wp, pm, base, offs, t.k, q.wm.mpad)
 }
 
 func absU(v int64) uint64 {

@@ -3,6 +3,7 @@ package learn
 import (
 	"math"
 	"math/big"
+	"math/bits"
 	"math/rand/v2"
 	"reflect"
 	"strings"
@@ -526,7 +527,7 @@ func TestQuantPredictAllocatesNothing(t *testing.T) {
 // maxQuantIn columns) and on random values, for odd and even row counts.
 func TestPackedProductsExact(t *testing.T) {
 	rng := rand.New(rand.NewPCG(8, 9))
-	for _, c := range []struct{ m, d int }{{5, 300}, {4, 7}, {3, maxQuantIn}, {1, 1}} {
+	for _, c := range []struct{ m, d int }{{5, 300}, {64, 300}, {80, 301}, {4, 7}, {3, maxQuantIn}, {1, 1}} {
 		for _, fill := range []string{"max", "min", "random"} {
 			w := make([]int8, c.m*c.d)
 			x := make([]uint8, c.d)
@@ -577,6 +578,28 @@ func TestPackedProductsExact(t *testing.T) {
 			if !reflect.DeepEqual(gx, wx) || !reflect.DeepEqual(gy, wy) {
 				t.Fatalf("%d×%d %s: two-input kernel products differ from the plain ones", c.m, c.d, fill)
 			}
+			// The batch kernel (column pairs under AVX-512), over 1 to 6
+			// inputs so that every tile and remainder runs.
+			a.usePairs(w, contiguousPairs(c.d))
+			var pairs pairScratch
+			for n := 1; n <= 6; n++ {
+				xs := make([]uint8, n*c.d)
+				for i := range xs {
+					xs[i] = uint8(rng.IntN(256))
+					if fill != "random" {
+						xs[i] = 255
+					}
+				}
+				want := make([]int32, n*c.m)
+				for i := 0; i < n; i++ {
+					dotRowsU8(want[i*c.m:(i+1)*c.m], w, xs[i*c.d:(i+1)*c.d], zero)
+				}
+				got := make([]int32, n*c.m)
+				a.mulRows(got, xs, n, &buf, &pairs)
+				if !reflect.DeepEqual(got, want) {
+					t.Fatalf("%d×%d %s, %d inputs: batch kernel differs from the plain products", c.m, c.d, fill, n)
+				}
+			}
 		}
 	}
 }
@@ -601,5 +624,54 @@ func dotRowsU8(acc []int32, w []int8, x []uint8, b []int32) {
 			s0 += int32(row[i]) * int32(x[i])
 		}
 		acc[j] = s0 + s1 + s2 + s3 + b[j]
+	}
+}
+
+// TestRequantNormMatchesMulShift: the specialised requantisation gives the
+// integers of the general one (mulShift, checked against math/big in
+// TestFixedMulEq6) for every shift it accepts, at random and extreme
+// products, signs and reciprocals.
+func TestRequantNormMatchesMulShift(t *testing.T) {
+	rng := rand.New(rand.NewPCG(21, 22))
+	const k, nn = 40, 300
+	mid := 0
+	for trial := 0; trial < 200; trial++ {
+		rq := make([]requantConst, k)
+		acc := make([]int32, k)
+		for j := range rq {
+			rq[j] = requantConst{wsum: rng.Int64N(2*127*nn) - 127*nn, m0: 1<<30 + rng.Uint64N(1<<30), s: uint(1 + rng.IntN(63)),
+				bpos: rng.Int64N(1<<24) - 1<<23, bneg: rng.Int64N(1<<24) - 1<<23}
+			acc[j] = int32(rng.Int64N(2*255*127*nn) - 255*127*nn)
+		}
+		sum := rng.Int64N(255 * nn)
+		recip := 1<<20 + rng.Uint64N(1<<34)
+		if trial%10 == 0 {
+			recip = 1<<62 - 1
+		}
+		fp, fn := make([]uint8, k), make([]uint8, k)
+		requantNorm(fp, fn, acc, rq, nn, sum, recip)
+		for j, a := range acc {
+			c := rq[j]
+			num := nn*int64(a) - sum*c.wsum
+			hi, lo := bits.Mul64(absU(num), recip)
+			zs := int64(min(hi<<34|lo>>30, satMax))
+			if num < 0 {
+				zs = -zs
+			}
+			tk := mulShift(zs, c.m0, int(c.s))
+			if wp, wn := clampU8((tk+c.bpos+1<<15)>>16), clampU8((-tk+c.bneg+1<<15)>>16); fp[j] != wp || fn[j] != wn {
+				t.Fatalf("trial %d template %d: specialised %d/%d, general %d/%d", trial, j, fp[j], fn[j], wp, wn)
+			}
+			for _, v := range []uint8{fp[j], fn[j]} {
+				if v > 0 && v < 255 {
+					mid++
+				}
+			}
+		}
+	}
+	// The comparison means something only if codes off the clamps occur.
+	t.Logf("%d codes inside (0, 255)", mid)
+	if mid < 200 {
+		t.Errorf("only %d of %d codes lie strictly inside (0, 255); the draws test little but the clamps", mid, 2*200*k)
 	}
 }

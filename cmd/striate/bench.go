@@ -6,6 +6,7 @@ import (
 	"strconv"
 	"strings"
 
+	"github.com/striate/striate/eval"
 	"github.com/striate/striate/internal/benchwork"
 	"github.com/striate/striate/internal/frontbench"
 	"github.com/striate/striate/v1layer"
@@ -20,7 +21,9 @@ type benchContext struct {
 	Quick   bool
 	Threads []int
 	Repeats int
+	Full    bool
 	g       *globals
+	stages  *eval.BenchReport
 }
 
 // benchSection is one block of the table. Packages that add timings (sparse
@@ -31,7 +34,7 @@ type benchSection struct {
 	Rows func(bc *benchContext) ([]benchRow, error)
 }
 
-var benchSections = []benchSection{{Name: "front end", Rows: benchFrontEnd}}
+var benchSections = []benchSection{{Name: "front end", Rows: benchFrontEnd}, {Name: "stages", Rows: benchStages}}
 
 func init() {
 	register(&command{
@@ -40,12 +43,14 @@ func init() {
 		usage:   "",
 		example: `  striate bench                       # the reference work built into the binary
   striate bench --ref /data/bench --quick
+  striate bench --full                # plus the 60,000-image fits the targets need
   GOEXPERIMENT=simd go run ./cmd/striate bench   # the SIMD build (Go 1.26, amd64)`,
 		setup: func(fs *flag.FlagSet, g *globals) func([]string) error {
 			ref := fs.String("ref", "", "reference `folder` to use instead of the built-in reference work (holding filterbank.json, filterbank_kernels.json, README.md and data/crops256_8x8.png)")
 			quick := fs.Bool("quick", false, "time a subset (1,000 MNIST images, 16 crops, 2 repeats) in a few seconds")
 			threads := fs.String("threads", "1,2", "comma-separated thread counts to time")
 			repeats := fs.Int("repeats", 5, "timed repeats after one warm-up; the median is reported")
+			full := fs.Bool("full", false, "also fit the presets on all 60,000 MNIST and Fashion-MNIST training images and score them (minutes)")
 			g.addQuiet(fs)
 			return func(args []string) error {
 				if len(args) != 0 {
@@ -66,7 +71,7 @@ func init() {
 				if err != nil {
 					return err
 				}
-				bc := &benchContext{Dir: dir, Quick: *quick, Threads: ts, Repeats: *repeats, g: g}
+				bc := &benchContext{Dir: dir, Quick: *quick, Threads: ts, Repeats: *repeats, Full: *full, g: g}
 				if *quick && *repeats == 5 {
 					bc.Repeats = 2
 				}
@@ -87,7 +92,27 @@ func runBench(bc *benchContext) error {
 		}
 		rows = append(rows, r...)
 	}
-	return frontbench.WriteTable(g.stdout, rows)
+	if err := frontbench.WriteTable(g.stdout, rows); err != nil || bc.stages == nil {
+		return err
+	}
+	fmt.Fprintln(g.stdout)
+	for _, n := range bc.stages.Notes {
+		fmt.Fprintf(g.stdout, "  %s\n", n)
+	}
+	fmt.Fprintln(g.stdout, "\ntargets:")
+	return eval.WriteTargets(g.stdout, eval.BenchTargets(rows, bc.stages.Facts))
+}
+
+// benchStages times the stages past the front end (eval.Bench).
+func benchStages(bc *benchContext) ([]benchRow, error) {
+	bar := bc.g.newProgress(3, "timing sparse coding, templates, fits and latency")
+	r, err := eval.Bench(eval.BenchConfig{Quick: bc.Quick, Full: bc.Full}, bar)
+	bar.Done()
+	if err != nil {
+		return nil, err
+	}
+	bc.stages = r
+	return r.Rows, nil
 }
 
 // benchFrontEnd times the default front end on the reference work

@@ -28,6 +28,30 @@ type Row struct {
 	Peer     float64 // fastest general-purpose peer's figure, 0 if none
 	PeerName string
 	Build    string // which build produced the figure (plain or simd)
+	// PeerHigh > Peer makes the peer's figure the range Peer..PeerHigh;
+	// the ratio is then taken against the end nearer striate's figure.
+	PeerHigh float64
+	// Lower marks a figure where lower is better (seconds, milliseconds,
+	// bytes): its ratio is the peer's over striate's, so that above 1×
+	// always means striate does better.
+	Lower bool
+}
+
+// Ratio returns how many times better striate's figure is than the peer's
+// (striate/peer, or peer/striate for a Lower figure; against the nearer end
+// of a range), and false when there is no peer figure.
+func (r Row) Ratio() (float64, bool) {
+	if r.Peer <= 0 || r.Striate <= 0 {
+		return 0, false
+	}
+	p := r.Peer
+	if r.PeerHigh > r.Peer && r.Striate > r.Peer {
+		p = min(r.PeerHigh, r.Striate)
+	}
+	if r.Lower {
+		return p / r.Striate, true
+	}
+	return r.Striate / p, true
 }
 
 // FrontEndConfig says how FrontEnd times.
@@ -146,8 +170,10 @@ func FrontEnd(dir string, cfg FrontEndConfig, p Progress) (*FrontEndReport, erro
 }
 
 // WriteTable writes rows as the bench table: each figure beside its peer's
-// and their ratio (a dash where no peer figure is known). Figures of 1,000
-// and more are rounded to whole units with thousands separators.
+// and their ratio (Row.Ratio: above 1× striate does better; a dash where no
+// peer figure is known). Figures of 1,000 and more are rounded to whole
+// units with thousands separators, those below 1 keep three significant
+// digits.
 func WriteTable(w io.Writer, rows []Row) error {
 	tw := tabwriter.NewWriter(w, 2, 4, 2, ' ', tabwriter.AlignRight)
 	fmt.Fprintln(tw, "stage\tsize\tthreads\tstriate\tpeer\tratio\tunit\tfastest peer\tbuild\t")
@@ -155,7 +181,12 @@ func WriteTable(w io.Writer, rows []Row) error {
 		peer, ratio := "—", "—"
 		if r.Peer > 0 {
 			peer = fmtRate(r.Peer)
-			ratio = fmt.Sprintf("%.2f×", r.Striate/r.Peer)
+			if r.PeerHigh > r.Peer {
+				peer += "–" + fmtRate(r.PeerHigh)
+			}
+		}
+		if x, ok := r.Ratio(); ok {
+			ratio = fmt.Sprintf("%.2f×", x)
 		}
 		fmt.Fprintf(tw, "%s\t%s\t%d\t%s\t%s\t%s\t%s\t%s\t%s\t\n", r.Stage, r.Size, r.Threads, fmtRate(r.Striate), peer, ratio, r.Unit, r.PeerName, r.Build)
 	}
@@ -169,6 +200,9 @@ func fmtRate(v float64) string {
 			s = s[:i] + "," + s[i:]
 		}
 		return s
+	}
+	if v != 0 && math.Abs(v) < 1 {
+		return strconv.FormatFloat(v, 'g', 3, 64)
 	}
 	return strconv.FormatFloat(v, 'f', 1, 64)
 }

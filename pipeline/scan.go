@@ -35,6 +35,13 @@ type ScanConfig struct {
 	// the region's background (its median) by more than InkFraction of
 	// the region's range (max − median). Default 0.25; range (0, 1).
 	InkFraction float64 `json:"ink_fraction,omitempty"`
+	// FrameContrast: a pixel is ink only when it also lies above the search
+	// region's background by more than FrameContrast of the whole frame's
+	// range (its maximum − its median grey), so that a belt's own texture
+	// (bricks' mortar, grass) is not taken for ink in a region that holds
+	// no item, whose own range is only the texture's. Default 0.3;
+	// negative for none; range [0, 1).
+	FrameContrast float64 `json:"frame_contrast,omitempty"`
 	// Gap joins ink across background gaps of up to 2·Gap px (a square
 	// dilation of radius Gap before 8-connected grouping), so broken
 	// strokes and the parts of a sandal stay together. Default 1; range
@@ -87,12 +94,13 @@ type ScanConfig struct {
 
 // Defaults of ScanConfig's zero fields.
 const (
-	DefaultInkFraction  = 0.25
-	DefaultGap          = 1
-	DefaultThreshold    = 0.5
-	DefaultNMSIoU       = 0.3
-	DefaultMaxItems     = 10
-	DefaultStopFraction = 0.05
+	DefaultInkFraction   = 0.25
+	DefaultFrameContrast = 0.3
+	DefaultGap           = 1
+	DefaultThreshold     = 0.5
+	DefaultNMSIoU        = 0.3
+	DefaultMaxItems      = 10
+	DefaultStopFraction  = 0.05
 )
 
 // DefaultFrames and DefaultSizes are the defaults of ScanConfig.Frames
@@ -128,6 +136,9 @@ func (c ScanConfig) withDefaults(m *Model) ScanConfig {
 	}
 	if c.Gap == 0 {
 		c.Gap = DefaultGap
+	}
+	if c.FrameContrast == 0 {
+		c.FrameContrast = DefaultFrameContrast
 	}
 	c.Frames, c.Sizes = factorsOr(c.Frames, DefaultFrames), factorsOr(c.Sizes, DefaultSizes)
 	if c.Threshold == 0 {
@@ -167,6 +178,8 @@ func (c ScanConfig) validate() error {
 		return fmt.Errorf("pipeline: ScanConfig.MinItemSide %d px out of range [1,%d] (ItemSize); 0 means ItemSize/2", c.MinItemSide, c.ItemSize)
 	case !(c.InkFraction > 0 && c.InkFraction < 1):
 		return fmt.Errorf("pipeline: ScanConfig.InkFraction %v out of range (0,1); 0 means %v", c.InkFraction, DefaultInkFraction)
+	case !(c.FrameContrast < 1) || math.IsNaN(c.FrameContrast):
+		return fmt.Errorf("pipeline: ScanConfig.FrameContrast %v out of range [0,1); 0 means %v, negative none", c.FrameContrast, DefaultFrameContrast)
 	case c.Gap < 1 || c.Gap > maxScanGap:
 		return fmt.Errorf("pipeline: ScanConfig.Gap %d px out of range [1,%d]; 0 means %d", c.Gap, maxScanGap, DefaultGap)
 	case len(c.Frames) > maxScanFrames:
@@ -295,6 +308,7 @@ type scanWork struct {
 	maps   v1layer.Maps
 	sal    []float32
 	hist   []int32
+	floor  float32 // FrameContrast × the frame's range (max − median)
 	ink    []bool
 	dil    []bool
 	tmp    []bool
@@ -344,7 +358,7 @@ func (s *Scanner) MinSide() int { return max(s.sal.MinSide(), s.ih, s.iw) }
 // larger than v1layer.MaxSide, for img shorter than h·w and for NaN or
 // infinite pixels (dst is then emptied). It panics if dst is nil.
 func (s *Scanner) Scan(dst *ScanResult, img []float32, h, w, workers int) error {
-	cands, err := s.scan(dst, img, h, w, workers, s.cfg.Threshold)
+	cands, err := s.scan(dst, img, h, w, workers, s.cfg.Threshold, nil)
 	if err != nil {
 		return err
 	}
@@ -354,8 +368,10 @@ func (s *Scanner) Scan(dst *ScanResult, img []float32, h, w, workers int) error 
 
 // scan runs steps 1-4 of the method and the recogniser, and returns every
 // fixation's most confident window (all of them, whatever their score),
-// in fixation order; dst gets the fixations.
-func (s *Scanner) scan(dst *ScanResult, img []float32, h, w, workers int, stopAt float64) ([]ScanItem, error) {
+// in fixation order; dst gets the fixations. A non-nil sink receives
+// every recognised fixation's candidate windows (at the model's input
+// size), the boxes they stand for and their probabilities.
+func (s *Scanner) scan(dst *ScanResult, img []float32, h, w, workers int, stopAt float64, sink windowSink) ([]ScanItem, error) {
 	if dst == nil {
 		panic("pipeline: Scan into a nil *ScanResult")
 	}
@@ -382,6 +398,10 @@ func (s *Scanner) scan(dst *ScanResult, img []float32, h, w, workers int, stopAt
 	}
 	wk := s.scratch.Get().(*scanWork)
 	defer s.scratch.Put(wk)
+	wk.floor = 0
+	if s.cfg.FrameContrast > 0 {
+		wk.floor = float32(s.cfg.FrameContrast) * (hi - medianGrey(wk, img, [4]int{0, 0, w, h}, w))
+	}
 	if err := s.sal.Map(&wk.maps, img, h, w, workers); err != nil {
 		return nil, fmt.Errorf("pipeline: scan: %w", err)
 	}
@@ -415,6 +435,9 @@ func (s *Scanner) scan(dst *ScanResult, img []float32, h, w, workers int, stopAt
 			if err != nil {
 				return nil, fmt.Errorf("pipeline: scan: %w", err)
 			}
+			if sink != nil {
+				sink(wins, boxes, probs)
+			}
 			bj, bc, bp := 0, 0, float32(-1)
 			for j, p := range probs {
 				if c := argmax(p); p[c] > bp {
@@ -435,6 +458,9 @@ func (s *Scanner) scan(dst *ScanResult, img []float32, h, w, workers int, stopAt
 	}
 	return cands, nil
 }
+
+// windowSink receives one fixation's candidate windows (see scan).
+type windowSink func(wins [][]float32, boxes [][4]int, probs [][]float32)
 
 // splitPerItem: an ink group whose box's longer side exceeds splitPerItem·
 // ItemSize may hold several touching items, so windows of the item's own
@@ -621,34 +647,21 @@ func (s *Scanner) group(wk *scanWork, img []float32, w int, rect [4]int, fx, fy 
 	if n <= 0 {
 		return inkGroup{}, false
 	}
-	// Background: the median grey, from a 1024-bin histogram.
-	const bins = 1024
-	if len(wk.hist) != bins {
-		wk.hist = make([]int32, bins)
-	}
-	clear(wk.hist)
 	hi := float32(0)
 	for y := rect[1]; y < rect[3]; y++ {
 		for _, v := range img[y*w+rect[0] : y*w+rect[2]] {
-			wk.hist[min(bins-1, max(0, int(v*bins)))]++
 			hi = max(hi, v)
 		}
 	}
-	var acc int32
-	bg := float32(0)
-	for b, c := range wk.hist {
-		acc += c
-		if 2*int(acc) >= n {
-			bg = (float32(b) + 0.5) / bins
-			break
-		}
-	}
-	bg = min(bg, hi)
+	bg := min(medianGrey(wk, img, rect, w), hi)
 	rng := hi - bg
 	if rng < minScanContrast {
 		return inkGroup{}, false
 	}
-	t := bg + float32(s.cfg.InkFraction)*rng
+	t := bg + max(float32(s.cfg.InkFraction)*rng, wk.floor)
+	if hi <= t {
+		return inkGroup{}, false
+	}
 	wk.ink, wk.dil, wk.tmp = growBool(wk.ink, n), growBool(wk.dil, n), growBool(wk.tmp, n)
 	for y := range rh {
 		for x, v := range img[(y+rect[1])*w+rect[0] : (y+rect[1])*w+rect[2]] {
@@ -714,6 +727,30 @@ func (s *Scanner) group(wk *scanWork, img []float32, w int, rect [4]int, fx, fy 
 		g.mask[p] = l == g.label
 	}
 	return g, true
+}
+
+// medianGrey returns the median grey of the half-open rectangle rect of
+// the frame img of width w, to within half a bin of a 1024-bin histogram.
+func medianGrey(wk *scanWork, img []float32, rect [4]int, w int) float32 {
+	const bins = 1024
+	if len(wk.hist) != bins {
+		wk.hist = make([]int32, bins)
+	}
+	clear(wk.hist)
+	for y := rect[1]; y < rect[3]; y++ {
+		for _, v := range img[y*w+rect[0] : y*w+rect[2]] {
+			wk.hist[min(bins-1, max(0, int(v*bins)))]++
+		}
+	}
+	n := (rect[2] - rect[0]) * (rect[3] - rect[1])
+	var acc int32
+	for b, c := range wk.hist {
+		acc += c
+		if 2*int(acc) >= n {
+			return (float32(b) + 0.5) / bins
+		}
+	}
+	return 0
 }
 
 // boxDistance is the distance from (x, y) to the half-open pixel box b
@@ -874,7 +911,7 @@ func (s *Scanner) ChooseThreshold(scenes []datasets.Scene, workers int) (Thresho
 	var res ScanResult
 	for i := range scenes {
 		sc := &scenes[i]
-		c, err := s.scan(&res, sc.Pix, sc.H, sc.W, workers, math.Inf(1))
+		c, err := s.scan(&res, sc.Pix, sc.H, sc.W, workers, math.Inf(1), nil)
 		if err != nil {
 			return ThresholdChoice{}, fmt.Errorf("pipeline: ChooseThreshold: scene %d: %w", i, err)
 		}

@@ -1,7 +1,9 @@
 package pipeline
 
 import (
+	"encoding/json"
 	"math"
+	"os"
 	"testing"
 )
 
@@ -83,5 +85,41 @@ func TestWTAStopFraction(t *testing.T) {
 	}
 	if len(got) != 3 || got[0] != 1 || got[1] != 0.5 || got[2] != 0.3 {
 		t.Errorf("visited %v; want [1 0.5 0.3] (0.04 is below 5%% of the first peak)", got)
+	}
+}
+
+// The background grey of a search region is its median to within half a
+// bin of the 1024-bin histogram (the tolerance: 1/2048), against
+// numpy.median (NumPy 1.24.2; testdata/pipeline/gen_scanmedian.py) on
+// rectangles of a random image.
+func TestMedianGreyNumPy(t *testing.T) {
+	var img struct {
+		H, W int
+		In   []float32
+	}
+	var ref struct {
+		Cases []struct {
+			Rect   [4]int
+			Median float64
+		}
+	}
+	for path, v := range map[string]any{"../testdata/pipeline/median.json": &img, "../testdata/pipeline/scan_median.json": &ref} {
+		b, err := os.ReadFile(path)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if err := json.Unmarshal(b, v); err != nil {
+			t.Fatal(err)
+		}
+	}
+	if len(ref.Cases) == 0 || len(img.In) != img.H*img.W {
+		t.Fatalf("reference files hold %d cases, %d pixels for %d×%d", len(ref.Cases), len(img.In), img.H, img.W)
+	}
+	var wk scanWork
+	for _, c := range ref.Cases {
+		got := medianGrey(&wk, img.In, c.Rect, img.W)
+		if math.Abs(float64(got)-c.Median) > 1.0/2048 {
+			t.Errorf("rect %v: median %v; NumPy %v", c.Rect, got, c.Median)
+		}
 	}
 }

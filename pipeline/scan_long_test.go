@@ -94,16 +94,50 @@ func scanTargets(t *testing.T, fashion bool, n int) {
 	if err != nil {
 		t.Fatal(err)
 	}
+	belt := datasets.SceneConfig{Background: datasets.Texture, Lint: 4, EmptyFrac: 0.1}
 	start := time.Now()
-	m, err := pipeline.Fit(cfg, firstImages(train, 0, nFit), pipeline.FitOptions{Workers: 2})
-	if err != nil {
-		t.Fatal(err)
+	fitSet := firstImages(train, 0, nFit)
+	var m *pipeline.Model
+	if os.Getenv("STRIATE_SCAN_FIT") == "plain" {
+		if m, err = pipeline.Fit(cfg, fitSet, pipeline.FitOptions{Workers: 2}); err != nil {
+			t.Fatal(err)
+		}
+		t.Logf("%s: fitted %q on %d training images in %v", test.Name, preset, nFit, time.Since(start).Round(time.Second))
+	} else {
+		// Training scenes (and, for MNIST, cluttered canvases) from the same
+		// training images; the recogniser is fitted again on what its
+		// attention picks in them.
+		trCfg := belt
+		trCfg.Seed = 303
+		trb, err := datasets.NewSceneBuilder(fitSet, trCfg)
+		if err != nil {
+			t.Fatal(err)
+		}
+		scenes := trb.Scenes(0, nVal)
+		if !fashion {
+			for k := range nFit / 4 {
+				c := datasets.Clutter60
+				if k%2 == 1 {
+					c = datasets.Clutter100
+				}
+				c.Seed = 404
+				sc, err := datasets.Clutter(nil, fitSet, k, c)
+				if err != nil {
+					t.Fatal(err)
+				}
+				scenes = append(scenes, *sc)
+			}
+		}
+		var rep pipeline.ScanFitReport
+		if m, rep, err = pipeline.FitScanner(cfg, fitSet, scenes, pipeline.ScanFitConfig{}, pipeline.FitOptions{Workers: 2}); err != nil {
+			t.Fatal(err)
+		}
+		t.Logf("%s: FitScanner %q on %d training images and %d training scenes in %v: %d fixations, %d windows, %d matched, %d added",
+			test.Name, preset, nFit, len(scenes), time.Since(start).Round(time.Second), rep.Fixations, rep.Windows, rep.Matched, rep.Added)
 	}
-	t.Logf("%s: fitted %q on %d training images in %v", test.Name, preset, nFit, time.Since(start).Round(time.Second))
 
 	// The "no item" threshold, on scenes from training images the model has
 	// not seen.
-	belt := datasets.SceneConfig{Background: datasets.Texture, Lint: 4, EmptyFrac: 0.1}
 	valCfg := belt
 	valCfg.Seed = 101
 	vb, err := datasets.NewSceneBuilder(firstImages(train, nFit, train.N-nFit), valCfg)

@@ -10,7 +10,6 @@ import (
 
 	"github.com/striate/striate/datasets"
 	"github.com/striate/striate/eval"
-	"github.com/striate/striate/learn"
 	"github.com/striate/striate/pipeline"
 	"github.com/striate/striate/v1layer"
 )
@@ -58,14 +57,7 @@ var shapeOnce struct {
 func shapeModel(t testing.TB) *pipeline.Model {
 	t.Helper()
 	shapeOnce.Do(func() {
-		cfg := pipeline.Config{
-			Templates:    []learn.TemplateConfig{},
-			Pool:         pipeline.PoolConfig{Size: 4},
-			Head:         learn.HeadConfig{Kind: learn.KindSoftmax, Epochs: 30, ValFrac: -1},
-			HeadMinSteps: -1,
-			Seed:         3,
-		}
-		shapeOnce.m, shapeOnce.err = pipeline.Fit(cfg, shapeSet(600, 1), pipeline.FitOptions{Workers: 2})
+		shapeOnce.m, shapeOnce.err = pipeline.Fit(shapeConfig(), shapeSet(600, 1), pipeline.FitOptions{Workers: 2})
 	})
 	if shapeOnce.err != nil {
 		t.Fatal(shapeOnce.err)

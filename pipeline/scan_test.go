@@ -282,6 +282,7 @@ func TestScanConfigValidation(t *testing.T) {
 		{pipeline.ScanConfig{InkFraction: 1}, "InkFraction"},
 		{pipeline.ScanConfig{Gap: 17}, "Gap"},
 		{pipeline.ScanConfig{FrameContrast: 1}, "FrameContrast"},
+		{pipeline.ScanConfig{SplitSide: 0.5}, "SplitSide"},
 		{pipeline.ScanConfig{Frames: []float64{0.5}}, "Frames"},
 		{pipeline.ScanConfig{Sizes: []float64{4}}, "Sizes"},
 		{pipeline.ScanConfig{Threshold: 1.5}, "Threshold"},
@@ -304,8 +305,8 @@ func TestScanConfigDefaults(t *testing.T) {
 	m := shapeModel(t)
 	want := pipeline.ScanConfig{
 		ItemSize: 28, MinItemSide: 14, InkFraction: pipeline.DefaultInkFraction, Gap: pipeline.DefaultGap,
-		FrameContrast: pipeline.DefaultFrameContrast,
-		Frames:        pipeline.DefaultFrames, Sizes: pipeline.DefaultSizes, Threshold: pipeline.DefaultThreshold,
+		FrameContrast: pipeline.DefaultFrameContrast, SplitSide: pipeline.DefaultSplitSide,
+		Frames: pipeline.DefaultFrames, Sizes: pipeline.DefaultSizes, Threshold: pipeline.DefaultThreshold,
 		NMSIoU: pipeline.DefaultNMSIoU, MaxItems: pipeline.DefaultMaxItems, MaxFixations: 3 * pipeline.DefaultMaxItems,
 		StopFraction: pipeline.DefaultStopFraction, Border: 7,
 	}

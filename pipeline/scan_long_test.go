@@ -3,6 +3,7 @@ package pipeline_test
 import (
 	"fmt"
 	"os"
+	"path/filepath"
 	"slices"
 	"strconv"
 	"testing"
@@ -34,7 +35,8 @@ import (
 // n/10 validation scenes (at least 20), n/4 test
 // canvases and n/10 test scenes (a quick proof that it works; the
 // figures are then far from the targets). STRIATE_ACC=mnist or fashion
-// picks one dataset.
+// picks one dataset; STRIATE_SCAN_SAVE=dir saves the fitted
+// models there.
 func TestScanTargets(t *testing.T) {
 	if os.Getenv("STRIATE_LONG") != "1" {
 		t.Skip("scene run: set STRIATE_LONG=1 (hours on 2 cores at full scale; STRIATE_SCAN_N=n for a reduced run)")
@@ -47,13 +49,15 @@ func TestScanTargets(t *testing.T) {
 		}
 	}
 	for _, fashion := range []bool{false, true} {
-		name := map[bool]string{false: "mnist", true: "fashion"}[fashion]
-		if sel := os.Getenv("STRIATE_ACC"); sel != "" && sel != name {
+		if sel := os.Getenv("STRIATE_ACC"); sel != "" && sel != datasetName(fashion) {
 			continue
 		}
-		t.Run(name, func(t *testing.T) { scanTargets(t, fashion, n) })
+		t.Run(datasetName(fashion), func(t *testing.T) { scanTargets(t, fashion, n) })
 	}
 }
+
+// datasetName names the run of one dataset.
+func datasetName(fashion bool) string { return map[bool]string{false: "mnist", true: "fashion"}[fashion] }
 
 // scanTarget is one row of the targets table.
 type scanTarget struct {
@@ -155,6 +159,11 @@ func scanTargets(t *testing.T, fashion bool, n int) {
 			test.Name, preset, nFit, len(scenes), time.Since(start).Round(time.Second), rep.Fixations, rep.Windows, rep.Matched, rep.Added)
 	}
 
+	if dir := os.Getenv("STRIATE_SCAN_SAVE"); dir != "" {
+		if err := m.SaveFile(filepath.Join(dir, datasetName(fashion)+".model")); err != nil {
+			t.Fatal(err)
+		}
+	}
 	// The "no item" threshold, on scenes from training images the model has
 	// not seen.
 	valCfg := belt

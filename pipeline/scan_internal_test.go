@@ -123,3 +123,44 @@ func TestMedianGreyNumPy(t *testing.T) {
 		}
 	}
 }
+
+// A scrap 2 px from an item joins its ink group (the dilation by Gap = 1
+// bridges gaps of up to 2 px), and the group's core is the item alone
+// (hand-worked boxes); a scrap overlapping the item's ink is one component
+// with it, so there is no core.
+func TestCoreDropsJoinedScrap(t *testing.T) {
+	const n = 60
+	s := &Scanner{cfg: ScanConfig{ItemSize: 28}.withDefaults(nil)}
+	frame := func(scrapX int) []float32 {
+		img := make([]float32, n*n)
+		for y := 20; y < 40; y++ {
+			for x := 20; x < 24; x++ {
+				img[y*n+x] = 1 // the item: a 4×20 bar
+			}
+		}
+		for y := 25; y < 31; y++ {
+			for x := scrapX; x < scrapX+6; x++ {
+				img[y*n+x] = 0.8 // a 6×6 scrap
+			}
+		}
+		return img
+	}
+	var wk scanWork
+	rect := [4]int{0, 0, n, n}
+	img := frame(26) // columns 24 and 25 empty
+	g, ok := s.group(&wk, img, n, rect, 22, 30)
+	if !ok || g.box != [4]int{20, 20, 32, 40} {
+		t.Fatalf("group %v (found %v); want the bar and the scrap, [20 20 32 40]", g.box, ok)
+	}
+	_, box, ok := s.core(&wk, img, n, g, rect)
+	if !ok || box != [4]int{20, 20, 24, 40} {
+		t.Errorf("core %v (found %v); want the bar alone, [20 20 24 40]", box, ok)
+	}
+	img = frame(22) // overlaps the bar
+	if g, ok = s.group(&wk, img, n, rect, 22, 30); !ok {
+		t.Fatal("no group on the overlapping frame")
+	}
+	if _, box, ok := s.core(&wk, img, n, g, rect); ok {
+		t.Errorf("overlapping scrap: core %v; want none (one component)", box)
+	}
+}

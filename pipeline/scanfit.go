@@ -68,7 +68,10 @@ type ScanFitReport struct {
 // fine-tuning on proposals of IoU ≥ 0.5 with a ground-truth box).
 //
 // The model's classes are train's; no "no item" class is added, so Predict
-// and PredictBatch on clean images behave as any model's do. The "no item"
+// and PredictBatch on clean images behave as any model's do, but the
+// windows share the head with the clean images and may cost a little clean
+// accuracy (the scene run, TestScanTargets, prints it beside the scene
+// figures). The "no item"
 // decision stays the threshold: choose it afterwards with
 // Scanner.ChooseThreshold on other validation scenes of the training
 // split. train's images must be at the model's input size (cfg.Input).

@@ -1,7 +1,9 @@
 package pipeline
 
 import (
+	"encoding/json"
 	"math"
+	"os"
 	"testing"
 )
 
@@ -83,5 +85,82 @@ func TestWTAStopFraction(t *testing.T) {
 	}
 	if len(got) != 3 || got[0] != 1 || got[1] != 0.5 || got[2] != 0.3 {
 		t.Errorf("visited %v; want [1 0.5 0.3] (0.04 is below 5%% of the first peak)", got)
+	}
+}
+
+// The background grey of a search region is its median to within half a
+// bin of the 1024-bin histogram (the tolerance: 1/2048), against
+// numpy.median (NumPy 1.24.2; testdata/pipeline/gen_scanmedian.py) on
+// rectangles of a random image.
+func TestMedianGreyNumPy(t *testing.T) {
+	var img struct {
+		H, W int
+		In   []float32
+	}
+	var ref struct {
+		Cases []struct {
+			Rect   [4]int
+			Median float64
+		}
+	}
+	for path, v := range map[string]any{"../testdata/pipeline/median.json": &img, "../testdata/pipeline/scan_median.json": &ref} {
+		b, err := os.ReadFile(path)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if err := json.Unmarshal(b, v); err != nil {
+			t.Fatal(err)
+		}
+	}
+	if len(ref.Cases) == 0 || len(img.In) != img.H*img.W {
+		t.Fatalf("reference files hold %d cases, %d pixels for %d×%d", len(ref.Cases), len(img.In), img.H, img.W)
+	}
+	var wk scanWork
+	for _, c := range ref.Cases {
+		got := medianGrey(&wk, img.In, c.Rect, img.W)
+		if math.Abs(float64(got)-c.Median) > 1.0/2048 {
+			t.Errorf("rect %v: median %v; NumPy %v", c.Rect, got, c.Median)
+		}
+	}
+}
+
+// A scrap 2 px from an item joins its ink group (the dilation by Gap = 1
+// bridges gaps of up to 2 px), and the group's core is the item alone
+// (hand-worked boxes); a scrap overlapping the item's ink is one component
+// with it, so there is no core.
+func TestCoreDropsJoinedScrap(t *testing.T) {
+	const n = 60
+	s := &Scanner{cfg: ScanConfig{ItemSize: 28}.withDefaults(nil)}
+	frame := func(scrapX int) []float32 {
+		img := make([]float32, n*n)
+		for y := 20; y < 40; y++ {
+			for x := 20; x < 24; x++ {
+				img[y*n+x] = 1 // the item: a 4×20 bar
+			}
+		}
+		for y := 25; y < 31; y++ {
+			for x := scrapX; x < scrapX+6; x++ {
+				img[y*n+x] = 0.8 // a 6×6 scrap
+			}
+		}
+		return img
+	}
+	var wk scanWork
+	rect := [4]int{0, 0, n, n}
+	img := frame(26) // columns 24 and 25 empty
+	g, ok := s.group(&wk, img, n, rect, 22, 30)
+	if !ok || g.box != [4]int{20, 20, 32, 40} {
+		t.Fatalf("group %v (found %v); want the bar and the scrap, [20 20 32 40]", g.box, ok)
+	}
+	_, box, ok := s.core(&wk, img, n, g, rect)
+	if !ok || box != [4]int{20, 20, 24, 40} {
+		t.Errorf("core %v (found %v); want the bar alone, [20 20 24 40]", box, ok)
+	}
+	img = frame(22) // overlaps the bar
+	if g, ok = s.group(&wk, img, n, rect, 22, 30); !ok {
+		t.Fatal("no group on the overlapping frame")
+	}
+	if _, box, ok := s.core(&wk, img, n, g, rect); ok {
+		t.Errorf("overlapping scrap: core %v; want none (one component)", box)
 	}
 }

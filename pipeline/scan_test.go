@@ -10,7 +10,6 @@ import (
 
 	"github.com/striate/striate/datasets"
 	"github.com/striate/striate/eval"
-	"github.com/striate/striate/learn"
 	"github.com/striate/striate/pipeline"
 	"github.com/striate/striate/v1layer"
 )
@@ -58,14 +57,7 @@ var shapeOnce struct {
 func shapeModel(t testing.TB) *pipeline.Model {
 	t.Helper()
 	shapeOnce.Do(func() {
-		cfg := pipeline.Config{
-			Templates:    []learn.TemplateConfig{},
-			Pool:         pipeline.PoolConfig{Size: 4},
-			Head:         learn.HeadConfig{Kind: learn.KindSoftmax, Epochs: 30, ValFrac: -1},
-			HeadMinSteps: -1,
-			Seed:         3,
-		}
-		shapeOnce.m, shapeOnce.err = pipeline.Fit(cfg, shapeSet(600, 1), pipeline.FitOptions{Workers: 2})
+		shapeOnce.m, shapeOnce.err = pipeline.Fit(shapeConfig(), shapeSet(600, 1), pipeline.FitOptions{Workers: 2})
 	})
 	if shapeOnce.err != nil {
 		t.Fatal(shapeOnce.err)
@@ -289,6 +281,8 @@ func TestScanConfigValidation(t *testing.T) {
 		{pipeline.ScanConfig{MinItemSide: 40}, "MinItemSide"},
 		{pipeline.ScanConfig{InkFraction: 1}, "InkFraction"},
 		{pipeline.ScanConfig{Gap: 17}, "Gap"},
+		{pipeline.ScanConfig{FrameContrast: 1}, "FrameContrast"},
+		{pipeline.ScanConfig{SplitSide: 0.5}, "SplitSide"},
 		{pipeline.ScanConfig{Frames: []float64{0.5}}, "Frames"},
 		{pipeline.ScanConfig{Sizes: []float64{4}}, "Sizes"},
 		{pipeline.ScanConfig{Threshold: 1.5}, "Threshold"},
@@ -311,6 +305,7 @@ func TestScanConfigDefaults(t *testing.T) {
 	m := shapeModel(t)
 	want := pipeline.ScanConfig{
 		ItemSize: 28, MinItemSide: 14, InkFraction: pipeline.DefaultInkFraction, Gap: pipeline.DefaultGap,
+		FrameContrast: pipeline.DefaultFrameContrast, SplitSide: pipeline.DefaultSplitSide,
 		Frames: pipeline.DefaultFrames, Sizes: pipeline.DefaultSizes, Threshold: pipeline.DefaultThreshold,
 		NMSIoU: pipeline.DefaultNMSIoU, MaxItems: pipeline.DefaultMaxItems, MaxFixations: 3 * pipeline.DefaultMaxItems,
 		StopFraction: pipeline.DefaultStopFraction, Border: 7,
@@ -432,5 +427,58 @@ func TestNMSHandWorked(t *testing.T) {
 	}
 	if len(in) != 5 || in[0] != D {
 		t.Error("NMS changed its input")
+	}
+}
+
+// A belt's own texture is not ink: on a frame of dark bricks (grey 0.08)
+// with irregular mortar lines (0.3, below the brightest grey of datasets'
+// Texture belts, DefaultTextureLevel 0.35) and one bright 6×6 scrap of
+// lint in a corner, no item is found; without the frame-contrast rule
+// (FrameContrast < 0) the mortar around fixations far from the lint is
+// taken for ink and recognised.
+func TestScanBeltTextureIsNotInk(t *testing.T) {
+	const h, w = 128, 128
+	img := make([]float32, h*w)
+	r := rand.New(rand.NewPCG(4, 5))
+	for i := range img {
+		img[i] = 0.08
+	}
+	for y0 := 0; y0 < h; y0 += 18 + r.IntN(12) { // courses of irregular height and brick length
+		for x := range w {
+			for y := y0; y < min(h, y0+3); y++ {
+				img[y*w+x] = 0.3
+			}
+		}
+		for x0 := r.IntN(30); x0 < w; x0 += 25 + r.IntN(30) {
+			for y := y0; y < min(h, y0+30); y++ {
+				for x := x0; x < min(w, x0+3); x++ {
+					img[y*w+x] = 0.3
+				}
+			}
+		}
+	}
+	for _, p := range [][2]int{{112, 110}} {
+		for y := p[1]; y < p[1]+6; y++ {
+			for x := p[0]; x < p[0]+6; x++ {
+				img[y*w+x] = 1
+			}
+		}
+	}
+	count := func(fc float64) int {
+		s, err := pipeline.NewScanner(shapeModel(t), pipeline.ScanConfig{FrameContrast: fc, Threshold: 1e-6, MaxFixations: 100})
+		if err != nil {
+			t.Fatal(err)
+		}
+		var res pipeline.ScanResult
+		if err := s.Scan(&res, img, h, w, 1); err != nil {
+			t.Fatal(err)
+		}
+		return len(res.Items)
+	}
+	if n := count(0); n != 0 {
+		t.Errorf("default FrameContrast: %d items on a bare brick belt with lint; want none", n)
+	}
+	if n := count(-1); n == 0 {
+		t.Errorf("FrameContrast < 0: no item on the brick belt; the test's mortar no longer reaches the ink rule")
 	}
 }

@@ -159,11 +159,15 @@ func Train(cfg TrainConfig, open func(spec string, h, w int) (*datasets.Set, err
 		}
 	}
 	if val != nil {
-		var st pipeline.StoredScan
-		if r.Model, st, err = ChooseScan(r.Model, val, cfg.Scan, source, index, cfg.Workers, mon); err != nil {
-			return nil, err
+		ms, st, err := ChooseScan(r.Model, val, cfg.Scan, source, index, cfg.Workers, mon)
+		if err != nil {
+			// Keep the fit: write the model without a threshold, then fail.
+			if werr := safefile.Write(cfg.Out, r.Model.Save); werr != nil {
+				return nil, werr
+			}
+			return nil, fmt.Errorf("%w; the model was written to %s without a stored threshold (scan then uses %v unless given --threshold)", err, cfg.Out, pipeline.DefaultThreshold)
 		}
-		r.Scan = &st
+		r.Model, r.Scan = ms, &st
 	}
 	if err := safefile.Write(cfg.Out, r.Model.Save); err != nil {
 		return nil, err

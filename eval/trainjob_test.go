@@ -122,3 +122,32 @@ func TestTrainScenes(t *testing.T) {
 		t.Errorf("opened %q", opened)
 	}
 }
+
+// TestTrainScenesNoItems: validation scenes on which no fixation finds an
+// item cannot choose a threshold; Train then keeps the fit (the model is
+// written without a scan section) and fails saying so.
+func TestTrainScenesNoItems(t *testing.T) {
+	cfg := pipeline.Config{Templates: []learn.TemplateConfig{}, Pool: pipeline.PoolConfig{Size: 4},
+		Head: learn.HeadConfig{Kind: learn.KindSoftmax, Epochs: 5, ValFrac: -1}, HeadMinSteps: -1}
+	blank := make([]datasets.Scene, 3)
+	for i := range blank {
+		blank[i] = datasets.Scene{W: 96, H: 96, Pix: make([]float32, 96*96)}
+	}
+	dir := filepath.Join(t.TempDir(), "blank")
+	if err := datasets.WriteSceneFolder(dir, []string{"ring", "bar", "tee"}, blank); err != nil {
+		t.Fatal(err)
+	}
+	out := filepath.Join(t.TempDir(), "m.striate")
+	open := func(string, int, int) (*datasets.Set, error) { return beltItems(90, 1), nil }
+	_, err := Train(TrainConfig{Config: &cfg, Data: "belt", Scenes: dir, Out: out}, open, quietMonitor{})
+	if err == nil || !strings.Contains(err.Error(), "without a stored threshold") {
+		t.Fatalf("Train on blank validation scenes: %v", err)
+	}
+	m, err := pipeline.LoadFile(out)
+	if err != nil {
+		t.Fatalf("the fitted model was not kept: %v", err)
+	}
+	if _, ok := m.Scan(); ok {
+		t.Fatal("the kept model claims a scan section")
+	}
+}

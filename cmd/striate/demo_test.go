@@ -158,8 +158,8 @@ func TestDemoQuick(t *testing.T) {
 		t.Fatalf("%d belt results, want 2 (Fashion-MNIST and MNIST)", len(belt.Scenes))
 	}
 	for _, r := range belt.Scenes {
-		if r.Scores.Frames != 12 || !(r.Threshold > 0 && r.Threshold <= 1) {
-			t.Errorf("belt %s: %d frames scored (want the quick 12), threshold %v", r.Data, r.Scores.Frames, r.Threshold)
+		if r.Scores.Frames != 24 || !(r.Threshold > 0 && r.Threshold <= 1) {
+			t.Errorf("belt %s: %d frames scored (want the quick 24), threshold %v", r.Data, r.Scores.Frames, r.Threshold)
 		}
 	}
 

@@ -61,3 +61,61 @@ func TestDemoConfig(t *testing.T) {
 		t.Errorf("quick budgets not applied: %+v", c.LearnBank)
 	}
 }
+
+// stepMonitor records each step's total and the last count it reached.
+type stepMonitor struct{ totals, last map[string]int }
+
+func (m stepMonitor) Start(total int, what string) JobProgress {
+	m.totals[what] = total
+	return stepBar{m, what}
+}
+func (stepMonitor) Logf(string, ...any) {}
+
+type stepBar struct {
+	m    stepMonitor
+	what string
+}
+
+func (b stepBar) Step(done, _ int, _ string) { b.m.last[b.what] = done }
+func (stepBar) Done()                        {}
+
+// TestBeltStep: the belt step chooses the threshold on validation scenes
+// and scores the given number of test scenes with it, its progress bar
+// counts the test scenes to their total, the choice's bar has no length
+// it could not keep, and the report's gallery is drawn from the frames in
+// memory (contract test of the wiring; scoring is ScoreScenes').
+func TestBeltStep(t *testing.T) {
+	m := beltModel(t)
+	test := beltItems(150, 7)
+	test.Name = "belt-test"
+	mon := stepMonitor{map[string]int{}, map[string]int{}}
+	sz := beltSizes{val: 5, test: 4}
+	res, st, err := beltStep(m, "tiny", beltItems(150, 5), test, sz, "belt items", 3, 2, mon)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if res.Scores.Frames != sz.test || st.Scenes != sz.val || res.Threshold != st.Config.Threshold || res.Gallery == nil {
+		t.Fatalf("belt step: %d frames scored, %d validation scenes, threshold %v (stored %v), gallery %d bytes",
+			res.Scores.Frames, st.Scenes, res.Threshold, st.Config.Threshold, len(res.Gallery))
+	}
+	if mon.totals["belt belt-test"] != sz.test || mon.last["belt belt-test"] != sz.test {
+		t.Errorf("belt bar: total %d, reached %d; want %d", mon.totals["belt belt-test"], mon.last["belt belt-test"], sz.test)
+	}
+	if mon.totals["threshold (5 scenes)"] != 0 {
+		t.Errorf("threshold bar promised %d steps it never reports", mon.totals["threshold (5 scenes)"])
+	}
+	// The same seed gives the same scores.
+	res2, _, err := beltStep(m, "tiny", beltItems(150, 5), test, sz, "belt items", 3, 1, mon)
+	if err != nil || res2.Scores.Found != res.Scores.Found || res2.Scores.Matched != res.Scores.Matched {
+		t.Errorf("belt step not reproducible: %v, found %d vs %d", err, res2.Scores.Found, res.Scores.Found)
+	}
+}
+
+// TestUnfitted: the images a subset left out, in order.
+func TestUnfitted(t *testing.T) {
+	s := beltItems(10, 1)
+	u := unfitted(s, []int{0, 3, 4, 9})
+	if u.N != 6 || u.Labels[0] != s.Labels[1] || u.Labels[2] != s.Labels[5] {
+		t.Fatalf("unfitted: %d images, labels %v of %v", u.N, u.Labels, s.Labels)
+	}
+}

@@ -119,6 +119,7 @@ type ScanFrame struct {
 	// Drawn is the annotated picture written under ScanJobConfig.Out ("" when
 	// none).
 	Drawn string
+	pix   []float32 // the frame's grey pixels, for frames built in memory (the demo's belt); nil for files
 }
 
 // ScanJob is the outcome of RunScan.
@@ -132,6 +133,9 @@ type ScanJob struct {
 	Scores  *SceneScores
 	Folders []string // the scene folders scanned
 	Written []string // files written under Out
+	// Notes are lines for the person running the scan, such as settings
+	// that differ from those the model's stored threshold was chosen with.
+	Notes []string
 }
 
 // RunScan scans every source with a pipeline.Scanner of m: each frame is
@@ -145,7 +149,9 @@ type ScanJob struct {
 // frames and items.jsonl are written there, each file whole or not at all
 // (internal/safefile), so an interrupted run never damages what an earlier
 // one wrote. The scene metrics (ScoreScenes) cover the frames with ground
-// truth.
+// truth. A scene folder whose index is the one the model's threshold was
+// chosen on (pipeline.StoredScan.Index) is refused: its scores would not
+// be test figures.
 func RunScan(m *pipeline.Model, src []ScanSource, cfg ScanJobConfig, mon JobMonitor, skip func(error), emit func(*ScanFrame) error) (*ScanJob, error) {
 	sc, err := pipeline.NewScanner(m, cfg.Scan)
 	if err != nil {
@@ -161,7 +167,16 @@ func RunScan(m *pipeline.Model, src []ScanSource, cfg ScanJobConfig, mon JobMoni
 			return nil, err
 		}
 		if len(job.Folders) == 0 || job.Folders[len(job.Folders)-1] != s.Folder {
+			if err := checkNotValidation(m, s.Folder); err != nil {
+				return nil, err
+			}
 			job.Folders = append(job.Folders, s.Folder)
+		}
+	}
+	if st, ok := m.Scan(); ok && cfg.Scan.Threshold == 0 {
+		if d := st.Differs(job.Config); d != nil {
+			job.Notes = append(job.Notes, fmt.Sprintf("the model's threshold %.4f was chosen with other scan settings (%s differ); choose it again with striate train --scenes, or give --threshold",
+				st.Config.Threshold, strings.Join(d, ", ")))
 		}
 	}
 	if cfg.Out != "" {

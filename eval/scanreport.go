@@ -97,7 +97,22 @@ func (j *ScanJob) Report(title, command, model string) (*Report, error) {
 	for i, f := range j.Folders {
 		names[i] = filepath.Base(filepath.Clean(f))
 	}
-	res := &SceneResult{Model: model, Data: strings.Join(names, " + "), Source: strings.Join(j.Folders, " + "),
+	res, err := j.sceneResult(model, strings.Join(names, " + "), strings.Join(j.Folders, " + "))
+	if err != nil {
+		return nil, err
+	}
+	rep := NewReport(title, command)
+	rep.Summary = "Garment-sorting station at a second-hand clothing depot: the camera sees whole frames of the belt, and the scanner finds, boxes and names every item in them."
+	rep.Config = j.Config
+	rep.Scenes = []*SceneResult{res}
+	return rep, nil
+}
+
+// sceneResult returns the scenes section's result of the job's scored
+// frames under the names given: the scores, the frames with errors and the
+// page of hits and misses.
+func (j *ScanJob) sceneResult(model, data, source string) (*SceneResult, error) {
+	res := &SceneResult{Model: model, Data: data, Source: source,
 		Classes: j.Classes, Threshold: j.Config.Threshold, Scores: j.Scores}
 	var errs, hits []*ScanFrame
 	for i := range j.Frames {
@@ -133,11 +148,7 @@ func (j *ScanJob) Report(title, command, model string) (*Report, error) {
 	if res.Gallery, err = galleryPNG(shown[:min(len(shown), galleryFrames)], j.Classes); err != nil {
 		return nil, err
 	}
-	rep := NewReport(title, command)
-	rep.Summary = "Garment-sorting station at a second-hand clothing depot: the camera sees whole frames of the belt, and the scanner finds, boxes and names every item in them."
-	rep.Config = j.Config
-	rep.Scenes = []*SceneResult{res}
-	return rep, nil
+	return res, nil
 }
 
 // WriteReport writes the Report of the scan (title, command and model as
@@ -154,7 +165,8 @@ func (j *ScanJob) WriteReport(dir, title, command, model string) ([]string, erro
 // boxText writes a box as [x0 y0 x1 y1].
 func boxText(b [4]int) string { return fmt.Sprintf("[%d %d %d %d]", b[0], b[1], b[2], b[3]) }
 
-// galleryPNG draws frames (re-read from their files) with their hits,
+// galleryPNG draws frames (their pixels when the scan kept them, else
+// re-read from their files) with their hits,
 // false items and misses in a grid, each captioned with its file name and
 // counts, and encodes it as PNG; no frames give nil.
 func galleryPNG(frames []*ScanFrame, classes []string) ([]byte, error) {
@@ -165,11 +177,14 @@ func galleryPNG(frames []*ScanFrame, classes []string) ([]byte, error) {
 	var captions []string
 	cw, ch := 0, 0
 	for _, f := range frames {
-		img, err := datasets.DecodeImageFile(f.Source.File)
-		if err != nil {
-			return nil, fmt.Errorf("eval: page of hits and misses: %w", err)
+		pix := f.pix
+		if pix == nil {
+			img, err := datasets.DecodeImageFile(f.Source.File)
+			if err != nil {
+				return nil, fmt.Errorf("eval: page of hits and misses: %w", err)
+			}
+			pix = datasets.ToGray(nil, img, 0, 0)
 		}
-		pix := datasets.ToGray(nil, img, 0, 0)
 		s := min(MaxDrawScale, max(1, (gallerySide+max(f.W, f.H)-1)/max(f.W, f.H)))
 		t, err := DrawScan(pix, f.H, f.W, &f.Result, ScanDrawing{Classes: classes, Scale: s, Truth: f.Source.Truth, Scored: true})
 		if err != nil {

@@ -176,20 +176,24 @@ func WriteBankSummary(w io.Writer, cfg learn.PhotoBankConfig, rep *learn.BankRep
 }
 
 // WriteModelInfo writes a model file's header as a person reads it: file,
-// format, checksum, input, channels, features and classes, the indented
+// format, checksum, input, channels, features, classes and the scan
+// section (the stored "no item" threshold) when there is one, the indented
 // configuration, and the tensor table (pipeline.InspectFile gives m and
 // info).
 func WriteModelInfo(w io.Writer, path string, m *pipeline.Model, info *pipeline.FileInfo) error {
 	ih, iw := m.InputSize()
 	fmt.Fprintf(w, "file          %s\n", path)
 	fmt.Fprintf(w, "size          %d bytes\n", info.Size)
-	fmt.Fprintf(w, "format        striate-model, version %d (this build writes %d, and %d for int8 models)\n", info.Version, pipeline.FormatVersion, pipeline.FormatVersionInt8)
+	fmt.Fprintf(w, "format        striate-model, version %d (this build writes %d, %d for int8 models, %d with a scan section)\n", info.Version, pipeline.FormatVersion, pipeline.FormatVersionInt8, pipeline.FormatVersionScan)
 	fmt.Fprintf(w, "header        %d bytes of JSON\n", len(info.Header))
 	fmt.Fprintf(w, "checksum      SHA-256 %x… verified\n", info.Checksum[:8])
 	fmt.Fprintf(w, "input         %d×%d grey\n", ih, iw)
 	fmt.Fprintf(w, "channels      %d front-end maps\n", len(m.Channels()))
 	fmt.Fprintf(w, "features      %d per image\n", m.FeatureLen())
 	fmt.Fprintf(w, "classes       %d: %s\n", m.NumClasses(), strings.Join(m.Classes(), ", "))
+	if st, ok := m.Scan(); ok {
+		fmt.Fprintf(w, "scan          \"no item\" threshold %.4f, chosen on %d validation scenes (%s): F1 %.3f\n", st.Config.Threshold, st.Scenes, st.Source, st.F1)
+	}
 	var cfg bytes.Buffer
 	if err := json.Indent(&cfg, info.Config, "  ", "  "); err == nil {
 		fmt.Fprintf(w, "\nconfiguration\n  %s\n", cfg.String())

@@ -190,4 +190,14 @@
 // readers still read them, and reject version 3 as written by a newer
 // striate. Load and LoadFile read both. The integer logits are the same on
 // every architecture for the same front-end maps (TestCrossArchInt8).
+//
+// A model may also carry a scan section (Model.WithScan, Model.Scan): the
+// Scanner's "no item" threshold chosen on validation scenes of the
+// training split and the scan settings it was chosen with. Save writes such
+// a model as format version 4 (FormatVersionScan, float or int8), with the
+// section under the header key "scan", decoded strictly and checked as
+// NewScanner checks a ScanConfig; models without one keep version 2 or 3,
+// so older readers still read them, and reject version 4 as written by a
+// newer striate. NewScanner takes the stored threshold as the default of a
+// zero ScanConfig.Threshold.
 package pipeline

@@ -20,8 +20,9 @@ type Model struct {
 	tmpl    *templateStage // nil without a template layer
 	guard   *guard
 	head    *learn.Head
-	q       *int8Stage // the integer path of a quantised model (quant.go); nil for float
-	scratch sync.Pool  // *work
+	q       *int8Stage  // the integer path of a quantised model (quant.go); nil for float
+	scan    *StoredScan // the scan section (modelscan.go); nil without one
+	scratch sync.Pool   // *work
 }
 
 func newModel(p *Plan, classes []string, tmpl *templateStage, g *guard, head *learn.Head) (*Model, error) {

@@ -13,11 +13,11 @@ import (
 	"strings"
 )
 
-// The model file layout (format versions 1 to 3). All integers little-endian.
+// The model file layout (format versions 1 to 4). All integers little-endian.
 //
 //	offset  size  field
 //	0       8     magic "STRIATEM"
-//	8       4     format version (uint32): 2, or 3 with an integer section
+//	8       4     format version (uint32): 2, 3 with an integer section, 4 with a scan section
 //	12      4     header length H in bytes (uint32), at most MaxHeaderBytes
 //	16      H     header: UTF-8 JSON object (see fileHeader), no unknown keys
 //	16+H    P     zero padding so that the data section starts on a multiple of 8
@@ -38,7 +38,13 @@ import (
 // int8 and the integer section of a quantised model (Model.Quantize; tensor
 // names int8.*, see modelio.go): its template layer and head are stored as
 // integers only, the float configuration stays in the header. A reader of
-// versions 1..2 rejects it as written by a newer striate.
+// versions 1..2 rejects it as written by a newer striate. Version 4 reads as
+// version 2 (float tensors only) or 3 (with int8 tensors) and adds the
+// header key "scan", required there and refused in older versions: the
+// chosen "no item" threshold and the scan settings it was chosen with
+// (StoredScan, decoded strictly and checked as NewScanner checks a
+// ScanConfig). A reader of versions 1..3 rejects it as written by a newer
+// striate; models without a scan section keep version 2 or 3.
 const (
 	// FileExt is the file-name extension striate gives model files (older
 	// builds used ".stm"). Readers go by the file's magic bytes, never by
@@ -52,9 +58,12 @@ const (
 	// (Model.Quantize); float models keep FormatVersion, so that older
 	// readers still read them.
 	FormatVersionInt8 = 3
+	// FormatVersionScan is the version of a file holding a scan section
+	// (Model.WithScan), float or int8.
+	FormatVersionScan = 4
 	// minReadVersion..maxReadVersion is the range this build reads.
 	minReadVersion = 1
-	maxReadVersion = 3
+	maxReadVersion = 4
 
 	prefixLen   = 16
 	checksumLen = sha256.Size
@@ -188,6 +197,7 @@ type fileHeader struct {
 	Config  json.RawMessage `json:"config"`
 	Classes []string        `json:"classes"`
 	Tensors []tensorInfo    `json:"tensors"`
+	Scan    json.RawMessage `json:"scan,omitempty"` // version 4 only: StoredScan
 }
 
 const formatName = "striate-model"
@@ -198,6 +208,18 @@ type fileContents struct {
 	Config  json.RawMessage
 	Classes []string
 	Tensors []tensor
+	Scan    json.RawMessage // the scan section (version 4); nil without one
+}
+
+// hasInt8 reports whether the file holds an int8 tensor (an integer
+// section).
+func (c *fileContents) hasInt8() bool {
+	for i := range c.Tensors {
+		if c.Tensors[i].DType == Int8 {
+			return true
+		}
+	}
+	return false
 }
 
 func (c *fileContents) tensor(name string) *tensor {
@@ -220,10 +242,13 @@ func encodeFile(w io.Writer, c *fileContents) error {
 	if ver == 0 {
 		ver = FormatVersion
 	}
+	if len(c.Scan) > 0 {
+		ver = FormatVersionScan
+	}
 	if ver < minReadVersion || ver > maxReadVersion {
 		return fmt.Errorf("pipeline: cannot save format version %d; this build writes versions %d..%d", ver, minReadVersion, maxReadVersion)
 	}
-	h := fileHeader{Format: formatName, Config: c.Config, Classes: c.Classes}
+	h := fileHeader{Format: formatName, Config: c.Config, Classes: c.Classes, Scan: c.Scan}
 	if h.Classes == nil {
 		h.Classes = []string{}
 	}
@@ -477,7 +502,7 @@ func decodeStream(r io.Reader, size int64, early func(h *fileHeader, ver uint32)
 		}
 	}
 
-	c := &fileContents{Version: ver, Config: h.Config, Classes: h.Classes, Tensors: make([]tensor, len(h.Tensors))}
+	c := &fileContents{Version: ver, Config: h.Config, Classes: h.Classes, Tensors: make([]tensor, len(h.Tensors)), Scan: h.Scan}
 	var late error                                                   // the first bad value, reported once the checksum holds
 	chunk := make([]byte, min(streamChunk, (max(dataLen, 4)+3)/4*4)) // whole 4-byte elements
 	for i, ti := range h.Tensors {

@@ -31,7 +31,10 @@ const (
 // the configuration and class names in the JSON header, the learned arrays
 // as little-endian float32 tensors, a SHA-256 at the end. An int8 model
 // (Quantize) stores its integer section instead of the float template and
-// head tensors, as format version 3. Equal models give bit-identical files.
+// head tensors, as format version 3. A model with a scan section (WithScan)
+// is written as format version 4, float or int8, so that a reader of
+// versions 1..3 refuses it as written by a newer striate; one without keeps
+// version 2 or 3. Equal models give bit-identical files.
 func (m *Model) Save(w io.Writer) error {
 	cfg := m.plan.Config()
 	var ts []tensor
@@ -60,7 +63,11 @@ func (m *Model) Save(w io.Writer) error {
 	if err != nil {
 		return fmt.Errorf("pipeline: encoding the config: %v", err)
 	}
-	return encodeFile(w, &fileContents{Config: cj, Classes: m.classes, Tensors: ts})
+	scan, err := m.scanSection()
+	if err != nil {
+		return err
+	}
+	return encodeFile(w, &fileContents{Config: cj, Classes: m.classes, Tensors: ts, Scan: scan})
 }
 
 // SaveFile writes the model to path atomically: to a temporary file in
@@ -124,7 +131,11 @@ func load(r io.Reader, size int64, lim Limits, info *FileInfo) (*Model, error) {
 	if err != nil {
 		return nil, err
 	}
-	return buildModel(c, lim)
+	m, err := buildModel(c, lim)
+	if err != nil {
+		return nil, err
+	}
+	return attachScan(m, c)
 }
 
 // headerWork checks the work size of the configuration in a model file's
@@ -262,7 +273,7 @@ func buildModel(c *fileContents, lim Limits) (*Model, error) {
 	if len(c.Classes) < 2 {
 		return nil, malformed("header.classes", "%d classes; a model has at least 2", len(c.Classes))
 	}
-	if c.Version == FormatVersionInt8 {
+	if c.Version == FormatVersionInt8 || (c.Version == FormatVersionScan && c.hasInt8()) {
 		return loadInt8(p, c, used)
 	}
 	for _, name := range []string{"guard.keep", "guard.lo", "guard.hi"} {

@@ -320,7 +320,11 @@ func (m *Model) saveInt8(w io.Writer, cfg Config, ts []tensor) error {
 	if err != nil {
 		return fmt.Errorf("pipeline: encoding the config: %v", err)
 	}
-	return encodeFile(w, &fileContents{Version: FormatVersionInt8, Config: cj, Classes: m.classes, Tensors: ts})
+	scan, err := m.scanSection()
+	if err != nil {
+		return err
+	}
+	return encodeFile(w, &fileContents{Version: FormatVersionInt8, Config: cj, Classes: m.classes, Tensors: ts, Scan: scan})
 }
 
 // loadInt8 rebuilds a quantised model from a version-3 file whose config

@@ -226,11 +226,12 @@ func TestInt8BadFiles(t *testing.T) {
 		t.Errorf("NaN scale: error %v; want one naming int8.head.scale2", err)
 	}
 	// A reader of versions up to 2 rejects version 3 as written by a newer
-	// striate: the same check this build applies to version 4.
-	v4 := append([]byte(nil), qb...)
-	binary.LittleEndian.PutUint32(v4[8:], FormatVersionInt8+1)
-	if _, err := Load(bytes.NewReader(resum(v4))); !errors.Is(err, ErrUnsupportedVersion) || !strings.Contains(err.Error(), "newer striate") {
-		t.Errorf("version %d: error %v; want ErrUnsupportedVersion saying a newer striate wrote it", FormatVersionInt8+1, err)
+	// striate: the same check this build applies to the versions above
+	// maxReadVersion.
+	v5 := append([]byte(nil), qb...)
+	binary.LittleEndian.PutUint32(v5[8:], maxReadVersion+1)
+	if _, err := Load(bytes.NewReader(resum(v5))); !errors.Is(err, ErrUnsupportedVersion) || !strings.Contains(err.Error(), "newer striate") {
+		t.Errorf("version %d: error %v; want ErrUnsupportedVersion saying a newer striate wrote it", maxReadVersion+1, err)
 	}
 }
 

@@ -84,8 +84,9 @@ type ScanConfig struct {
 	// Gap) is kept and the rest of the window is set to background.
 	KeepSurround bool `json:"keep_surround,omitempty"`
 	// Threshold is the "no item" decision: a window whose most probable
-	// class has a probability below Threshold is not an item. Default 0.5;
-	// range (0, 1]. ChooseThreshold picks it on validation scenes.
+	// class has a probability below Threshold is not an item. Default: the
+	// model's stored threshold (Model.Scan, chosen on validation scenes),
+	// else 0.5; range (0, 1]. ChooseThreshold picks it on validation scenes.
 	Threshold float64 `json:"threshold,omitempty"`
 	// NMSIoU: of two items whose boxes overlap with an IoU above NMSIoU
 	// only the more confident is kept (greedy non-maximum suppression).
@@ -162,7 +163,7 @@ func (c ScanConfig) withDefaults(m *Model) ScanConfig {
 	}
 	c.Frames, c.Sizes = factorsOr(c.Frames, DefaultFrames), factorsOr(c.Sizes, DefaultSizes)
 	if c.Threshold == 0 {
-		c.Threshold = DefaultThreshold
+		c.Threshold = m.scanThreshold() // the model's stored threshold, else DefaultThreshold
 	}
 	if c.NMSIoU == 0 {
 		c.NMSIoU = DefaultNMSIoU

@@ -143,9 +143,32 @@ func TestDemoQuick(t *testing.T) {
 		t.Errorf("label efficiency at %d per class: %.4f, want 10 per class ≥ %.2f", p.PerClass, p.Accuracy, quickLabelFloor)
 	}
 
+	// The belt step: scenes of each test split scored, with a threshold.
+	var belt struct {
+		Scenes []struct {
+			Data      string  `json:"data"`
+			Threshold float64 `json:"threshold"`
+			Scores    struct{ Frames int }
+		} `json:"scenes"`
+	}
+	if err := json.Unmarshal(b, &belt); err != nil {
+		t.Fatal(err)
+	}
+	if len(belt.Scenes) != 2 {
+		t.Fatalf("%d belt results, want 2 (Fashion-MNIST and MNIST)", len(belt.Scenes))
+	}
+	for _, r := range belt.Scenes {
+		if r.Scores.Frames != 24 || !(r.Threshold > 0 && r.Threshold <= 1) {
+			t.Errorf("belt %s: %d frames scored (want the quick 24), threshold %v", r.Data, r.Scores.Frames, r.Threshold)
+		}
+	}
+
 	md, err := os.ReadFile(filepath.Join(out, "report.md"))
 	if err != nil {
 		t.Fatal(err)
+	}
+	if !strings.Contains(string(md), "Hits and misses on") {
+		t.Error("report.md has no page of hits and misses")
 	}
 	if !strings.Contains(string(md), "| model | test set | test images | accuracy (%) |") {
 		t.Error("report.md has no accuracy table header")

@@ -24,7 +24,7 @@ JSON lines: {"file", "width", "height", "items": [{"class", "score", "box": [x0,
 			fs.StringVar(&o.model, "model", "", "model `file` written by striate train")
 			fs.BoolVar(&o.json, "json", false, "write JSON lines on stdout (the text and scores go to stderr)")
 			fs.BoolVar(&o.truth, "truth", false, "every argument must be a scene folder with ground truth (scenes.json)")
-			fs.Float64Var(&o.cfg.Threshold, "threshold", 0, "the \"no item\" `probability` below which a window is not an item (0: 0.5)")
+			fs.Float64Var(&o.cfg.Threshold, "threshold", 0, "the \"no item\" `probability` below which a window is not an item (0: the one striate train --scenes stored in the model, else 0.5)")
 			fs.IntVar(&o.cfg.MaxItems, "max-items", 0, "stop after `n` items per frame (0: 10)")
 			fs.IntVar(&o.cfg.ItemSize, "item-size", 0, "typical item side in frame `px` (0: the model's input side)")
 			g.addWorkers(fs)
@@ -69,6 +69,9 @@ func runScan(g *globals, o scanOptions, args []string) error {
 	job, err := eval.RunScan(m, src, eval.ScanJobConfig{Scan: o.cfg, Workers: g.workers, Out: g.out}, jobMonitor{g}, skip, eval.FrameWriter(g.stdout, m.Classes(), o.json))
 	if err != nil {
 		return err
+	}
+	for _, n := range job.Notes {
+		fmt.Fprintf(g.stderr, "striate scan: note: %s\n", n)
 	}
 	if g.out != "" {
 		fmt.Fprintf(text, "annotated frames: %s, items: %s\n", filepath.Join(g.out, eval.ScanFrames), filepath.Join(g.out, eval.ScanItemsFile))

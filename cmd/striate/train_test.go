@@ -98,3 +98,19 @@ func trainFixture(t *testing.T, flag string) *pipeline.Model {
 	}
 	return m
 }
+
+// TestCLITrainScenes: --scenes reaches the train job, and a --scenes that
+// is no scene folder fails before any training, naming the folder and the
+// index it lacks (the job itself is tested in eval's TestTrainScenes).
+func TestCLITrainScenes(t *testing.T) {
+	cliFixture(t)
+	missing := filepath.Join(t.TempDir(), "no-scenes")
+	r := runCLI(t, "train", "--data", filepath.Join(cliDir, "train"), "--scenes", missing, "--out", filepath.Join(t.TempDir(), "x.striate"), "--quiet")
+	if r.code != 1 || !strings.Contains(r.stderr, missing) || !strings.Contains(r.stderr, "scenes.json") || strings.Contains(r.stdout, "model written") {
+		t.Errorf("train --scenes on a missing folder: exit %d, stdout:\n%s\nstderr:\n%s", r.code, r.stdout, r.stderr)
+	}
+	r = runCLI(t, "train", "--data", filepath.Join(cliDir, "train"), "--scenes", "auto:0", "--out", filepath.Join(t.TempDir(), "x.striate"), "--quiet")
+	if r.code != 1 || !strings.Contains(r.stderr, "auto:N") {
+		t.Errorf("train --scenes auto:0: exit %d, stderr:\n%s", r.code, r.stderr)
+	}
+}

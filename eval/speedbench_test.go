@@ -113,7 +113,10 @@ func TestBenchTargets(t *testing.T) {
 	if err := WriteTargets(&b, BenchTargets(front, f)); err != nil {
 		t.Fatal(err)
 	}
-	if n := strings.Count(b.String(), "\n"); n != 13 {
-		t.Errorf("targets table has %d lines; want a heading and 12 rows:\n%s", n, b.String())
+	if n := strings.Count(b.String(), "\n"); n != 14 {
+		t.Errorf("targets table has %d lines; want a heading, 12 rows and the count:\n%s", n, b.String())
+	}
+	if !strings.Contains(b.String(), "0 of 4 targets met (8 not measured by this run); missed: ") {
+		t.Errorf("targets table's count line is wrong:\n%s", b.String())
 	}
 }

@@ -2,28 +2,10 @@ package eval
 
 import (
 	"fmt"
-	"io"
 	"math"
 	"strings"
-	"text/tabwriter"
 
 	"github.com/striate/striate/internal/frontbench"
-)
-
-// Target is one row of the speed targets: what, the goal, what this run
-// measured and its verdict.
-type Target struct {
-	What     string
-	Goal     string
-	Measured string // the figure, or where it comes from when not measured
-	Status   string // TargetMet, TargetMissed or TargetNotMeasured
-}
-
-// Target verdicts.
-const (
-	TargetMet         = "met"
-	TargetMissed      = "missed"
-	TargetNotMeasured = "not measured"
 )
 
 // Long runs that give the figures a default bench run does not.
@@ -51,13 +33,6 @@ const (
 	targetDemoBytes   = 1.5e9 // peak memory of the full demo
 	targetFrontPlain  = 1.3   // plain front end / PyTorch 1.13, every row
 )
-
-func verdict(ok bool) string {
-	if ok {
-		return TargetMet
-	}
-	return TargetMissed
-}
 
 // BenchTargets checks the figures of one bench run (the front-end rows and
 // the facts of Bench) against the speed targets. A target whose figure the
@@ -157,14 +132,4 @@ func BenchTargets(front []frontbench.Row, f BenchFacts) []Target {
 		add("front end, plain build, every row", fmt.Sprintf("≥ %.1f× PyTorch 1.13", targetFrontPlain), strings.Join(fr, ", "), verdict(ok))
 	}
 	return ts
-}
-
-// WriteTargets writes the targets as a table.
-func WriteTargets(w io.Writer, ts []Target) error {
-	tw := tabwriter.NewWriter(w, 2, 4, 2, ' ', 0)
-	fmt.Fprintln(tw, "target\tgoal\tthis run\tverdict")
-	for _, t := range ts {
-		fmt.Fprintf(tw, "%s\t%s\t%s\t%s\n", t.What, t.Goal, t.Measured, t.Status)
-	}
-	return tw.Flush()
 }

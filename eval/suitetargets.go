@@ -4,8 +4,6 @@ import (
 	"fmt"
 	"io"
 	"math"
-	"strings"
-	"text/tabwriter"
 
 	"github.com/striate/striate/datasets"
 )
@@ -99,10 +97,15 @@ func SuiteTargets(r *SuiteResult, clean float64) ([]TargetRow, error) {
 	return rows, nil
 }
 
-// WriteTargets writes the targets of r (SuiteTargets with the clean target
-// of data, see CleanTarget) as a table of met / missed rows, then the count
-// and the names of the missed rows.
-func WriteTargets(w io.Writer, r *SuiteResult, data string) error {
+// Row returns the row as a line of a targets table (see WriteTargets).
+func (t TargetRow) Row() Target {
+	return Target{What: t.Name, Goal: fmt.Sprintf("%s (%.2f%%)", t.Rule, 100*t.Target),
+		Measured: fmt.Sprintf("%.2f%%", 100*t.Value), Status: verdict(t.Met)}
+}
+
+// WriteSuiteTargets writes the targets of r (SuiteTargets with the clean
+// target of data, see CleanTarget) with WriteTargets.
+func WriteSuiteTargets(w io.Writer, r *SuiteResult, data string) error {
 	clean, ok := CleanTarget(data)
 	if !ok {
 		return fmt.Errorf("eval: targets: no clean-accuracy target for data %q; the targets are set for mnist and fashion", data)
@@ -112,28 +115,9 @@ func WriteTargets(w io.Writer, r *SuiteResult, data string) error {
 		return err
 	}
 	fmt.Fprintf(w, "\ntargets on %s (%s beside %s, mean of %d seeds):\n", data, r.Model, r.Peer.Name, r.Peer.Seeds)
-	tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', 0)
-	fmt.Fprintln(tw, "target\trule\tstriate (%)\tneeded (%)\t")
-	var missed []string
-	for _, t := range rows {
-		state := "met"
-		if !t.Met {
-			state = "MISSED"
-			missed = append(missed, t.Name)
-		}
-		if math.IsNaN(t.Value) {
-			fmt.Fprintf(tw, "%s\t%s\t—\t—\t%s\n", t.Name, t.Rule, state)
-			continue
-		}
-		fmt.Fprintf(tw, "%s\t%s\t%.2f\t%.2f\t%s\n", t.Name, t.Rule, 100*t.Value, 100*t.Target, state)
+	ts := make([]Target, len(rows))
+	for i, t := range rows {
+		ts[i] = t.Row()
 	}
-	if err := tw.Flush(); err != nil {
-		return err
-	}
-	fmt.Fprintf(w, "%d of %d targets met", len(rows)-len(missed), len(rows))
-	if len(missed) > 0 {
-		fmt.Fprintf(w, "; missed: %s", strings.Join(missed, ", "))
-	}
-	_, err = fmt.Fprintln(w)
-	return err
+	return WriteTargets(w, ts)
 }

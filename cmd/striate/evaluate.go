@@ -187,7 +187,7 @@ func runEvaluate(g *globals, o evalOptions) error {
 		eval.WriteSuite(g.stdout, ev.Suite)
 	}
 	if o.targets {
-		if err := eval.WriteTargets(g.stdout, ev.Suite, o.data); err != nil {
+		if err := eval.WriteSuiteTargets(g.stdout, ev.Suite, o.data); err != nil {
 			return err
 		}
 	}

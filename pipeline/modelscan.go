@@ -54,9 +54,10 @@ func (m *Model) Scan() (StoredScan, bool) {
 }
 
 // scanThreshold is the default of a zero ScanConfig.Threshold: the stored
-// threshold, else DefaultThreshold.
+// threshold, else DefaultThreshold (also for a nil model, as
+// ScanConfig.withDefaults gets when a test resolves settings alone).
 func (m *Model) scanThreshold() float64 {
-	if m.scan != nil {
+	if m != nil && m.scan != nil {
 		return m.scan.Config.Threshold
 	}
 	return DefaultThreshold

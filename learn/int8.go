@@ -129,6 +129,29 @@ func quantizeRows(q []int8, s []float32, w []float64, m, d int) {
 	}
 }
 
+// maxBiasSteps bounds a quantised bias, in steps of its row's scale: half
+// the ±2^30 the int32 accumulators leave for it, the other half for the
+// zero-point term Σ w_q·z.
+const maxBiasSteps = 1 << 29
+
+// fitBias raises row j's scale, when needed, until its real bias b takes at
+// most maxBiasSteps steps, and quantises the row again at that scale. A row
+// whose weights are negligible beside its bias (a unit that training left
+// almost constant, as weight decay does to units that never fire) then
+// keeps its bias exactly and quantises its weights to zero or near it: each
+// weight is still rounded to the nearest step, so the error bound of
+// quantizeRows (half a step per weight) holds.
+func fitBias(q []int8, s []float32, w []float64, d, j int, b float64) {
+	need := float32(math.Abs(b) / maxBiasSteps)
+	if need <= s[j] {
+		return
+	}
+	s[j] = need
+	for i, v := range w[j*d : (j+1)*d] {
+		q[j*d+i] = int8(min(max(roundHalfAway(v/float64(need)), -127), 127))
+	}
+}
+
 // ActivationScale returns the scale and zero point of uint8 activations
 // calibrated to the observed range [lo, hi], widened to hold 0 exactly
 // (Jacob et al. 2018, §2.1: the real 0 must be representable):

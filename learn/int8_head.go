@@ -83,6 +83,7 @@ func (hd *Head) Quantize(inScale []float32, inZero []int32, calib []uint8, n int
 	}
 	quantizeRows(q.w1, q.s1, wf, m, d)
 	for j := 0; j < m; j++ {
+		fitBias(q.w1, q.s1, wf, d, j, float64(hd.fb[j]))
 		b := roundHalfAway(float64(hd.fb[j]) / float64(q.s1[j]))
 		for i := 0; i < d; i++ {
 			b -= int64(q.w1[j*d+i]) * int64(inZero[i])
@@ -119,6 +120,7 @@ func (hd *Head) Quantize(inScale []float32, inZero []int32, calib []uint8, n int
 	q.w2, q.s2, q.b2 = make([]int8, hd.k*m), make([]float32, hd.k), make([]int32, hd.k)
 	quantizeRows(q.w2, q.s2, w2, hd.k, m)
 	for c := 0; c < hd.k; c++ {
+		fitBias(q.w2, q.s2, w2, m, c, float64(hd.b2[c]))
 		b := roundHalfAway(float64(hd.b2[c]) / float64(q.s2[c]))
 		if b < -maxQuantBias || b > maxQuantBias {
 			return nil, fmt.Errorf("learn: Head.Quantize: bias of class %d is %d weight steps, beyond ±2^30", c, b)

@@ -675,3 +675,39 @@ func TestRequantNormMatchesMulShift(t *testing.T) {
 		t.Errorf("only %d of %d codes lie strictly inside (0, 255); the draws test little but the clamps", mid, 2*200*k)
 	}
 }
+
+// A hidden unit whose weights training left negligible beside its bias
+// (found in a full-scale MNIST head: a bias of 1.8e9 weight steps) is
+// quantised with its scale raised to fit the bias, and still meets the
+// rounding bound of TestQuantHeadMatchesFloat64Reference (half a step per
+// weight and for the bias; Jacob et al. 2018, eq. 1-2).
+func TestQuantHeadNegligibleWeights(t *testing.T) {
+	hd, _, codes, sc, zp, n := quantHeadCase(t, HeadConfig{Kind: KindMLP, Hidden: 9, Epochs: 5})
+	d := hd.d
+	const j = 3
+	for i := 0; i < d; i++ {
+		hd.fw[j*d+i] *= 1e-12
+	}
+	hd.fb[j] = 0.5
+	q, err := hd.Quantize(sc, zp, codes, n)
+	if err != nil {
+		t.Fatalf("a unit with negligible weights: %v", err)
+	}
+	if steps := float64(hd.fb[j]) / float64(q.s1[j]); steps > maxBiasSteps*(1+1e-6) {
+		t.Fatalf("bias takes %g steps; want ≤ %d", steps, maxBiasSteps)
+	}
+	acc := make([]int32, len(q.s1))
+	for r := 0; r < n; r++ {
+		x := codes[r*d : (r+1)*d]
+		q.layer1(acc, x, new([]int16))
+		real, bound := float64(hd.fb[j]), float64(q.s1[j])/2
+		for i := 0; i < d; i++ {
+			dq := float64(int32(x[i]) - zp[i])
+			real += float64(hd.fw[j*d+i]) * float64(sc[i]) * dq
+			bound += float64(q.s1[j]) / 2 * math.Abs(dq)
+		}
+		if got := float64(q.s1[j]) * float64(acc[j]); math.Abs(got-real) > bound*(1+1e-6) {
+			t.Fatalf("row %d: integer %g, float64 %g: off by %g > bound %g", r, got, real, math.Abs(got-real), bound)
+		}
+	}
+}

@@ -375,6 +375,18 @@ func TestLearnedBankRoundTrip(t *testing.T) {
 	if fromBank < 4 || fromBank > 16 {
 		t.Fatalf("%d front-end channels carry a Gabor fit; want between 4 and 16 from 8 atoms", fromBank)
 	}
+	// Before the bank is learned the plan sizes the fit with a stand-in of
+	// 8 unpaired kernels: its channel count and feature length bound the
+	// learned bank's, so the work-size check before the fit is not an
+	// underestimate.
+	pending, err := NewPlan(cfg)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if pending.c < len(m.Channels()) || pending.featureLen(nil) < m.Plan().featureLen(nil) {
+		t.Errorf("plan before the bank: %d channels, %d features; the fitted model has %d channels, %d features (want the plan's ≥)",
+			pending.c, pending.featureLen(nil), len(m.Channels()), m.Plan().featureLen(nil))
+	}
 	var buf bytes.Buffer
 	if err := m.Save(&buf); err != nil {
 		t.Fatal(err)

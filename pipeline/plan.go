@@ -90,9 +90,14 @@ func newPlan(c Config) (*Plan, error) {
 			return nil, err
 		}
 		if fc.Bank == nil {
-			// Shapes are checked with a stand-in bank of the same kernel
-			// size until Fit has learned the real one.
-			fc.Gabor = v1layer.GaborConfig{Wavelength: float64(lb.PatchSize) / 2, Scales: 1, Radius: 1}
+			// Shapes and work sizes are checked with a stand-in bank until
+			// Fit has learned the real one: as many kernels as atoms, of
+			// the learned kernels' size, none of them paired. A learned
+			// atom without a quadrature partner gives two channels (on and
+			// off half-waves) and a pair gives one, so the stand-in's
+			// channel count, and the work size, bound the real bank's.
+			fc.Bank = standInBank(lb.Dict.Atoms, lb.PatchSize)
+			fc.Gabor.Disable = true
 			p.bankPending = true
 		}
 	}
@@ -187,4 +192,17 @@ func poolLen(n, k, s int) int {
 		return 0
 	}
 	return (n-k+s-1)/s + 1
+}
+
+// standInBank returns atoms unpaired kernels of the size package learn gives
+// a learned atom of side patch (the next odd size), each a unit impulse.
+func standInBank(atoms, patch int) *v1layer.Bank {
+	ks := patch | 1
+	b := &v1layer.Bank{Kernels: make([]v1layer.Kernel, atoms)}
+	for i := range b.Kernels {
+		w := make([]float32, ks*ks)
+		w[ks*ks/2] = 1
+		b.Kernels[i] = v1layer.Kernel{Size: ks, W: w, Meta: v1layer.Channel{Kind: v1layer.KindLearned, Pair: -1}}
+	}
+	return b
 }

@@ -19,6 +19,11 @@ var devVariants = map[string]func(*InputConfig){
 	"both":     func(in *InputConfig) { in.Denoise, in.Center = DenoiseAdaptive, CenterRobust },
 }
 
+// devFitSets gives, for a refitted variant ("fit:NAME"), the training set
+// it is fitted on in place of the first 10,000 training images (augmented
+// training data); absent means those images.
+var devFitSets = map[string]func(*testing.T, *datasets.Set) *datasets.Set{}
+
 func devAcc(m *Model, s *datasets.Set) float64 {
 	imgs := make([][]float32, s.N)
 	for i := range imgs {
@@ -137,10 +142,14 @@ func TestInputSuiteValidation(t *testing.T) {
 			if base, err = LoadFile(path); dir == "" || err != nil {
 				fc, _ := Preset(preset)
 				fc.Seed = 1
+				fs := fitSet
 				if refit {
 					mod(&fc.Input)
+					if f := devFitSets[name]; f != nil {
+						fs = f(t, fitSet)
+					}
 				}
-				if base, err = Fit(fc, fitSet, FitOptions{Workers: runtime.GOMAXPROCS(0)}); err != nil {
+				if base, err = Fit(fc, fs, FitOptions{Workers: runtime.GOMAXPROCS(0)}); err != nil {
 					t.Fatal(err)
 				}
 				if dir != "" {

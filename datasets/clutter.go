@@ -94,3 +94,43 @@ func Clutter(dst *Scene, set *Set, k int, cfg ClutterConfig) (*Scene, error) {
 	}
 	return dst, nil
 }
+
+// Fragmented returns a new Set in which image k of s is Clutter's canvas of
+// image k at the image's own size: the image in place, unmoved, with
+// cfg.Fragments fragments of cfg.FragmentSize px, cut from random places of
+// other random images of s, pasted with max at random places (the issue-11
+// condition "single 28×28 items with four fragments pasted in": Clutter60's
+// fragments without its larger canvas). cfg.Size must be 0 (the image side)
+// or the image side, and the images square. Labels, classes and source are
+// kept; canvases hold pixels of s, so they are stored exactly. As with
+// Clutter, image k depends only on (s, cfg, k), and a test condition must be
+// built from a test split.
+func (s *Set) Fragmented(cfg ClutterConfig) (*Set, error) {
+	if err := s.Validate(); err != nil {
+		return nil, err
+	}
+	if s.N == 0 || s.H != s.W {
+		return nil, fmt.Errorf("datasets: Fragmented needs a non-empty set of square images, not %d of %d×%d", s.N, s.H, s.W)
+	}
+	if cfg.Size == 0 {
+		cfg.Size = s.H
+	}
+	if cfg.Size != s.H {
+		return nil, fmt.Errorf("datasets: Fragmented keeps the image size: ClutterConfig.Size %d must be 0 or %d", cfg.Size, s.H)
+	}
+	out := &Set{Name: s.Name + " (fragments)", N: s.N, H: s.H, W: s.W, Pix: make([]uint8, len(s.Pix)),
+		Labels: append([]int(nil), s.Labels...), Classes: append([]string(nil), s.Classes...), Source: s.Source}
+	n := s.H * s.W
+	var sc *Scene
+	for k := range s.N {
+		var err error
+		if sc, err = Clutter(sc, s, k, cfg); err != nil {
+			return nil, err
+		}
+		px := out.Pix[k*n : (k+1)*n]
+		for i, v := range sc.Pix {
+			px[i] = uint8(v*255 + 0.5)
+		}
+	}
+	return out, nil
+}

@@ -129,7 +129,13 @@ type InputConfig struct {
 	// its centre of mass is at the image centre, as MNIST's makers did),
 	// "robust" (the same shift computed on the image's 3×3 grey opening, so
 	// lines and specks narrower than 3 px crossing or beside the item do not
-	// pull it; the image itself is shifted unfiltered) or "none".
+	// pull it; the image itself is shifted unfiltered), "attend" (attend
+	// to the item first: ink is what lies above the image's own Otsu
+	// threshold, the 8-connected ink component of largest grey mass is the
+	// item, and every other component below half its mass — a fragment of
+	// another item, a speck, a dash — is cleared to the background's grey
+	// before the grey stretch and the centre of mass, so both are the
+	// item's; stray ink touching the item stays) or "none".
 	Center string `json:"center,omitempty"`
 }
 

@@ -43,9 +43,9 @@ func (c InputConfig) validate() error {
 		return fmt.Errorf("pipeline: input.denoise %q; want %q (default), %q, %q or %q", c.Denoise, DenoiseAuto, DenoiseAdaptive, DenoiseMedian3, DenoiseNone)
 	}
 	switch c.Center {
-	case CenterMass, CenterRobust, CenterNone:
+	case CenterMass, CenterRobust, CenterAttend, CenterNone:
 	default:
-		return fmt.Errorf("pipeline: input.center %q; want %q (default), %q or %q", c.Center, CenterMass, CenterRobust, CenterNone)
+		return fmt.Errorf("pipeline: input.center %q; want %q (default), %q, %q or %q", c.Center, CenterMass, CenterRobust, CenterAttend, CenterNone)
 	}
 	switch c.Deskew {
 	case DeskewNone, DeskewShear:
@@ -75,7 +75,7 @@ func (c InputConfig) validate() error {
 // computing the center of mass of the pixels"). An image with no mass is
 // left where it is.
 func normalizeInput(buf, img []float32, h, w int, c InputConfig) []float32 {
-	if c.Normalize != NormalizeMinMax && c.Center != CenterMass && c.Center != CenterRobust && c.Denoise != DenoiseMedian3 && c.Denoise != DenoiseAuto && c.Denoise != DenoiseAdaptive && c.Deskew != DeskewShear && c.Upright != UprightVertical {
+	if c.Normalize != NormalizeMinMax && c.Center != CenterMass && c.Center != CenterRobust && c.Center != CenterAttend && c.Denoise != DenoiseMedian3 && c.Denoise != DenoiseAuto && c.Denoise != DenoiseAdaptive && c.Deskew != DeskewShear && c.Upright != UprightVertical {
 		return img
 	}
 	n := h * w
@@ -96,6 +96,9 @@ func normalizeInput(buf, img []float32, h, w int, c InputConfig) []float32 {
 	default:
 		copy(tmp, img[:n])
 	}
+	if c.Center == CenterAttend {
+		attendItem(tmp, h, w)
+	}
 	if c.Normalize == NormalizeMinMax {
 		lo, hi := tmp[0], tmp[0]
 		for _, v := range tmp {
@@ -112,7 +115,7 @@ func normalizeInput(buf, img []float32, h, w int, c InputConfig) []float32 {
 		deskew(out, tmp, h, w)
 		copy(tmp, out)
 	}
-	if c.Center != CenterMass && c.Center != CenterRobust {
+	if c.Center != CenterMass && c.Center != CenterRobust && c.Center != CenterAttend {
 		copy(out, tmp)
 	} else if c.Center == CenterRobust {
 		centerRobust(out, tmp, buf[2*n:3*n], buf[3*n:4*n], h, w)

@@ -19,6 +19,11 @@ var devVariants = map[string]func(*InputConfig){
 	"both":     func(in *InputConfig) { in.Denoise, in.Center = DenoiseAdaptive, CenterRobust },
 }
 
+// devFitSets gives, for a refitted variant ("fit:NAME"), the training set
+// it is fitted on in place of the first 10,000 training images (augmented
+// training data); absent means those images.
+var devFitSets = map[string]func(*testing.T, *datasets.Set) *datasets.Set{}
+
 func devAcc(m *Model, s *datasets.Set) float64 {
 	imgs := make([][]float32, s.N)
 	for i := range imgs {
@@ -81,8 +86,26 @@ func devAcc(m *Model, s *datasets.Set) float64 {
 //	   noise 66.0→62.4)
 //	robust centring (denoise auto, center robust) 77.18 / stripe 30.3  97.90
 //	  (dotted line 74.5→75.4, zigzag 55.9→56.1; clean −0.8 without refit)
+//	(4 Dec 2026, issue 11: fragments pasted into the item's image)
+//	attend (center attend, no refit)          80.36 / stripe 26.9  98.55
+//	  Fashion                                 62.99 / stripe 27.0  88.60
+//	  (impulse 73.3→90.8, dotted line 74.5→96.2; shot noise 92.8→80.6)
+//	fit:attend (refitted)                     78.75 / stripe 33.7  98.20
+//	  Fashion                                 62.39 / stripe 24.2  88.65
+//	fit:aug (preset refitted on its images and their Set.Fragmented copies)
+//	                                          85.68 / stripe 59.2  98.60
+//	  Fashion                                 66.72 / canny 35.5   89.50
+//	fit:attend-aug                            81.67 / stripe 35.5  98.20
+//	  Fashion                                 65.58 / canny 28.7   89.15
 //
-// Neither is adopted by a preset: the area filters raise the MNIST-C mean
+// "attend" is not adopted: without a refit it lowers MNIST's worst kind,
+// with one MNIST's mean and Fashion-MNIST's worst kind. Fragments in
+// training raise the mean and the worst kind on both data sets, but at full
+// scale (60,000 training images, test split) the clean accuracy falls from
+// 99.40% to 99.26% on MNIST and from 92.41% to 92.13% on Fashion-MNIST, so
+// it is a recipe, not a preset's default (TestAttendFragments).
+//
+// Neither adaptive nor robust is adopted by a preset: the area filters raise the MNIST-C mean
 // on both datasets (+1.3 and +2.4 points) but lower the worst kind and cost shot noise and canny edges (strokes
 // broken into fragments smaller than the area threshold are removed with
 // the noise); robust centring gains little on the line kinds and its clean
@@ -137,10 +160,14 @@ func TestInputSuiteValidation(t *testing.T) {
 			if base, err = LoadFile(path); dir == "" || err != nil {
 				fc, _ := Preset(preset)
 				fc.Seed = 1
+				fs := fitSet
 				if refit {
 					mod(&fc.Input)
+					if f := devFitSets[name]; f != nil {
+						fs = f(t, fitSet)
+					}
 				}
-				if base, err = Fit(fc, fitSet, FitOptions{Workers: runtime.GOMAXPROCS(0)}); err != nil {
+				if base, err = Fit(fc, fs, FitOptions{Workers: runtime.GOMAXPROCS(0)}); err != nil {
 					t.Fatal(err)
 				}
 				if dir != "" {

@@ -340,21 +340,22 @@ func dotPacked2(ax, ay []int32, p []int64, x, y []uint8) {
 }
 
 // int8Matrix is an m×d int8 weight matrix in the form this build's product
-// kernel reads: packed row pairs (portable), or rows widened to int16 and
-// padded with zeros to a multiple of 16 columns (SIMD build with AVX2,
-// int8_simd_amd64.go). Both give exactly the int32 sums Σ_i w_ji·x_i.
+// kernel reads: packed row pairs (portable), or int8 rows padded with
+// zeros to a multiple of 16 columns, which the kernel widens to int16 as it
+// loads them (SIMD build with AVX2, int8_simd_amd64.go). Both give exactly the int32 sums Σ_i w_ji·x_i.
 type int8Matrix struct {
 	m, d  int
 	pairs []int64
-	w16   []int16
+	w8    []int8 // rows padded to dpad columns (SIMD build), or nil
 	dpad  int
 	wp    []int16 // column pairs for mulPairs (usePairs), or nil
 	mpad  int
 }
 
 // mulWide, when not nil, is the SIMD kernel: acc_j = Σ_c w[j·dpad+c]·x[c]
-// for j < m, over int16 rows and input padded to dpad (a multiple of 16).
-var mulWide func(acc []int32, w, x []int16, m, dpad int)
+// for j < m, over int8 rows and int16 input padded to dpad (a multiple of
+// 16).
+var mulWide func(acc []int32, w []int8, x []int16, m, dpad int)
 
 func newInt8Matrix(w []int8, m, d int) *int8Matrix {
 	a := &int8Matrix{m: m, d: d}
@@ -363,11 +364,9 @@ func newInt8Matrix(w []int8, m, d int) *int8Matrix {
 		return a
 	}
 	a.dpad = (d + 15) &^ 15
-	a.w16 = make([]int16, m*a.dpad)
+	a.w8 = make([]int8, m*a.dpad)
 	for j := 0; j < m; j++ {
-		for i, v := range w[j*d : (j+1)*d] {
-			a.w16[j*a.dpad+i] = int16(v)
-		}
+		copy(a.w8[j*a.dpad:j*a.dpad+d], w[j*d:(j+1)*d])
 	}
 	return a
 }
@@ -388,11 +387,11 @@ func widen(buf *[]int16, x []uint8, dpad int) []int16 {
 // mulVec sets acc_j = Σ_i w_ji·x_i + b_j (b nil: no bias) for the m rows;
 // buf is scratch for the SIMD build.
 func (a *int8Matrix) mulVec(acc []int32, x []uint8, b []int32, buf *[]int16) {
-	if a.w16 == nil {
+	if a.w8 == nil {
 		dotPacked(acc, a.pairs, x, b)
 		return
 	}
-	mulWide(acc, a.w16, widen(buf, x, a.dpad), a.m, a.dpad)
+	mulWide(acc, a.w8, widen(buf, x, a.dpad), a.m, a.dpad)
 	for j := range b {
 		acc[j] += b[j]
 	}
@@ -400,12 +399,12 @@ func (a *int8Matrix) mulVec(acc []int32, x []uint8, b []int32, buf *[]int16) {
 
 // mulVec2 is mulVec without bias for two inputs of the same length.
 func (a *int8Matrix) mulVec2(ax, ay []int32, x, y []uint8, buf *[]int16) {
-	if a.w16 == nil {
+	if a.w8 == nil {
 		dotPacked2(ax, ay, a.pairs, x, y)
 		return
 	}
-	mulWide(ax, a.w16, widen(buf, x, a.dpad), a.m, a.dpad)
-	mulWide(ay, a.w16, widen(buf, y, a.dpad), a.m, a.dpad)
+	mulWide(ax, a.w8, widen(buf, x, a.dpad), a.m, a.dpad)
+	mulWide(ay, a.w8, widen(buf, y, a.dpad), a.m, a.dpad)
 }
 
 // mulPairs, when not nil, is the SIMD batch kernel. Its inputs are pairs

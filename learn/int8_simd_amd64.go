@@ -170,8 +170,10 @@ func hsum8(v archsimd.Int32x8) int32 {
 	return t[0] + t[1] + t[2] + t[3] + t[4] + t[5] + t[6] + t[7]
 }
 
-// mulWideAVX2 is mulWide: four rows at a time share each load of x.
-func mulWideAVX2(acc []int32, w, x []int16, m, dpad int) {
+// mulWideAVX2 is mulWide: four rows at a time share each load of x; the
+// int8 weights are sign-extended to int16 as they are loaded (VPMOVSXBW),
+// so the kernel reads half the bytes of int16 rows.
+func mulWideAVX2(acc []int32, w []int8, x []int16, m, dpad int) {
 	x = x[:dpad]
 	w = w[:m*dpad]
 	acc = acc[:m]
@@ -181,10 +183,10 @@ func mulWideAVX2(acc []int32, w, x []int16, m, dpad int) {
 		var a0, a1, a2, a3 archsimd.Int32x8
 		for c := 0; c+16 <= dpad; c += 16 {
 			xv := archsimd.LoadInt16x16((*[16]int16)(x[c : c+16]))
-			a0 = a0.Add(archsimd.LoadInt16x16((*[16]int16)(r0[c : c+16])).DotProductPairs(xv))
-			a1 = a1.Add(archsimd.LoadInt16x16((*[16]int16)(r1[c : c+16])).DotProductPairs(xv))
-			a2 = a2.Add(archsimd.LoadInt16x16((*[16]int16)(r2[c : c+16])).DotProductPairs(xv))
-			a3 = a3.Add(archsimd.LoadInt16x16((*[16]int16)(r3[c : c+16])).DotProductPairs(xv))
+			a0 = a0.Add(archsimd.LoadInt8x16((*[16]int8)(r0[c : c+16])).ExtendToInt16().DotProductPairs(xv))
+			a1 = a1.Add(archsimd.LoadInt8x16((*[16]int8)(r1[c : c+16])).ExtendToInt16().DotProductPairs(xv))
+			a2 = a2.Add(archsimd.LoadInt8x16((*[16]int8)(r2[c : c+16])).ExtendToInt16().DotProductPairs(xv))
+			a3 = a3.Add(archsimd.LoadInt8x16((*[16]int8)(r3[c : c+16])).ExtendToInt16().DotProductPairs(xv))
 		}
 		acc[j], acc[j+1], acc[j+2], acc[j+3] = hsum8(a0), hsum8(a1), hsum8(a2), hsum8(a3)
 	}
@@ -192,7 +194,7 @@ func mulWideAVX2(acc []int32, w, x []int16, m, dpad int) {
 		r := w[j*dpad : (j+1)*dpad]
 		var a archsimd.Int32x8
 		for c := 0; c+16 <= dpad; c += 16 {
-			a = a.Add(archsimd.LoadInt16x16((*[16]int16)(r[c : c+16])).DotProductPairs(archsimd.LoadInt16x16((*[16]int16)(x[c : c+16]))))
+			a = a.Add(archsimd.LoadInt8x16((*[16]int8)(r[c : c+16])).ExtendToInt16().DotProductPairs(archsimd.LoadInt16x16((*[16]int16)(x[c : c+16]))))
 		}
 		acc[j] = hsum8(a)
 	}

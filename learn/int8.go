@@ -291,7 +291,22 @@ func unpack(s int64) (a, b int32) {
 // m = len(acc) rows packed in p (packRows of an m×len(x) matrix).
 func dotPacked(acc []int32, p []int64, x []uint8, b []int32) {
 	d, m := len(x), len(acc)
-	for j := 0; j < m; j += 2 {
+	j := 0
+	// Two packed row pairs at a time: each activation loaded once for two
+	// multiplies (four products).
+	for ; j+4 <= m; j += 4 {
+		r0 := p[j/2*d : j/2*d+d]
+		r1 := p[(j/2+1)*d : (j/2+1)*d+d]
+		s0, s1 := dot2x1(r0, r1, x)
+		a0, a1 := unpack(s0)
+		a2, a3 := unpack(s1)
+		if b != nil {
+			b := b[j : j+4]
+			a0, a1, a2, a3 = a0+b[0], a1+b[1], a2+b[2], a3+b[3]
+		}
+		acc[j], acc[j+1], acc[j+2], acc[j+3] = a0, a1, a2, a3
+	}
+	for ; j < m; j += 2 {
 		row := p[j/2*d : j/2*d+d]
 		row = row[:len(x)]
 		var s0, s1 int64
@@ -317,12 +332,56 @@ func dotPacked(acc []int32, p []int64, x []uint8, b []int32) {
 	}
 }
 
+// dot2x1 returns Σ_i r0_i·x_i and Σ_i r1_i·x_i (len(r0) = len(r1) =
+// len(x)). A leaf of its own (not inlined), so that its sums stay in
+// registers: inlined into dotPacked they are spilled to the stack.
+//
+//go:noinline
+func dot2x1(r0, r1 []int64, x []uint8) (s0, s1 int64) {
+	r0, r1 = r0[:len(x)], r1[:len(x)]
+	for i, v := range x {
+		xi := int64(v)
+		s0 += r0[i] * xi
+		s1 += r1[i] * xi
+	}
+	return s0, s1
+}
+
+// dot2x2 returns the four sums Σ_i r_i·x_i, r_i·y_i for r = r0, r1
+// (all of length len(x)), as dot2x1.
+//
+//go:noinline
+func dot2x2(r0, r1 []int64, x, y []uint8) (s0x, s0y, s1x, s1y int64) {
+	r0, r1, y = r0[:len(x)], r1[:len(x)], y[:len(x)]
+	for i, v := range x {
+		xi, yi := int64(v), int64(y[i])
+		s0x += r0[i] * xi
+		s1x += r1[i] * xi
+		s0y += r0[i] * yi
+		s1y += r1[i] * yi
+	}
+	return s0x, s0y, s1x, s1y
+}
+
 // dotPacked2 is dotPacked without bias for two inputs x and y of the same
-// length at once (each packed weight is loaded once for four products).
+// length at once: two packed row pairs at a time, so that each step loads
+// two weights and two activations for four multiplies (eight products),
+// in four independent int64 sums.
 func dotPacked2(ax, ay []int32, p []int64, x, y []uint8) {
 	d, m := len(x), len(ax)
 	y = y[:len(x)]
-	for j := 0; j < m; j += 2 {
+	ay = ay[:m]
+	j := 0
+	for ; j+4 <= m; j += 4 {
+		r0 := p[j/2*d : j/2*d+d]
+		r1 := p[(j/2+1)*d : (j/2+1)*d+d]
+		s0x, s0y, s1x, s1y := dot2x2(r0, r1, x, y)
+		ax[j], ax[j+1] = unpack(s0x)
+		ay[j], ay[j+1] = unpack(s0y)
+		ax[j+2], ax[j+3] = unpack(s1x)
+		ay[j+2], ay[j+3] = unpack(s1y)
+	}
+	for ; j < m; j += 2 {
 		row := p[j/2*d : j/2*d+d]
 		row = row[:len(x)]
 		var sx, sy int64

@@ -291,7 +291,22 @@ func unpack(s int64) (a, b int32) {
 // m = len(acc) rows packed in p (packRows of an m×len(x) matrix).
 func dotPacked(acc []int32, p []int64, x []uint8, b []int32) {
 	d, m := len(x), len(acc)
-	for j := 0; j < m; j += 2 {
+	j := 0
+	// Two packed row pairs at a time: each activation loaded once for two
+	// multiplies (four products).
+	for ; j+4 <= m; j += 4 {
+		r0 := p[j/2*d : j/2*d+d]
+		r1 := p[(j/2+1)*d : (j/2+1)*d+d]
+		s0, s1 := dot2x1(r0, r1, x)
+		a0, a1 := unpack(s0)
+		a2, a3 := unpack(s1)
+		if b != nil {
+			b := b[j : j+4]
+			a0, a1, a2, a3 = a0+b[0], a1+b[1], a2+b[2], a3+b[3]
+		}
+		acc[j], acc[j+1], acc[j+2], acc[j+3] = a0, a1, a2, a3
+	}
+	for ; j < m; j += 2 {
 		row := p[j/2*d : j/2*d+d]
 		row = row[:len(x)]
 		var s0, s1 int64
@@ -317,12 +332,56 @@ func dotPacked(acc []int32, p []int64, x []uint8, b []int32) {
 	}
 }
 
+// dot2x1 returns Σ_i r0_i·x_i and Σ_i r1_i·x_i (len(r0) = len(r1) =
+// len(x)). A leaf of its own (not inlined), so that its sums stay in
+// registers: inlined into dotPacked they are spilled to the stack.
+//
+//go:noinline
+func dot2x1(r0, r1 []int64, x []uint8) (s0, s1 int64) {
+	r0, r1 = r0[:len(x)], r1[:len(x)]
+	for i, v := range x {
+		xi := int64(v)
+		s0 += r0[i] * xi
+		s1 += r1[i] * xi
+	}
+	return s0, s1
+}
+
+// dot2x2 returns the four sums Σ_i r_i·x_i, r_i·y_i for r = r0, r1
+// (all of length len(x)), as dot2x1.
+//
+//go:noinline
+func dot2x2(r0, r1 []int64, x, y []uint8) (s0x, s0y, s1x, s1y int64) {
+	r0, r1, y = r0[:len(x)], r1[:len(x)], y[:len(x)]
+	for i, v := range x {
+		xi, yi := int64(v), int64(y[i])
+		s0x += r0[i] * xi
+		s1x += r1[i] * xi
+		s0y += r0[i] * yi
+		s1y += r1[i] * yi
+	}
+	return s0x, s0y, s1x, s1y
+}
+
 // dotPacked2 is dotPacked without bias for two inputs x and y of the same
-// length at once (each packed weight is loaded once for four products).
+// length at once: two packed row pairs at a time, so that each step loads
+// two weights and two activations for four multiplies (eight products),
+// in four independent int64 sums.
 func dotPacked2(ax, ay []int32, p []int64, x, y []uint8) {
 	d, m := len(x), len(ax)
 	y = y[:len(x)]
-	for j := 0; j < m; j += 2 {
+	ay = ay[:m]
+	j := 0
+	for ; j+4 <= m; j += 4 {
+		r0 := p[j/2*d : j/2*d+d]
+		r1 := p[(j/2+1)*d : (j/2+1)*d+d]
+		s0x, s0y, s1x, s1y := dot2x2(r0, r1, x, y)
+		ax[j], ax[j+1] = unpack(s0x)
+		ay[j], ay[j+1] = unpack(s0y)
+		ax[j+2], ax[j+3] = unpack(s1x)
+		ay[j+2], ay[j+3] = unpack(s1y)
+	}
+	for ; j < m; j += 2 {
 		row := p[j/2*d : j/2*d+d]
 		row = row[:len(x)]
 		var sx, sy int64
@@ -340,21 +399,22 @@ func dotPacked2(ax, ay []int32, p []int64, x, y []uint8) {
 }
 
 // int8Matrix is an m×d int8 weight matrix in the form this build's product
-// kernel reads: packed row pairs (portable), or rows widened to int16 and
-// padded with zeros to a multiple of 16 columns (SIMD build with AVX2,
-// int8_simd_amd64.go). Both give exactly the int32 sums Σ_i w_ji·x_i.
+// kernel reads: packed row pairs (portable), or int8 rows padded with
+// zeros to a multiple of 16 columns, which the kernel widens to int16 as it
+// loads them (SIMD build with AVX2, int8_simd_amd64.go). Both give exactly the int32 sums Σ_i w_ji·x_i.
 type int8Matrix struct {
 	m, d  int
 	pairs []int64
-	w16   []int16
+	w8    []int8 // rows padded to dpad columns (SIMD build), or nil
 	dpad  int
 	wp    []int16 // column pairs for mulPairs (usePairs), or nil
 	mpad  int
 }
 
 // mulWide, when not nil, is the SIMD kernel: acc_j = Σ_c w[j·dpad+c]·x[c]
-// for j < m, over int16 rows and input padded to dpad (a multiple of 16).
-var mulWide func(acc []int32, w, x []int16, m, dpad int)
+// for j < m, over int8 rows and int16 input padded to dpad (a multiple of
+// 16).
+var mulWide func(acc []int32, w []int8, x []int16, m, dpad int)
 
 func newInt8Matrix(w []int8, m, d int) *int8Matrix {
 	a := &int8Matrix{m: m, d: d}
@@ -363,11 +423,9 @@ func newInt8Matrix(w []int8, m, d int) *int8Matrix {
 		return a
 	}
 	a.dpad = (d + 15) &^ 15
-	a.w16 = make([]int16, m*a.dpad)
+	a.w8 = make([]int8, m*a.dpad)
 	for j := 0; j < m; j++ {
-		for i, v := range w[j*d : (j+1)*d] {
-			a.w16[j*a.dpad+i] = int16(v)
-		}
+		copy(a.w8[j*a.dpad:j*a.dpad+d], w[j*d:(j+1)*d])
 	}
 	return a
 }
@@ -388,11 +446,11 @@ func widen(buf *[]int16, x []uint8, dpad int) []int16 {
 // mulVec sets acc_j = Σ_i w_ji·x_i + b_j (b nil: no bias) for the m rows;
 // buf is scratch for the SIMD build.
 func (a *int8Matrix) mulVec(acc []int32, x []uint8, b []int32, buf *[]int16) {
-	if a.w16 == nil {
+	if a.w8 == nil {
 		dotPacked(acc, a.pairs, x, b)
 		return
 	}
-	mulWide(acc, a.w16, widen(buf, x, a.dpad), a.m, a.dpad)
+	mulWide(acc, a.w8, widen(buf, x, a.dpad), a.m, a.dpad)
 	for j := range b {
 		acc[j] += b[j]
 	}
@@ -400,12 +458,12 @@ func (a *int8Matrix) mulVec(acc []int32, x []uint8, b []int32, buf *[]int16) {
 
 // mulVec2 is mulVec without bias for two inputs of the same length.
 func (a *int8Matrix) mulVec2(ax, ay []int32, x, y []uint8, buf *[]int16) {
-	if a.w16 == nil {
+	if a.w8 == nil {
 		dotPacked2(ax, ay, a.pairs, x, y)
 		return
 	}
-	mulWide(ax, a.w16, widen(buf, x, a.dpad), a.m, a.dpad)
-	mulWide(ay, a.w16, widen(buf, y, a.dpad), a.m, a.dpad)
+	mulWide(ax, a.w8, widen(buf, x, a.dpad), a.m, a.dpad)
+	mulWide(ay, a.w8, widen(buf, y, a.dpad), a.m, a.dpad)
 }
 
 // mulPairs, when not nil, is the SIMD batch kernel. Its inputs are pairs

@@ -578,7 +578,7 @@ func TestPackedProductsExact(t *testing.T) {
 			if !reflect.DeepEqual(gx, wx) || !reflect.DeepEqual(gy, wy) {
 				t.Fatalf("%d×%d %s: two-input kernel products differ from the plain ones", c.m, c.d, fill)
 			}
-			// The batch kernel (column pairs under AVX-512), over 1 to 6
+			// The batch kernel (column pairs under AVX2 or AVX-512), over 1 to 6
 			// inputs so that every tile and remainder runs.
 			a.usePairs(w, contiguousPairs(c.d))
 			var pairs pairScratch

@@ -15,6 +15,7 @@ import (
 var devVariants = map[string]func(*InputConfig){
 	"base":     func(*InputConfig) {},
 	"adaptive": func(in *InputConfig) { in.Denoise = DenoiseAdaptive },
+	"smooth":   func(in *InputConfig) { in.Denoise = DenoiseSmooth },
 	"robust":   func(in *InputConfig) { in.Center = CenterRobust },
 	"both":     func(in *InputConfig) { in.Denoise, in.Center = DenoiseAdaptive, CenterRobust },
 }

@@ -92,14 +92,15 @@ type InputConfig struct {
 	// Normalize is "minmax" (default: stretch each image's grey values to
 	// span [0,1], which undoes a global contrast change) or "none".
 	Normalize string `json:"normalize,omitempty"`
-	// Denoise is "auto" (default), "smooth", "adaptive", "median3" or "none". "median3" applies a
-	// 3×3 median filter first, which removes most of strong pixel noise at a
-	// small cost in fine detail; "auto" estimates each image's noise level
-	// (Donoho & Johnstone's wavelet MAD) and filters only noisy images: none
-	// below an estimated σ of 0.13, once up to 0.185, twice above, each time
-	// followed by a grey-level coring that sets what is within a multiple of
-	// σ̂ of black or white to black or white. Clean MNIST and Fashion-MNIST
-	// images are left untouched. "adaptive" first applies a grey-level area
+	// Denoise is "auto" (default), "smooth", "adaptive", "median3" or
+	// "none". "median3" applies a 3×3 median filter first, which removes
+	// most of strong pixel noise at a small cost in fine detail; "auto"
+	// estimates each image's noise level (Donoho & Johnstone's wavelet MAD)
+	// and filters only noisy images: none below an estimated σ of 0.13,
+	// once up to 0.185, twice above, each time followed by a grey-level
+	// coring that sets what is within a multiple of σ̂ of black or white to
+	// black or white. Clean MNIST and Fashion-MNIST images are left
+	// untouched. "adaptive" first applies a grey-level area
 	// opening and closing (Vincent 1993), which remove bright and dark
 	// detail of fewer than 8 and 4 pixels (at 28×28; scaled with the image
 	// area) whatever its contrast — impulses, specks, the dashes of a dotted

@@ -109,9 +109,9 @@ func TestPresets(t *testing.T) {
 		want := def
 		switch name {
 		case "digits":
-			want.Input.Deskew = DeskewShear
+			want.Input.Deskew, want.Input.Denoise = DeskewShear, DenoiseSmooth
 		case "garments":
-			want.Mirror, want.Pool.Sqrt, want.Input.Upright = true, true, UprightVertical
+			want.Mirror, want.Pool.Sqrt, want.Input.Upright, want.Input.Denoise = true, true, UprightVertical, DenoiseSmooth
 		}
 		a, _ := c.MarshalIndent()
 		b, _ := want.MarshalIndent()

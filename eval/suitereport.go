@@ -115,16 +115,46 @@ func pct(x float64) string { return fmt.Sprintf("%.2f", 100*x) }
 // pctCI formats an interval as "lo–hi" in percent.
 func pctCI(iv Interval) string { return fmt.Sprintf("%.2f–%.2f", 100*iv.Lo, 100*iv.Hi) }
 
-// suiteBlocks renders the development-suite section: per data set a summary
+// suiteHeading gives the suite section's title and opening paragraph from
+// the groups of conditions the results hold: a run of --suite heldout is not
+// headed as the development suite, nor one of --suite all as either alone.
+func suiteHeading(rs []*SuiteResult) (string, string) {
+	dev, held := false, false
+	for _, r := range rs {
+		for _, p := range r.Points {
+			switch p.Group {
+			case datasets.GroupHeldOut:
+				held = true
+			case datasets.GroupMNISTC, datasets.GroupGrid:
+				dev = true
+			}
+		}
+	}
+	const devText = "the development suite (the 15 MNIST-C corruptions of Mu & Gilmer 2019 at severities 1–5 and six perturbation " +
+		"kinds on a fine grid of levels; settings are chosen on it, on validation images)"
+	const heldText = "the held-out suite (7 corruption kinds at severities 1–5 on which no setting is ever chosen: they are scored, " +
+		"never tuned for)"
+	const tail = " Every model, and the peer when shown, sees exactly the same corrupted images. A kind's accuracy is the mean over " +
+		"its severities or levels; the mean corruption accuracy is the mean over the MNIST-C kinds, and the worst kind the MNIST-C " +
+		"kind of lowest accuracy. Accuracies in %; intervals are 95% Wilson score intervals; the peer's figures are means over its " +
+		"training seeds."
+	lead := "Models trained on clean images, scored on corrupted copies of the test set under "
+	switch {
+	case dev && held:
+		return "Development and held-out suites: common corruptions", lead + devText + " and " + heldText + "." + tail
+	case held:
+		return "Held-out suite: corruptions no setting was chosen on", lead + heldText + "." + tail
+	}
+	return "Development suite: common corruptions", lead + devText + "." + tail
+}
+
+// suiteBlocks renders the suite section: per data set a summary
 // table, the per-kind table, the kind bars, the grid curves and the table of
 // every condition.
 func suiteBlocks(rs []*SuiteResult, add func(...block), fig func(stem, title, caption string, png []byte)) error {
-	add(headBlock{2, "Development suite: common corruptions"})
-	add(paraBlock{"Models trained on clean images, scored on corrupted copies of the test set: the 15 MNIST-C corruptions " +
-		"(Mu & Gilmer 2019) at severities 1–5 and six perturbation kinds on a fine grid of levels. Every model, and the peer " +
-		"when shown, sees exactly the same corrupted images. A kind's accuracy is the mean over its severities or levels; the " +
-		"mean corruption accuracy is the mean over the MNIST-C kinds, and the worst kind the MNIST-C kind of lowest accuracy. " +
-		"Accuracies in %; intervals are 95% Wilson score intervals; the peer's figures are means over its training seeds."})
+	head, text := suiteHeading(rs)
+	add(headBlock{2, head})
+	add(paraBlock{text})
 	var order []string
 	byData := map[string][]*SuiteResult{}
 	for _, r := range rs {

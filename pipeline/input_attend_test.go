@@ -4,6 +4,7 @@ import (
 	"encoding/json"
 	"math"
 	"os"
+	"slices"
 	"strings"
 	"testing"
 )
@@ -142,21 +143,9 @@ func TestAttendClearsStrays(t *testing.T) {
 			t.Fatalf("pixel %d: attend on the item with strays %v, mass on the item alone %v", i, a[i], b[i])
 		}
 	}
-	if c := normalizeInput(nil, dirty, 28, 28, mass); slicesEqual(c, b) {
+	if c := normalizeInput(nil, dirty, 28, 28, mass); slices.Equal(c, b) {
 		t.Error("the strays do not move the mass centre: the test shows nothing")
 	}
-}
-
-func slicesEqual(a, b []float32) bool {
-	if len(a) != len(b) {
-		return false
-	}
-	for i := range a {
-		if a[i] != b[i] {
-			return false
-		}
-	}
-	return true
 }
 
 // TestAttendKeepsLargeParts checks that a second component of at least
@@ -175,7 +164,7 @@ func TestAttendKeepsLargeParts(t *testing.T) {
 	}
 	want := append([]float32(nil), img...)
 	attendItem(img, 28, 28)
-	if !slicesEqual(img, want) {
+	if !slices.Equal(img, want) {
 		t.Fatal("a part of 0.75 of the item's mass was cleared")
 	}
 	grey := itemWithStrays(true)

@@ -64,7 +64,7 @@ type headStepper struct {
 
 	fillFn, updateFn func(int)
 	rowsFn           func(b0, b1 int)
-	rangeFn          func(i, lo, hi int)
+	rangeFn          func(i, lo, hi int, lam float32)
 }
 
 // headRange is elements [lo, hi) of parameter tensor i.
@@ -138,19 +138,31 @@ func (s *headStepper) prepare(lr float64) {
 
 func (s *headStepper) update(u int) {
 	r := s.units[u]
-	s.updateRange(r.i, r.lo, r.hi)
+	s.updateRange(r.i, r.lo, r.hi, 0)
 }
 
-// updateRange steps elements [lo, hi) of parameter tensor i.
-func (s *headStepper) updateRange(i, lo, hi int) {
+// updateRange steps elements [lo, hi) of parameter tensor i on the
+// gradient g + lam·p (see nn.Hooks.Update; lam 0: g as it is).
+func (s *headStepper) updateRange(i, lo, hi int, lam float32) {
 	p, g := s.params[i][lo:hi], s.grads[i][lo:hi]
 	m := s.st.opt1[i][lo:hi]
 	if s.adam {
-		adamRange(p, g, m, s.st.opt2[i][lo:hi], s.step, s.eps)
+		if lam != 0 {
+			adamL2Range(p, g, m, s.st.opt2[i][lo:hi], lam, s.step, s.eps)
+		} else {
+			adamRange(p, g, m, s.st.opt2[i][lo:hi], s.step, s.eps)
+		}
 		return
 	}
 	mu, a := s.mu, s.step
 	g, m = g[:len(p)], m[:len(p)]
+	if lam != 0 {
+		for j := range p {
+			m[j] = mu*m[j] + (g[j] + float32(lam*p[j]))
+			p[j] -= a * m[j]
+		}
+		return
+	}
 	for j := range p {
 		m[j] = mu*m[j] + g[j]
 		p[j] -= a * m[j]
@@ -163,13 +175,30 @@ func (s *headStepper) updateRange(i, lo, hi int) {
 // it by 8-lane code doing the same float32 operations in the same order
 // (float32 square roots are correctly rounded either way), so both give the
 // same bits (TestAdamRangeMatchesScalar).
-var adamRange = adamRangeGo
+var (
+	adamRange   = adamRangeGo
+	adamL2Range = adamL2RangeGo
+)
 
 func adamRangeGo(p, g, m, v []float32, step, eps float32) {
 	const b1, b2 = float32(adamBeta1), float32(adamBeta2)
 	g, m, v = g[:len(p)], m[:len(p)], v[:len(p)]
 	for j := range p {
 		gj := g[j]
+		m[j] = b1*m[j] + (1-b1)*gj
+		v[j] = b2*v[j] + (1-b2)*gj*gj
+		p[j] -= step * m[j] / (float32(math.Sqrt(float64(v[j]))) + eps)
+	}
+}
+
+// adamL2RangeGo is adamRangeGo on the gradient g + lam·p, formed as the
+// L2 term's own pass would (nn's l2Add: the product rounded to float32,
+// then the sum), in the same loop.
+func adamL2RangeGo(p, g, m, v []float32, lam, step, eps float32) {
+	const b1, b2 = float32(adamBeta1), float32(adamBeta2)
+	g, m, v = g[:len(p)], m[:len(p)], v[:len(p)]
+	for j := range p {
+		gj := g[j] + float32(lam*p[j])
 		m[j] = b1*m[j] + (1-b1)*gj
 		v[j] = b2*v[j] + (1-b2)*gj*gj
 		p[j] -= step * m[j] / (float32(math.Sqrt(float64(v[j]))) + eps)

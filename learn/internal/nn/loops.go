@@ -15,7 +15,7 @@ var (
 func l2AddGo(dst, w []float32, lam float32) {
 	dst = dst[:len(w)]
 	for j, v := range w {
-		dst[j] += lam * v
+		dst[j] += float32(lam * v) // the conversion keeps the product rounded (no FMA)
 	}
 }
 

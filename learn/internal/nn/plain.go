@@ -74,8 +74,9 @@ func GemmNTGonum(c, a, b []float32, m, n, p int) {
 //
 // Hooks (SetHooks) fold a caller's per-step work into the same two Runs: the
 // minibatch rows a chunk reads are written by the chunk's own unit, and the
-// optimiser step of a gradient block by the unit that finished it, so a
-// training step costs two Runs rather than five.
+// optimiser step of a gradient block (with the L2 term's gradient) by the
+// unit that finished it, so a training step costs two Runs rather than five
+// and reads the weights once fewer.
 type Plain struct {
 	spec   Spec
 	gemm   GemmNTFunc
@@ -104,11 +105,16 @@ type Hooks struct {
 	// them.
 	Fill func(r0, r1 int)
 	// Update, if not nil, receives elements [lo, hi) of parameter tensor i
-	// once their gradient is final, on the goroutine that finished them,
-	// while other blocks are still being computed; it may change those
-	// parameters (and nothing else Eval reads). The calls cover every
-	// parameter exactly once per Eval, in no fixed order.
-	Update func(i, lo, hi int)
+	// once their gradient is final but for the L2 term, on the goroutine
+	// that finished them, while other blocks are still being computed; it
+	// may change those parameters (and nothing else Eval reads). lam is the
+	// L2 term's λ for a weight tensor and 0 for a bias or without the term:
+	// the gradient is g + lam·w, which Update must form as l2Add does (a
+	// float32 multiplication, then an addition) before it uses it, so that
+	// the L2 term needs no pass over the weights of its own. The calls cover
+	// every parameter exactly once per Eval, in no fixed order. With Update
+	// set the gradients Eval leaves in grads lack the L2 term.
+	Update func(i, lo, hi int, lam float32)
 }
 
 // plainChunk is one row chunk's scratch.
@@ -325,14 +331,19 @@ func (p *Plain) second(u int) {
 }
 
 // finish adds the L2 term's gradient λ·W to elements [lo, hi) of the
-// gradient of tensor i (weight tensors 0 and 2 only) and hands them to the
-// Update hook.
+// gradient of tensor i (weight tensors 0 and 2 only), or hands them to the
+// Update hook, which adds it.
 func (p *Plain) finish(i, lo, hi int) {
+	var lam float32
 	if p.spec.L2 > 0 && (i == 0 || i == 2) {
-		l2Add(p.grads[i][lo:hi], p.params[i][lo:hi], float32(p.spec.L2))
+		lam = float32(p.spec.L2)
 	}
 	if p.hooks.Update != nil {
-		p.hooks.Update(i, lo, hi)
+		p.hooks.Update(i, lo, hi, lam)
+		return
+	}
+	if lam != 0 {
+		l2Add(p.grads[i][lo:hi], p.params[i][lo:hi], lam)
 	}
 }
 

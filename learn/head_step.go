@@ -107,11 +107,21 @@ func (s *headStepper) fillRows(b0, b1 int) {
 	for b := b0; b < b1; b++ {
 		r := s.rows[b]
 		row := s.X[r*d : (r+1)*d]
-		dst := s.xb[b*d : (b+1)*d]
-		for j, v := range row {
-			dst[j] = (v - s.mean[j]) / s.std[j]
-		}
+		standardizeRow(s.xb[b*d:(b+1)*d], row, s.mean, s.std)
 		s.yb[b*k+s.y[r]] = 1
+	}
+}
+
+// standardizeRow sets dst[j] = (x[j] − mean[j]) / std[j], a float32
+// subtraction and division per element. The SIMD build replaces it by an
+// 8-lane version; IEEE 754 rounds both operations correctly in either, so
+// the bits are the same (TestStandardizeRowMatchesScalar).
+var standardizeRow = standardizeRowGo
+
+func standardizeRowGo(dst, x, mean, std []float32) {
+	dst, mean, std = dst[:len(x)], mean[:len(x)], std[:len(x)]
+	for j, v := range x {
+		dst[j] = (v - mean[j]) / std[j]
 	}
 }
 

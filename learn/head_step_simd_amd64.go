@@ -10,6 +10,7 @@ import (
 func init() {
 	if archsimd.X86.AVX2() {
 		adamRange, adamL2Range = adamRangeSIMD, adamL2RangeSIMD
+		standardizeRow = standardizeRowSIMD
 	}
 }
 
@@ -73,4 +74,22 @@ func adamL2RangeSIMD(p, g, m, v []float32, lam, step, eps float32) {
 	if i < n {
 		adamL2RangeGo(p[i:], g[i:n], m[i:n], v[i:n], lam, step, eps)
 	}
+}
+
+// standardizeRowSIMD is standardizeRowGo on 8 lanes (VSUBPS, VDIVPS: the
+// same correctly rounded operations).
+func standardizeRowSIMD(dst, x, mean, std []float32) {
+	n := len(x)
+	if len(dst) < n || len(mean) < n || len(std) < n {
+		panic("learn: internal error: standardizeRowSIMD lengths")
+	}
+	dp, xp := unsafe.Pointer(unsafe.SliceData(dst)), unsafe.Pointer(unsafe.SliceData(x))
+	mp, sp := unsafe.Pointer(unsafe.SliceData(mean)), unsafe.Pointer(unsafe.SliceData(std))
+	i := 0
+	for ; i+8 <= n; i += 8 {
+		o := uintptr(i) * 4
+		st8(unsafe.Add(dp, o), ld8(unsafe.Add(xp, o)).Sub(ld8(unsafe.Add(mp, o))).Div(ld8(unsafe.Add(sp, o))))
+	}
+	archsimd.ClearAVXUpperBits()
+	standardizeRowGo(dst[i:n], x[i:], mean[i:n], std[i:n])
 }

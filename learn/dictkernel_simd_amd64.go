@@ -122,8 +122,17 @@ func tileStrip(c unsafe.Pointer, cs uintptr, a unsafe.Pointer, as uintptr, b uns
 	if sub {
 		s = 1
 	}
+	// Rows left over by the six-row tiles go four at a time where that
+	// saves one-row tiles (2 or 3 left: 8 = 4+4 rows, 9 = 4+4+1, instead of
+	// 6+1+1 and 6+1+1+1): the one-row kernel's two accumulators wait on the
+	// FMA latency, so a row costs it about four times what it costs the
+	// six-row kernel.
+	n6 := m / 6
+	if r := m % 6; (r == 2 || r == 3) && n6 > 0 {
+		n6--
+	}
 	i := 0
-	for ; i+6 <= m; i += 6 {
+	for ; i < 6*n6; i += 6 {
 		tile6x16asm(unsafe.Add(c, uintptr(i)*cs), cs, unsafe.Add(a, uintptr(i)*as), as, b, bs, p, s)
 	}
 	for ; i+4 <= m; i += 4 {
@@ -238,9 +247,17 @@ func gemmNNSIMD(c, a, b []float32, m, n, p int) {
 	ap := unsafe.Pointer(unsafe.SliceData(a))
 	for j0 := 0; j0 < n; j0 += 16 {
 		w := min(16, n-j0)
-		for q := 0; q < p; q++ {
-			copy(pk[q*16:q*16+w], b[q*n+j0:q*n+j0+w])
-			clear(pk[q*16+w : (q+1)*16])
+		if w == 16 {
+			// A 64-byte array assignment compiles to four vector moves; copy
+			// calls memmove for every row.
+			for q := 0; q < p; q++ {
+				*(*[16]float32)(pk[q*16:]) = *(*[16]float32)(b[q*n+j0:])
+			}
+		} else {
+			for q := 0; q < p; q++ {
+				copy(pk[q*16:q*16+w], b[q*n+j0:q*n+j0+w])
+				clear(pk[q*16+w : (q+1)*16])
+			}
 		}
 		if w == 16 {
 			tileStrip(unsafe.Pointer(unsafe.SliceData(c[j0:])), uintptr(4*n), ap, as, panel, 64, m, p, false)

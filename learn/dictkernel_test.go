@@ -168,7 +168,7 @@ func TestKernelTilingInvariant(t *testing.T) {
 		t.Skipf("kernels: %s; gonum's blas32 sums NN and NT products in different orders", kernelBuild)
 	}
 	r := rand.New(rand.NewPCG(7, 8))
-	for _, sh := range [][3]int{{131, 45, 1085}, {23, 19, 128}, {6, 16, 3}} {
+	for _, sh := range [][3]int{{131, 45, 1085}, {23, 19, 128}, {6, 16, 3}, {128, 40, 128}, {9, 17, 30}, {8, 16, 5}} {
 		m, n, p := sh[0], sh[1], sh[2]
 		a, b, bt := make([]float32, m*p), make([]float32, n*p), make([]float32, p*n)
 		for i := range a {

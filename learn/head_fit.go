@@ -383,6 +383,10 @@ func (c HeadConfig) FitWith(X []float32, y []int, nClasses int, opt HeadFitOptio
 	}
 	var gradsAny any = grads // converted once: a conversion per step would allocate
 	stepper := newHeadStepper(team, X, y, d, nClasses, mean, std, net.X32(), net.Y32(), params, grads, st, cfg)
+	plain, fused := net.(*nn.Plain) // the minibatch and the optimiser step run inside its Runs
+	if fused {
+		plain.SetHooks(stepper.hooks())
+	}
 	var probs, scratch []float32
 	for epoch := st.epoch; epoch < cfg.Epochs; epoch++ {
 		lr := cfg.LR
@@ -395,14 +399,20 @@ func (c HeadConfig) FitWith(X []float32, y []int, nClasses int, opt HeadFitOptio
 			for b := range stepper.rows {
 				stepper.rows[b] = train[order[s*batch+b]]
 			}
-			stepper.fillBatch()
+			st.t++
+			if fused {
+				stepper.prepare(lr)
+			} else {
+				stepper.fillBatch()
+			}
 			loss, err := net.Eval(gradsAny)
 			if err != nil {
 				return nil, rep, fmt.Errorf("learn: head fit: epoch %d step %d: %w (lower HeadConfig.LR)", epoch+1, s+1, err)
 			}
 			lossSum += loss
-			st.t++
-			stepper.apply(lr)
+			if !fused {
+				stepper.apply(lr)
+			}
 		}
 		st.trainLoss = append(st.trainLoss, lossSum/float64(steps))
 		st.epoch = epoch + 1

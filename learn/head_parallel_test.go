@@ -46,6 +46,9 @@ func TestHeadWorkersBitIdentical(t *testing.T) {
 // TestHeadStepAllocatesNothing: a training step (minibatch assembly,
 // chunked gradient, Adam update) on two workers reuses all its scratch.
 func TestHeadStepAllocatesNothing(t *testing.T) {
+	if raceOn {
+		t.Skip("the race detector makes sync.Pool (the SIMD kernels' packing buffers) drop items at random")
+	}
 	n, d, h, k, batch := 300, 96, 64, 10, 128
 	X, y := blobs(n, d, k, 1, 3)
 	cfg, err := HeadConfig{Kind: KindMLP, Hidden: h}.resolved()
@@ -162,4 +165,91 @@ func TestHeadConvergeNotWhileFalling(t *testing.T) {
 		t.Errorf("smallest window-to-window reduction %.3g ≤ tolerance %g: the problem does not test the rule", worst, cfg.ConvergeTol)
 	}
 	t.Logf("window %d epochs; loss %.4g → %.4g; smallest relative reduction %.3g", p, rep.TrainLoss[0], rep.TrainLoss[rep.Epochs-1], worst)
+}
+
+// TestHeadFusedStepMatchesPhases: the step with the minibatch assembly and
+// the optimiser update folded into the engine's Runs (nn.Hooks, what
+// FitWith does with the go engine) leaves the parameters and losses of
+// the step done in separate phases (fill, Eval, update), bit for bit, for
+// both optimisers and head kinds, on one and on three workers.
+func TestHeadFusedStepMatchesPhases(t *testing.T) {
+	n, d, k, batch := 300, 70, 6, 96
+	X, y := blobs(n, d, k, 1, 9)
+	all := make([]int, n)
+	for i := range all {
+		all[i] = i
+	}
+	mean, std := standardize(X, d, all)
+	for _, hc := range []HeadConfig{{Kind: KindMLP, Hidden: 150}, {Kind: KindSoftmax}, {Kind: KindMLP, Hidden: 40, Optimizer: OptSGD}} {
+		cfg, err := hc.resolved()
+		if err != nil {
+			t.Fatal(err)
+		}
+		for _, workers := range []int{1, 3} {
+			var ref [][]float32
+			var refLoss []float64
+			for _, fused := range []bool{false, true} {
+				team := nn.NewTeam(workers)
+				net, err := nn.NewPlain(nn.Spec{In: d, Hidden: cfg.Hidden, Out: k, Batch: batch, L2: cfg.L2, Chunks: headChunks(batch)}, headKernels(), team)
+				if err != nil {
+					t.Fatal(err)
+				}
+				params := net.Params32()
+				st := &headState{}
+				var grads [][]float32
+				for _, p := range params {
+					grads = append(grads, make([]float32, len(p)))
+					st.opt1 = append(st.opt1, make([]float32, len(p)))
+					st.opt2 = append(st.opt2, make([]float32, len(p)))
+				}
+				headInit(params, HeadConfig{Kind: cfg.Kind, Hidden: cfg.Hidden, Seed: 3}, d, k)
+				if cfg.Kind == KindSoftmax { // a zero start would hide the L2 term
+					for i := range params[0] {
+						params[0][i] = 0.01 * float32(i%11-5)
+					}
+				}
+				s := newHeadStepper(team, X, y, d, k, mean, std, net.X32(), net.Y32(), params, grads, st, cfg)
+				if fused {
+					net.SetHooks(s.hooks())
+				}
+				var losses []float64
+				for step := 0; step < 5; step++ {
+					for b := range s.rows {
+						s.rows[b] = (step*37 + b*7) % n
+					}
+					st.t++
+					if fused {
+						s.prepare(cfg.LR)
+					} else {
+						s.fillBatch()
+					}
+					l, err := net.Eval(grads)
+					if err != nil {
+						t.Fatal(err)
+					}
+					if !fused {
+						s.apply(cfg.LR)
+					}
+					losses = append(losses, l)
+				}
+				team.Close()
+				if !fused {
+					ref, refLoss = headCopyParams(nil, params), losses
+					continue
+				}
+				for i := range params {
+					for j := range params[i] {
+						if math.Float32bits(params[i][j]) != math.Float32bits(ref[i][j]) {
+							t.Fatalf("%s %s, %d workers: parameter %d[%d] %v fused, %v in phases", cfg.Kind, cfg.Optimizer, workers, i, j, params[i][j], ref[i][j])
+						}
+					}
+				}
+				for e := range losses {
+					if math.Float64bits(losses[e]) != math.Float64bits(refLoss[e]) {
+						t.Fatalf("%s %s, %d workers: step %d loss %v fused, %v in phases", cfg.Kind, cfg.Optimizer, workers, e+1, losses[e], refLoss[e])
+					}
+				}
+			}
+		}
+	}
 }

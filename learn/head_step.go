@@ -10,16 +10,22 @@ import (
 )
 
 // One optimiser step of the "go" engine is spread over HeadFitOptions.Workers
-// goroutines in three phases, each cut into work units fixed by the data and
-// the config alone (never by the number of workers), every unit writing its
-// own output, so a fit is bit-identical whatever Workers is:
+// goroutines in three kinds of work, each cut into units fixed by the data
+// and the config alone (never by the number of workers), every unit writing
+// its own output, so a fit is bit-identical whatever Workers is:
 //
-//  1. the minibatch rows are standardised into the engine's input, in blocks
-//     of headFillRows rows;
+//  1. the minibatch rows are standardised into the engine's input, row by
+//     row;
 //  2. the engine evaluates headChunks(batch) row chunks of the minibatch and
 //     sums their gradient shares in chunk order (nn.Plain);
-//  3. the optimiser updates the parameters in ranges of headUpdateRange
-//     elements (Adam and SGD act element by element).
+//  3. the optimiser updates the parameters element by element (Adam and
+//     SGD act element by element).
+//
+// With the "go" engine 1 and 3 run inside the engine's two Runs (nn.Hooks):
+// each chunk standardises its own rows, and each block of the gradient is
+// stepped by the unit that finished it. The gorgonia engine runs them as
+// Runs of their own, in blocks of headFillRows rows and headUpdateRange
+// elements.
 
 // headChunkRows is the target row count of one gradient chunk: 32 rows keep
 // the products' inner dimension long enough for the packed SIMD kernel while
@@ -57,6 +63,8 @@ type headStepper struct {
 	step, eps, mu float32 // adam step size and ε̂; sgd momentum (step is then lr)
 
 	fillFn, updateFn func(int)
+	rowsFn           func(b0, b1 int)
+	rangeFn          func(i, lo, hi int, lam float32)
 }
 
 // headRange is elements [lo, hi) of parameter tensor i.
@@ -74,8 +82,13 @@ func newHeadStepper(team *nn.Team, X []float32, y []int, d, k int, mean, std, xb
 		}
 	}
 	s.fillFn, s.updateFn = s.fill, s.update
+	s.rowsFn, s.rangeFn = s.fillRows, s.updateRange
 	return s
 }
+
+// hooks returns the engine hooks that fold phases 1 and 3 into nn.Plain's
+// Runs; prepare must be called before each Eval.
+func (s *headStepper) hooks() nn.Hooks { return nn.Hooks{Fill: s.rowsFn, Update: s.rangeFn} }
 
 // fillBatch standardises the training rows s.rows into the engine's input
 // and writes their one-hot targets.
@@ -84,23 +97,43 @@ func (s *headStepper) fillBatch() {
 }
 
 func (s *headStepper) fill(u int) {
+	s.fillRows(u*headFillRows, min(len(s.rows), (u+1)*headFillRows))
+}
+
+// fillRows standardises minibatch rows [b0, b1) and writes their targets.
+func (s *headStepper) fillRows(b0, b1 int) {
 	d, k := s.d, s.k
-	b0, b1 := u*headFillRows, min(len(s.rows), (u+1)*headFillRows)
 	clear(s.yb[b0*k : b1*k])
 	for b := b0; b < b1; b++ {
 		r := s.rows[b]
 		row := s.X[r*d : (r+1)*d]
-		dst := s.xb[b*d : (b+1)*d]
-		for j, v := range row {
-			dst[j] = (v - s.mean[j]) / s.std[j]
-		}
+		standardizeRow(s.xb[b*d:(b+1)*d], row, s.mean, s.std)
 		s.yb[b*k+s.y[r]] = 1
 	}
 }
 
+// standardizeRow sets dst[j] = (x[j] − mean[j]) / std[j], a float32
+// subtraction and division per element. The SIMD build replaces it by an
+// 8-lane version; IEEE 754 rounds both operations correctly in either, so
+// the bits are the same (TestStandardizeRowMatchesScalar).
+var standardizeRow = standardizeRowGo
+
+func standardizeRowGo(dst, x, mean, std []float32) {
+	dst, mean, std = dst[:len(x)], mean[:len(x)], std[:len(x)]
+	for j, v := range x {
+		dst[j] = (v - mean[j]) / std[j]
+	}
+}
+
 // apply performs one optimiser step with learning rate lr (st.t already
-// counts it).
+// counts it) on the whole gradient.
 func (s *headStepper) apply(lr float64) {
+	s.prepare(lr)
+	s.team.Run(len(s.units), s.updateFn)
+}
+
+// prepare sets the step sizes of the optimiser step st.t with learning rate lr.
+func (s *headStepper) prepare(lr float64) {
 	if s.adam {
 		// Kingma & Ba (2015), Algorithm 1, with the bias corrections folded
 		// into the step size: α_t = α·sqrt(1−β2^t)/(1−β1^t) and ε̂ = ε·sqrt(1−β2^t).
@@ -111,19 +144,35 @@ func (s *headStepper) apply(lr float64) {
 	} else {
 		s.step = float32(lr)
 	}
-	s.team.Run(len(s.units), s.updateFn)
 }
 
 func (s *headStepper) update(u int) {
 	r := s.units[u]
-	p, g := s.params[r.i][r.lo:r.hi], s.grads[r.i][r.lo:r.hi]
-	m := s.st.opt1[r.i][r.lo:r.hi]
+	s.updateRange(r.i, r.lo, r.hi, 0)
+}
+
+// updateRange steps elements [lo, hi) of parameter tensor i on the
+// gradient g + lam·p (see nn.Hooks.Update; lam 0: g as it is).
+func (s *headStepper) updateRange(i, lo, hi int, lam float32) {
+	p, g := s.params[i][lo:hi], s.grads[i][lo:hi]
+	m := s.st.opt1[i][lo:hi]
 	if s.adam {
-		adamRange(p, g, m, s.st.opt2[r.i][r.lo:r.hi], s.step, s.eps)
+		if lam != 0 {
+			adamL2Range(p, g, m, s.st.opt2[i][lo:hi], lam, s.step, s.eps)
+		} else {
+			adamRange(p, g, m, s.st.opt2[i][lo:hi], s.step, s.eps)
+		}
 		return
 	}
 	mu, a := s.mu, s.step
 	g, m = g[:len(p)], m[:len(p)]
+	if lam != 0 {
+		for j := range p {
+			m[j] = mu*m[j] + (g[j] + float32(lam*p[j]))
+			p[j] -= a * m[j]
+		}
+		return
+	}
 	for j := range p {
 		m[j] = mu*m[j] + g[j]
 		p[j] -= a * m[j]
@@ -136,13 +185,30 @@ func (s *headStepper) update(u int) {
 // it by 8-lane code doing the same float32 operations in the same order
 // (float32 square roots are correctly rounded either way), so both give the
 // same bits (TestAdamRangeMatchesScalar).
-var adamRange = adamRangeGo
+var (
+	adamRange   = adamRangeGo
+	adamL2Range = adamL2RangeGo
+)
 
 func adamRangeGo(p, g, m, v []float32, step, eps float32) {
 	const b1, b2 = float32(adamBeta1), float32(adamBeta2)
 	g, m, v = g[:len(p)], m[:len(p)], v[:len(p)]
 	for j := range p {
 		gj := g[j]
+		m[j] = b1*m[j] + (1-b1)*gj
+		v[j] = b2*v[j] + (1-b2)*gj*gj
+		p[j] -= step * m[j] / (float32(math.Sqrt(float64(v[j]))) + eps)
+	}
+}
+
+// adamL2RangeGo is adamRangeGo on the gradient g + lam·p, formed as the
+// L2 term's own pass would (nn's l2Add: the product rounded to float32,
+// then the sum), in the same loop.
+func adamL2RangeGo(p, g, m, v []float32, lam, step, eps float32) {
+	const b1, b2 = float32(adamBeta1), float32(adamBeta2)
+	g, m, v = g[:len(p)], m[:len(p)], v[:len(p)]
+	for j := range p {
+		gj := g[j] + float32(lam*p[j])
 		m[j] = b1*m[j] + (1-b1)*gj
 		v[j] = b2*v[j] + (1-b2)*gj*gj
 		p[j] -= step * m[j] / (float32(math.Sqrt(float64(v[j]))) + eps)

@@ -1,18 +1,28 @@
 package nn
 
-// l2Range adds the L2 term's gradient lam·w to dst (dst[j] += lam·w[j],
-// one float32 multiplication and addition per element) and returns Σ w²,
-// summed in float64. The SIMD build replaces it by an 8-lane version
-// (l2_simd_amd64.go) with the same gradient bits and the sum taken over
-// eight float64 lanes, whose order is fixed by the length alone.
-var l2Range = l2RangeGo
+// l2Add adds the L2 term's gradient lam·w to dst (dst[j] += lam·w[j], one
+// float32 multiplication and addition per element); l2Sq returns Σ w²,
+// summed in float64. The SIMD build replaces them by 8-lane versions
+// (loops_simd_amd64.go) with the same gradient bits and the sum taken over
+// eight float64 lanes, whose order is fixed by the length alone. They are
+// separate because Eval takes Σ w² while the weights are still those the
+// loss is of, and the gradient term where the optimiser may step at once.
+var (
+	l2Add = l2AddGo
+	l2Sq  = l2SqGo
+)
 
-func l2RangeGo(dst, w []float32, lam float32) float64 {
-	var sq float64
+func l2AddGo(dst, w []float32, lam float32) {
 	dst = dst[:len(w)]
 	for j, v := range w {
+		dst[j] += float32(lam * v) // the conversion keeps the product rounded (no FMA)
+	}
+}
+
+func l2SqGo(w []float32) float64 {
+	var sq float64
+	for _, v := range w {
 		sq += float64(v) * float64(v)
-		dst[j] += lam * v
 	}
 	return sq
 }

@@ -9,28 +9,40 @@ import (
 
 func init() {
 	if archsimd.X86.AVX2() && archsimd.X86.FMA() {
-		l2Range = l2RangeSIMD
+		l2Add, l2Sq = l2AddSIMD, l2SqSIMD
 		biasReLU, maskReLU = biasReLUSIMD, maskReLUSIMD
 	}
 }
 
-// l2RangeSIMD is l2RangeGo on 8 lanes. The squares are exact in float64,
-// so the fused multiply-add of the sums rounds as an addition would; the
-// eight lane sums are added in lane order at the end, then the tail.
-func l2RangeSIMD(dst, w []float32, lam float32) float64 {
+// l2AddSIMD is l2AddGo on 8 lanes (a multiplication, then an addition).
+func l2AddSIMD(dst, w []float32, lam float32) {
 	n := len(w)
 	if len(dst) < n {
-		panic("nn: internal error: l2RangeSIMD lengths")
+		panic("nn: internal error: l2AddSIMD lengths")
 	}
 	vl := archsimd.BroadcastFloat32x8(lam)
 	dp, wp := unsafe.Pointer(unsafe.SliceData(dst)), unsafe.Pointer(unsafe.SliceData(w))
-	var s0, s1 archsimd.Float64x4
 	i := 0
 	for ; i+8 <= n; i += 8 {
 		o := uintptr(i) * 4
 		v := archsimd.LoadFloat32x8((*[8]float32)(unsafe.Add(wp, o)))
 		d := archsimd.LoadFloat32x8((*[8]float32)(unsafe.Add(dp, o)))
 		d.Add(vl.Mul(v)).Store((*[8]float32)(unsafe.Add(dp, o)))
+	}
+	archsimd.ClearAVXUpperBits()
+	l2AddGo(dst[i:n], w[i:], lam)
+}
+
+// l2SqSIMD is l2SqGo on 8 lanes. The squares are exact in float64, so the
+// fused multiply-add of the sums rounds as an addition would; the eight
+// lane sums are added in lane order at the end, then the tail's sum.
+func l2SqSIMD(w []float32) float64 {
+	n := len(w)
+	wp := unsafe.Pointer(unsafe.SliceData(w))
+	var s0, s1 archsimd.Float64x4
+	i := 0
+	for ; i+8 <= n; i += 8 {
+		v := archsimd.LoadFloat32x8((*[8]float32)(unsafe.Add(wp, uintptr(i)*4)))
 		lo, hi := v.GetLo().ConvertToFloat64(), v.GetHi().ConvertToFloat64()
 		s0 = lo.MulAdd(lo, s0)
 		s1 = hi.MulAdd(hi, s1)
@@ -43,7 +55,7 @@ func l2RangeSIMD(dst, w []float32, lam float32) float64 {
 	for _, v := range lanes {
 		sq += v
 	}
-	return sq + l2RangeGo(dst[i:n], w[i:], lam)
+	return sq + l2SqGo(w[i:])
 }
 
 // biasReLUSIMD is biasReLUGo on 8 lanes; VMAXPS returns its second operand

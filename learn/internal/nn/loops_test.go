@@ -10,11 +10,11 @@ import (
 // exact float64 squares summed in a different order: a few float64 ulps.
 const l2SumTol = 1e-13
 
-// TestL2RangeMatchesScalar checks l2Range (8 lanes in the SIMD build)
+// TestL2LoopsMatchScalar checks l2Add and l2Sq (8 lanes in the SIMD build)
 // against the scalar loop: the same gradient bits, dst[j] + λ·w[j] rounded
 // once per operation as IEEE 754 float32 prescribes, and Σ w² equal to
 // math.FMA-free float64 summation within l2SumTol.
-func TestL2RangeMatchesScalar(t *testing.T) {
+func TestL2LoopsMatchScalar(t *testing.T) {
 	r := rand.New(rand.NewPCG(3, 4))
 	for _, n := range []int{1, 7, 8, 9, 17, 4099} {
 		w, d := make([]float32, n), make([]float32, n)
@@ -23,7 +23,8 @@ func TestL2RangeMatchesScalar(t *testing.T) {
 		}
 		d2 := append([]float32(nil), d...)
 		const lam = 1e-4
-		got := l2Range(d, w, lam)
+		l2Add(d, w, lam)
+		got := l2Sq(w)
 		var want float64
 		for j, v := range w {
 			want += float64(v) * float64(v)

@@ -55,20 +55,28 @@ func GemmNTGonum(c, a, b []float32, m, n, p int) {
 //
 // The batch is split into Spec.Chunks row chunks (rows [c·B/C, (c+1)·B/C)),
 // each with its own scratch; the work of Eval is cut into units fixed by the
-// Spec alone and run on the goroutines of a Team, every unit writing its own
-// outputs, so any number of workers gives the same loss and gradient bit
-// for bit:
+// Spec alone and run on the goroutines of a Team in two Runs, every unit
+// writing its own outputs, so any number of workers gives the same loss and
+// gradient bit for bit:
 //
-//   - per chunk: the forward pass, the chunk's loss terms and the backward
+//  1. per chunk: the forward pass, the chunk's loss terms and the backward
 //     pass down to dZ (and, for an mlp, the hidden layer's dA), written into
 //     the chunk's rows of whole-batch buffers; the gradient shares of the
 //     small tensors (softmax W and b; mlp W2 and b2), whose terms are
-//     already divided by the whole batch size B;
-//   - per block of plainHiddenBlock hidden units (mlp): that block's rows of
+//     already divided by the whole batch size B. Beside them, per range of
+//     reduceRange weights, Σ w² for the L2 term of the loss.
+//  2. per block of plainHiddenBlock hidden units (mlp): that block's rows of
 //     dW1 = dAᵀ·X and db1 over the whole batch, so the big product keeps the
-//     batch as its inner dimension and no chunk holds a copy of dW1;
-//   - per range of reduceRange parameter values: the chunks' shares summed
-//     in chunk order 0, 1, …, C−1, plus the L2 term.
+//     batch as its inner dimension and no chunk holds a copy of dW1; per
+//     range of reduceRange values of the small tensors: the chunks' shares
+//     summed in chunk order 0, 1, …, C−1. Each unit then adds the L2 term's
+//     gradient λ·W to its weights' gradients.
+//
+// Hooks (SetHooks) fold a caller's per-step work into the same two Runs: the
+// minibatch rows a chunk reads are written by the chunk's own unit, and the
+// optimiser step of a gradient block (with the L2 term's gradient) by the
+// unit that finished it, so a training step costs two Runs rather than five
+// and reads the weights once fewer.
 type Plain struct {
 	spec   Spec
 	gemm   GemmNTFunc
@@ -81,11 +89,32 @@ type Plain struct {
 	dat    []float32
 	chunks []plainChunk
 	shared []bool       // per tensor: summed from chunk shares (else written by the hidden blocks)
-	ranges []paramRange // reduction units over the parameters
-	sq     []float64    // per range: Σ w² of its weights (L2 term)
+	ranges []paramRange // reduction units over the shared tensors
+	wsq    []paramRange // ranges of the weight tensors (L2 term), reduceRange long
+	sq     []float64    // per wsq range: Σ w² of its weights (L2 term)
 	grads  [][]float32  // the caller's gradients during Eval
+	hooks  Hooks
 	// func values made once, so that Eval allocates nothing
-	chunkFn, hiddenFn, reduceFn func(int)
+	firstFn, secondFn func(int)
+}
+
+// Hooks are a caller's additions to Eval (see SetHooks).
+type Hooks struct {
+	// Fill, if not nil, writes rows [r0, r1) of X32 and Y32; Eval calls it
+	// for each chunk's rows, on the chunk's goroutine, before the chunk reads
+	// them.
+	Fill func(r0, r1 int)
+	// Update, if not nil, receives elements [lo, hi) of parameter tensor i
+	// once their gradient is final but for the L2 term, on the goroutine
+	// that finished them, while other blocks are still being computed; it
+	// may change those parameters (and nothing else Eval reads). lam is the
+	// L2 term's λ for a weight tensor and 0 for a bias or without the term:
+	// the gradient is g + lam·w, which Update must form as l2Add does (a
+	// float32 multiplication, then an addition) before it uses it, so that
+	// the L2 term needs no pass over the weights of its own. The calls cover
+	// every parameter exactly once per Eval, in no fixed order. With Update
+	// set the gradients Eval leaves in grads lack the L2 term.
+	Update func(i, lo, hi int, lam float32)
 }
 
 // plainChunk is one row chunk's scratch.
@@ -140,10 +169,16 @@ func NewPlain(s Spec, k Kernels, team *Team) (*Plain, error) {
 		p.params = append(p.params, make([]float32, n))
 		p.shared = append(p.shared, s.Hidden == 0 || i >= 2)
 		for lo := 0; lo < n; lo += reduceRange {
-			p.ranges = append(p.ranges, paramRange{i, lo, min(n, lo+reduceRange)})
+			r := paramRange{i, lo, min(n, lo+reduceRange)}
+			if p.shared[i] {
+				p.ranges = append(p.ranges, r)
+			}
+			if s.L2 > 0 && (i == 0 || i == 2) {
+				p.wsq = append(p.wsq, r)
+			}
 		}
 	}
-	p.sq = make([]float64, len(p.ranges))
+	p.sq = make([]float64, len(p.wsq))
 	if s.Hidden > 0 {
 		p.w2t = make([]float32, s.Hidden*s.Out)
 		p.dat = make([]float32, s.Hidden*s.Batch)
@@ -170,8 +205,16 @@ func NewPlain(s Spec, k Kernels, team *Team) (*Plain, error) {
 		}
 		p.chunks = append(p.chunks, ch)
 	}
-	p.chunkFn, p.hiddenFn, p.reduceFn = p.evalChunk, p.hiddenBlock, p.reduce
+	p.firstFn, p.secondFn = p.first, p.second
 	return p, nil
+}
+
+// SetHooks installs h for the following Evals (the zero Hooks removes them).
+func (p *Plain) SetHooks(h Hooks) { p.hooks = h }
+
+// hiddenBlocks returns the number of dW1 units (0 for softmax).
+func (p *Plain) hiddenBlocks() int {
+	return (p.spec.Hidden + plainHiddenBlock - 1) / plainHiddenBlock
 }
 
 func (p *Plain) Spec() Spec            { return p.spec }
@@ -237,11 +280,8 @@ func (p *Plain) Eval(grads any) (float64, error) {
 	if s.Hidden > 0 {
 		transpose(p.w2t, p.params[2], s.Out, s.Hidden, s.Out)
 	}
-	p.team.Run(len(p.chunks), p.chunkFn)
-	if s.Hidden > 0 {
-		p.team.Run((s.Hidden+plainHiddenBlock-1)/plainHiddenBlock, p.hiddenFn)
-	}
-	p.team.Run(len(p.ranges), p.reduceFn)
+	p.team.Run(len(p.chunks)+len(p.wsq), p.firstFn)
+	p.team.Run(p.hiddenBlocks()+len(p.ranges), p.secondFn)
 	p.grads = nil
 	var ce, sq float64
 	for _, ch := range p.chunks {
@@ -258,6 +298,53 @@ func (p *Plain) Eval(grads any) (float64, error) {
 		return loss, ErrNonFinite
 	}
 	return loss, nil
+}
+
+// first runs unit u of Eval's first Run: chunk u, or Σ w² of a weight range.
+func (p *Plain) first(u int) {
+	if u < len(p.chunks) {
+		if p.hooks.Fill != nil {
+			p.hooks.Fill(p.chunks[u].r0, p.chunks[u].r1)
+		}
+		p.evalChunk(u)
+		return
+	}
+	r := p.wsq[u-len(p.chunks)]
+	p.sq[u-len(p.chunks)] = l2Sq(p.params[r.i][r.lo:r.hi])
+}
+
+// second runs unit u of Eval's second Run: a dW1 block, or a range of a
+// shared tensor; then the L2 gradient and the Update hook for what it
+// finished.
+func (p *Plain) second(u int) {
+	if nh := p.hiddenBlocks(); u < nh {
+		p.hiddenBlock(u)
+		s := p.spec
+		h0, h1 := u*plainHiddenBlock, min(s.Hidden, (u+1)*plainHiddenBlock)
+		p.finish(0, h0*s.In, h1*s.In)
+		p.finish(1, h0, h1)
+		return
+	}
+	r := p.ranges[u-p.hiddenBlocks()]
+	p.reduce(r)
+	p.finish(r.i, r.lo, r.hi)
+}
+
+// finish adds the L2 term's gradient λ·W to elements [lo, hi) of the
+// gradient of tensor i (weight tensors 0 and 2 only), or hands them to the
+// Update hook, which adds it.
+func (p *Plain) finish(i, lo, hi int) {
+	var lam float32
+	if p.spec.L2 > 0 && (i == 0 || i == 2) {
+		lam = float32(p.spec.L2)
+	}
+	if p.hooks.Update != nil {
+		p.hooks.Update(i, lo, hi, lam)
+		return
+	}
+	if lam != 0 {
+		l2Add(p.grads[i][lo:hi], p.params[i][lo:hi], lam)
+	}
 }
 
 // evalChunk runs chunk c's forward and backward pass (see Plain).
@@ -315,22 +402,14 @@ func (p *Plain) hiddenBlock(u int) {
 	rowSums(p.grads[1][h0:h1], dat, B)
 }
 
-// reduce sums the chunks' gradient shares over range u in chunk order, then
-// adds the L2 term's gradient λ·W (weight tensors 0 and 2 only) and records
-// the range's Σ w².
-func (p *Plain) reduce(u int) {
-	r := p.ranges[u]
+// reduce sums the chunks' gradient shares over range r of a shared tensor
+// in chunk order.
+func (p *Plain) reduce(r paramRange) {
 	dst := p.grads[r.i][r.lo:r.hi]
-	if p.shared[r.i] {
-		for _, ch := range p.chunks[1:] {
-			for j, v := range ch.g[r.i][r.lo:r.hi] {
-				dst[j] += v
-			}
+	for _, ch := range p.chunks[1:] {
+		for j, v := range ch.g[r.i][r.lo:r.hi] {
+			dst[j] += v
 		}
-	}
-	p.sq[u] = 0
-	if p.spec.L2 > 0 && (r.i == 0 || r.i == 2) {
-		p.sq[u] = l2Range(dst, p.params[r.i][r.lo:r.hi], float32(p.spec.L2))
 	}
 }
 

@@ -23,18 +23,17 @@ func hsumGo(dst []float32, n int, srcs [][]float32, taps []filt, off int) {
 		for ; u+8 <= len(tp); u += 8 {
 			c0, c1, c2, c3 := tp[u], tp[u+1], tp[u+2], tp[u+3]
 			c4, c5, c6, c7 := tp[u+4], tp[u+5], tp[u+6], tp[u+7]
-			s := src[u : u+len(d)+7]
+			s0, s1, s2, s3 := src[u:][:len(d)], src[u+1:][:len(d)], src[u+2:][:len(d)], src[u+3:][:len(d)]
+			s4, s5, s6, s7 := src[u+4:][:len(d)], src[u+5:][:len(d)], src[u+6:][:len(d)], src[u+7:][:len(d)]
 			for x := range d {
-				w := s[x : x+8]
-				d[x] = (d[x] + (c0*w[0] + c1*w[1] + c2*w[2] + c3*w[3])) + (c4*w[4] + c5*w[5] + c6*w[6] + c7*w[7])
+				d[x] = (d[x] + (c0*s0[x] + c1*s1[x] + c2*s2[x] + c3*s3[x])) + (c4*s4[x] + c5*s5[x] + c6*s6[x] + c7*s7[x])
 			}
 		}
 		if u+4 <= len(tp) {
 			c0, c1, c2, c3 := tp[u], tp[u+1], tp[u+2], tp[u+3]
-			s := src[u : u+len(d)+3]
+			s0, s1, s2, s3 := src[u:][:len(d)], src[u+1:][:len(d)], src[u+2:][:len(d)], src[u+3:][:len(d)]
 			for x := range d {
-				w := s[x : x+4]
-				d[x] += c0*w[0] + c1*w[1] + c2*w[2] + c3*w[3]
+				d[x] += c0*s0[x] + c1*s1[x] + c2*s2[x] + c3*s3[x]
 			}
 			u += 4
 		}
@@ -47,17 +46,15 @@ func hsumGo(dst []float32, n int, srcs [][]float32, taps []filt, off int) {
 			}
 		case 2:
 			c0, c1 := tp[u], tp[u+1]
-			s = s[:len(d)+1]
+			s0, s1 := s[:len(d)], s[1:][:len(d)]
 			for x := range d {
-				w := s[x : x+2]
-				d[x] = (d[x] + c0*w[0]) + c1*w[1]
+				d[x] = (d[x] + c0*s0[x]) + c1*s1[x]
 			}
 		case 3:
 			c0, c1, c2 := tp[u], tp[u+1], tp[u+2]
-			s = s[:len(d)+2]
+			s0, s1, s2 := s[:len(d)], s[1:][:len(d)], s[2:][:len(d)]
 			for x := range d {
-				w := s[x : x+3]
-				d[x] = ((d[x] + c0*w[0]) + c1*w[1]) + c2*w[2]
+				d[x] = ((d[x] + c0*s0[x]) + c1*s1[x]) + c2*s2[x]
 			}
 		}
 	}

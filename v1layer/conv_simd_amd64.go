@@ -29,7 +29,7 @@ import (
 // archsimd.ClearAVXUpperBits at the end of every loop.
 func init() {
 	if archsimd.X86.AVX2() && archsimd.X86.FMA() {
-		hsum, vsum, sum3 = hsum8, vsum8, sum3SIMD
+		hsum, vsum, sum3, lanes = hsum8, vsum8, sum3SIMD, 8
 		energyTo, maxInto = energySIMD, maxIntoSIMD
 		max2To, max3To = max2SIMD, max3SIMD
 		min2To, min3To, esq2To, esq3To, sqrtsOf = min2SIMD, min3SIMD, esq2SIMD, esq3SIMD, sqrtsSIMD

@@ -4,10 +4,11 @@ package v1layer
 // the separable plan (see separable.go) over pre-padded planes.
 //
 // Layout: the input is copied into a padded plane of (h+2R) rows and pw
-// columns (pw ≥ 2R + nx + 8, nx = w rounded up to 8), image pixel (y,x) at
-// row R+y, column R+x. First passes write planes of the same layout; the
-// inner loops compute nx ≥ w outputs per row (whole SIMD blocks), so every
-// buffer has slack for the extra columns, whose values are never used.
+// columns (pw ≥ 2R + roundUp(w, 8) + 8), image pixel (y,x) at row R+y,
+// column R+x. First passes write planes of the same layout; the inner
+// loops compute nx ≥ w outputs per row (nx = w rounded up to lanes: whole
+// SIMD blocks, or exactly w for the portable loops), so every buffer has
+// slack for the extra columns, whose values are never used.
 type engine struct {
 	kernels []Kernel
 	R       int
@@ -42,8 +43,8 @@ func (e *engine) scratchFor(s *engineScratch, h, w int) *engineScratch {
 	if s == nil {
 		s = &engineScratch{}
 	}
-	nx := roundUp(w, 8)
-	pw := roundUp(2*e.R+nx+8, 8)
+	nx := roundUp(w, lanes)
+	pw := roundUp(2*e.R+roundUp(w, 8)+8, 8)
 	n := (h + 2*e.R) * pw
 	s.pad = make([]float32, n)
 	if len(s.planes) != e.slots {
@@ -110,7 +111,7 @@ func (e *engine) firstPasses(g, h, w int, b Border, s *engineScratch) {
 		} else {
 			c0, nc := R, nx
 			if b == BorderReflect {
-				c0, nc = R-q.r, roundUp(w+2*q.r, 8)
+				c0, nc = R-q.r, roundUp(w+2*q.r, lanes)
 			}
 			full := s.full[:1]
 			full[0] = q.taps
@@ -288,61 +289,6 @@ func slotIn(fo []int, fi int) int {
 	panic("v1layer: internal error: first pass not in its group")
 }
 
-// hsumGo is the portable horizontal second pass:
-//
-//	dst[x] = Σ_t Σ_u taps[t][u]·srcs[t][off+x+u],  x ∈ [0,n)
-func hsumGo(dst []float32, n int, srcs [][]float32, taps []filt, off int) {
-	d := dst[:n]
-	clear(d)
-	for t, f := range taps {
-		tp := f.w
-		src := srcs[t][off : off+n+len(tp)-1]
-		u := 0
-		for ; u+4 <= len(tp); u += 4 {
-			c0, c1, c2, c3 := tp[u], tp[u+1], tp[u+2], tp[u+3]
-			s0, s1, s2, s3 := src[u:][:len(d)], src[u+1:][:len(d)], src[u+2:][:len(d)], src[u+3:][:len(d)]
-			for x := range d {
-				d[x] += c0*s0[x] + c1*s1[x] + c2*s2[x] + c3*s3[x]
-			}
-		}
-		for ; u < len(tp); u++ {
-			c, s0 := tp[u], src[u:][:len(d)]
-			for x := range d {
-				d[x] += c * s0[x]
-			}
-		}
-	}
-}
-
-// vsumGo is the portable vertical pass:
-//
-//	dst[x] = Σ_t Σ_k taps[t][k]·srcs[t][off+k·stride+x],  x ∈ [0,n)
-func vsumGo(dst []float32, n int, srcs [][]float32, taps []filt, off, stride int) {
-	d := dst[:n]
-	clear(d)
-	for t, f := range taps {
-		tp := f.w
-		src := srcs[t]
-		k := 0
-		for ; k+4 <= len(tp); k += 4 {
-			c0, c1, c2, c3 := tp[k], tp[k+1], tp[k+2], tp[k+3]
-			o := off + k*stride
-			s0, s1 := src[o:][:len(d)], src[o+stride:][:len(d)]
-			s2, s3 := src[o+2*stride:][:len(d)], src[o+3*stride:][:len(d)]
-			for x := range d {
-				d[x] += c0*s0[x] + c1*s1[x] + c2*s2[x] + c3*s3[x]
-			}
-		}
-		for ; k < len(tp); k++ {
-			c, o := tp[k], off+k*stride
-			s0 := src[o:][:len(d)]
-			for x := range d {
-				d[x] += c * s0[x]
-			}
-		}
-	}
-}
-
 // trim returns the tap range [k0,k1) of a vertical pass of radius r
 // (s0 = 2r+1 taps) for output row y of h: with a zero border the taps that
 // read rows outside the image (all zeros) are skipped.
@@ -361,6 +307,12 @@ var (
 	sum3 = sum3Go
 
 	bulkOf = bulkOf8
+
+	// lanes is the multiple of outputs per row the loops compute (nx = w
+	// rounded up to it): 1 for the portable loops, which then compute no
+	// column beyond the image (12% of the work at 28×28 with 8); a SIMD
+	// build sets its vector width.
+	lanes = 1
 
 	// vsum2, when set, is two vsum calls over the same sources in one
 	// pass (dst da with taps ta, db with tb), for n a multiple of 16.

@@ -351,15 +351,7 @@ func (c HeadConfig) FitWith(X []float32, y []int, nClasses int, opt HeadFitOptio
 	}
 	defer net.Close()
 	params := net.Params32()
-	grads := make([][]float32, len(params))
-	st := &headState{}
-	for i, p := range params {
-		grads[i] = make([]float32, len(p))
-		st.opt1 = append(st.opt1, make([]float32, len(p)))
-		if cfg.Optimizer == OptAdam {
-			st.opt2 = append(st.opt2, make([]float32, len(p)))
-		}
-	}
+	st, grads := newHeadState(params, cfg.Optimizer == OptAdam)
 	// The fingerprint hashes all of X (a noticeable share of a short fit on
 	// a big set), so it is computed only when a checkpoint needs it.
 	var fp [32]byte
@@ -491,6 +483,21 @@ type headState struct {
 	reason          string // StopReason when stopped (not stored in checkpoints: a checkpoint is never taken at a stop)
 	trainLoss       []float64
 	valLoss, valAcc []float64
+}
+
+// newHeadState returns zeroed optimiser state for params (Adam's second
+// moments only when adam) and a zeroed gradient buffer of the same shapes.
+func newHeadState(params [][]float32, adam bool) (*headState, [][]float32) {
+	st := &headState{}
+	grads := make([][]float32, len(params))
+	for i, p := range params {
+		grads[i] = make([]float32, len(p))
+		st.opt1 = append(st.opt1, make([]float32, len(p)))
+		if adam {
+			st.opt2 = append(st.opt2, make([]float32, len(p)))
+		}
+	}
+	return st, grads
 }
 
 func (st *headState) fill(rep *HeadReport) {

@@ -67,13 +67,7 @@ func TestHeadStepAllocatesNothing(t *testing.T) {
 		t.Fatal(err)
 	}
 	params := net.Params32()
-	st := &headState{}
-	var grads [][]float32
-	for _, p := range params {
-		grads = append(grads, make([]float32, len(p)))
-		st.opt1 = append(st.opt1, make([]float32, len(p)))
-		st.opt2 = append(st.opt2, make([]float32, len(p)))
-	}
+	st, grads := newHeadState(params, true)
 	headInit(params, cfg, d, k)
 	s := newHeadStepper(team, X, y, d, k, mean, std, net.X32(), net.Y32(), params, grads, st, cfg)
 	for b := range s.rows {
@@ -195,13 +189,7 @@ func TestHeadFusedStepMatchesPhases(t *testing.T) {
 					t.Fatal(err)
 				}
 				params := net.Params32()
-				st := &headState{}
-				var grads [][]float32
-				for _, p := range params {
-					grads = append(grads, make([]float32, len(p)))
-					st.opt1 = append(st.opt1, make([]float32, len(p)))
-					st.opt2 = append(st.opt2, make([]float32, len(p)))
-				}
+				st, grads := newHeadState(params, true)
 				headInit(params, HeadConfig{Kind: cfg.Kind, Hidden: cfg.Hidden, Seed: 3}, d, k)
 				if cfg.Kind == KindSoftmax { // a zero start would hide the L2 term
 					for i := range params[0] {

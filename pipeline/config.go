@@ -144,6 +144,18 @@ type InputConfig struct {
 	// before the grey stretch and the centre of mass, so both are the
 	// item's; stray ink touching the item stays) or "none".
 	Center string `json:"center,omitempty"`
+	// Deblur is "none" (default) or "auto": estimate the blur of each
+	// image's edges after Denoise (the re-blur gradient ratio of Zhuo & Sim
+	// 2011) and, when it exceeds DeblurRef, undo the excess σₑ = √(σ̂² −
+	// ref²) by Richardson-Lucy deconvolution with a Gaussian of σₑ (12
+	// iterations). Images no blurrier than the training images are left
+	// exactly as they are.
+	Deblur string `json:"deblur,omitempty"`
+	// DeblurRef is the edge blur, in pixels, that Deblur "auto" leaves
+	// alone: 0 means Fit measures it on the training images (the 0.9
+	// quantile of their estimates) and stores it in the model's
+	// configuration. Range [0, 4].
+	DeblurRef float64 `json:"deblur_ref,omitempty"`
 }
 
 // PoolConfig pools the front end's C×H×W maps onto a coarser grid: each
@@ -272,6 +284,7 @@ func (c InputConfig) withDefaults() InputConfig {
 	orDefault(&c.Center, CenterMass)
 	orDefault(&c.Deskew, DeskewNone)
 	orDefault(&c.Upright, UprightNone)
+	orDefault(&c.Deblur, DeblurNone)
 	return c
 }
 

@@ -104,6 +104,9 @@ func (p *Plan) Fit(train *datasets.Set, opts FitOptions) (*Model, FitReport, err
 		rep.BankTime = time.Since(t0)
 	}
 
+	if cfg.Input.Deblur == DeblurAuto && cfg.Input.DeblurRef == 0 {
+		cfg.Input.DeblurRef = measureDeblurRef(p, train, opts.Workers)
+	}
 	t0 := time.Now()
 	var tmpl *templateStage
 	for i := range cfg.Templates {

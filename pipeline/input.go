@@ -25,6 +25,8 @@ const (
 	DeskewNone      = "none"
 	UprightVertical = "vertical" // rotate a tilted, elongated shape so that its principal axis is vertical
 	UprightNone     = "none"
+	DeblurAuto      = "auto" // estimate the edges' blur; undo what exceeds the training images'
+	DeblurNone      = "none"
 )
 
 // minRange is the smallest max − min that NormalizeMinMax stretches: below
@@ -58,6 +60,14 @@ func (c InputConfig) validate() error {
 	default:
 		return fmt.Errorf("pipeline: input.upright %q; want %q (default) or %q", c.Upright, UprightNone, UprightVertical)
 	}
+	switch c.Deblur {
+	case DeblurNone, DeblurAuto:
+	default:
+		return fmt.Errorf("pipeline: input.deblur %q; want %q (default) or %q", c.Deblur, DeblurNone, DeblurAuto)
+	}
+	if !(c.DeblurRef >= 0 && c.DeblurRef <= deblurMaxSigma) {
+		return fmt.Errorf("pipeline: input.deblur_ref %g px outside [0, %g] (0: measured on the training images by Fit)", c.DeblurRef, float64(deblurMaxSigma))
+	}
 	return nil
 }
 
@@ -76,30 +86,25 @@ func (c InputConfig) validate() error {
 // computing the center of mass of the pixels"). An image with no mass is
 // left where it is.
 func normalizeInput(buf, img []float32, h, w int, c InputConfig) []float32 {
-	if c.Normalize != NormalizeMinMax && c.Center != CenterMass && c.Center != CenterRobust && c.Center != CenterAttend && c.Denoise != DenoiseMedian3 && c.Denoise != DenoiseAuto && c.Denoise != DenoiseSmooth && c.Denoise != DenoiseAdaptive && c.Deskew != DeskewShear && c.Upright != UprightVertical {
+	if c.Normalize != NormalizeMinMax && c.Center != CenterMass && c.Center != CenterRobust && c.Center != CenterAttend && c.Denoise != DenoiseMedian3 && c.Denoise != DenoiseAuto && c.Denoise != DenoiseSmooth && c.Denoise != DenoiseAdaptive && c.Deskew != DeskewShear && c.Upright != UprightVertical && c.Deblur != DeblurAuto {
 		return img
 	}
 	n := h * w
-	if cap(buf) < 4*n {
-		buf = make([]float32, 4*n)
+	need := 4 * n
+	if c.Deblur == DeblurAuto {
+		need = 10 * n
 	}
+	if cap(buf) < need {
+		buf = make([]float32, need)
+	}
+	buf = buf[:need]
 	out, tmp := buf[:n], buf[n:2*n]
-	noisy := false // DenoiseAuto found noise: the moments of UprightVertical are not to be trusted
-	switch c.Denoise {
-	case DenoiseMedian3:
-		median3(tmp, img[:n], h, w)
-	case DenoiseAuto:
-		sd := noiseSigma(buf[3*n:], img[:n], h, w)
-		noisy = sd >= autoLight
-		medianPasses(tmp, img[:n], out, h, w, sd)
-	case DenoiseSmooth:
-		sd := noiseSigma(buf[3*n:], img[:n], h, w)
-		noisy = sd >= autoLight // the upright turn is a yes/no decision: "auto"'s gate
-		smoothMedian(tmp, img[:n], out, h, w, sd)
-	case DenoiseAdaptive:
-		noisy = adaptiveDenoise(tmp, out, buf[2*n:3*n], buf[3*n:], img[:n], h, w)
-	default:
-		copy(tmp, img[:n])
+	noisy := denoiseStage(out, tmp, buf, img, h, w, c)
+	if c.Deblur == DeblurAuto {
+		if e := deblurExcess(buf[4*n:], tmp, h, w, c.DeblurRef); e > 0 {
+			richardsonLucy(out, buf[4*n:], tmp, h, w, e)
+			copy(tmp, out)
+		}
 	}
 	if c.Center == CenterAttend {
 		attendItem(tmp, h, w)
@@ -134,6 +139,31 @@ func normalizeInput(buf, img []float32, h, w int, c InputConfig) []float32 {
 		}
 	}
 	return out
+}
+
+// denoiseStage writes img filtered by c.Denoise into tmp (out and buf, of
+// at least 4·h·w, are scratch) and reports whether DenoiseAuto's gate
+// found noise.
+func denoiseStage(out, tmp, buf, img []float32, h, w int, c InputConfig) bool {
+	n := h * w
+	noisy := false // DenoiseAuto found noise: the moments of UprightVertical are not to be trusted
+	switch c.Denoise {
+	case DenoiseMedian3:
+		median3(tmp, img[:n], h, w)
+	case DenoiseAuto:
+		sd := noiseSigma(buf[3*n:4*n], img[:n], h, w)
+		noisy = sd >= autoLight
+		medianPasses(tmp, img[:n], out, h, w, sd)
+	case DenoiseSmooth:
+		sd := noiseSigma(buf[3*n:4*n], img[:n], h, w)
+		noisy = sd >= autoLight // the upright turn is a yes/no decision: "auto"'s gate
+		smoothMedian(tmp, img[:n], out, h, w, sd)
+	case DenoiseAdaptive:
+		noisy = adaptiveDenoise(tmp, out, buf[2*n:3*n], buf[3*n:4*n], img[:n], h, w)
+	default:
+		copy(tmp, img[:n])
+	}
+	return noisy
 }
 
 // centerMass writes src moved by the integer shift that puts its centre of

@@ -109,9 +109,9 @@ func TestPresets(t *testing.T) {
 		want := def
 		switch name {
 		case "digits":
-			want.Input.Deskew, want.Input.Denoise = DeskewShear, DenoiseSmooth
+			want.Input.Deskew, want.Input.Denoise, want.Input.Deblur = DeskewShear, DenoiseSmooth, DeblurAuto
 		case "garments":
-			want.Mirror, want.Pool.Sqrt, want.Input.Upright, want.Input.Denoise = true, true, UprightVertical, DenoiseSmooth
+			want.Mirror, want.Pool.Sqrt, want.Input.Upright, want.Input.Denoise, want.Input.Deblur = true, true, UprightVertical, DenoiseSmooth, DeblurAuto
 		}
 		a, _ := c.MarshalIndent()
 		b, _ := want.MarshalIndent()

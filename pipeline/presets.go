@@ -15,15 +15,17 @@ var presets = map[string]struct {
 	cfg   func() Config
 }{
 	"default": {"the default pipeline", DefaultConfig},
-	"digits": {"handwriting: rows deskewed (input.deskew \"shear\"), median strength continuous in the noise level (input.denoise \"smooth\")", func() Config {
+	"digits": {"handwriting: rows deskewed (input.deskew \"shear\"), median strength continuous in the noise level (input.denoise \"smooth\"), blur beyond the training images' undone (input.deblur \"auto\")", func() Config {
 		c := DefaultConfig()
 		c.Input.Deskew = DeskewShear
 		c.Input.Denoise = DenoiseSmooth
+		c.Input.Deblur = DeblurAuto
 		return c
 	}},
-	"garments": {"garments, shoes, bags: mirror images in training and prediction (mirror), square-root pooled maps (pool.sqrt), tilted upright shapes turned upright (input.upright \"vertical\"), median strength continuous in the noise level (input.denoise \"smooth\")", func() Config {
+	"garments": {"garments, shoes, bags: mirror images in training and prediction (mirror), square-root pooled maps (pool.sqrt), tilted upright shapes turned upright (input.upright \"vertical\"), median strength continuous in the noise level (input.denoise \"smooth\"), blur beyond the training images' undone (input.deblur \"auto\")", func() Config {
 		c := DefaultConfig()
 		c.Input.Denoise = DenoiseSmooth
+		c.Input.Deblur = DeblurAuto
 		c.Mirror = true
 		c.Pool.Sqrt = true
 		c.Input.Upright = UprightVertical
@@ -51,6 +53,15 @@ var presets = map[string]struct {
 // dataset and better at Gaussian noise σ = 0.2-0.35. DefaultConfig keeps
 // "auto", so a configuration that leaves input.denoise out means what it
 // meant before.
+//
+// Both also set Input.Deblur = "auto" (the edges' blur estimated, and what
+// exceeds the training images' undone by Richardson-Lucy deconvolution):
+// under the whole development suite on validation images it left the worst
+// kind unchanged on both datasets and the MNIST-C mean within 0.01 point
+// (78.96% → 78.95% on MNIST, 61.08% → 61.09% on Fashion-MNIST), and raised
+// the accuracy under Gaussian blur from 87.7% to 93.6% and from 69.6% to
+// 74.9% (σ = 2.5: 66.2% → 84.1%, 46.5% → 55.5%). DefaultConfig keeps
+// "none".
 //
 // An unknown name is an error that lists the known ones.
 func Preset(name string) (Config, error) {

@@ -225,8 +225,11 @@ func (p *Plain) Close() error          { return nil }
 
 // transpose sets dst[c·ld + r] = src[r·cols + c] for row-major src
 // (rows×cols): dst (cols×rows) = srcᵀ when ld = rows, or a column block of a
-// wider matrix with ld columns.
-func transpose(dst, src []float32, rows, cols, ld int) {
+// wider matrix with ld columns. The SIMD build replaces it by 8×8 register
+// transposes (a copy either way).
+var transpose = transposeGo
+
+func transposeGo(dst, src []float32, rows, cols, ld int) {
 	const tile = 32
 	for r0 := 0; r0 < rows; r0 += tile {
 		r1 := min(rows, r0+tile)
@@ -371,9 +374,7 @@ func (p *Plain) evalChunk(c int) {
 	// kernel then packs the chunk's rows rather than all of W1.
 	at := ch.at
 	p.gemm(at, p.params[0], x, H, B, D)
-	for h, bh := range p.params[1] {
-		biasReLU(at[h*B:(h+1)*B], bh)
-	}
+	biasReLURows(at, p.params[1], B)
 	transpose(ch.a, at, H, B, H)
 	p.forwardAffine(ch.z, ch.a, p.params[2], p.params[3], B, H, K)
 	ch.loss = softmaxCE(ch.z, y, B, K, invB)

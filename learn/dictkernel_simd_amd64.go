@@ -18,6 +18,7 @@ import (
 func init() {
 	if archsimd.X86.AVX2() && archsimd.X86.FMA() {
 		gemmNT, gemmNN, gemmNNSub, axpy = gemmNTSIMD, gemmNNSIMD, gemmNNSubSIMD, axpySIMD
+		packNN, gemmNNPacked = packNNSIMD, gemmNNPackedSIMD
 		kernelBuild = "simd (GOEXPERIMENT=simd, AVX2+FMA, 8 float32 lanes)"
 	}
 }
@@ -219,43 +220,95 @@ func gemmNNSIMD(c, a, b []float32, m, n, p int) {
 		*bufp = make([]float32, 16*p)
 	}
 	pk := (*bufp)[:16*p]
-	panel := unsafe.Pointer(unsafe.SliceData(pk))
-	var tile [6 * 16]float32
-	tp := unsafe.Pointer(&tile[0])
-	as := uintptr(4 * p)
-	ap := unsafe.Pointer(unsafe.SliceData(a))
 	for j0 := 0; j0 < n; j0 += 16 {
-		w := min(16, n-j0)
-		if w == 16 {
-			// Two 8-lane moves per row: copy, or a 64-byte array
-			// assignment, calls memmove for every row.
-			bp := unsafe.Pointer(unsafe.SliceData(b[j0:]))
-			for q := 0; q < p; q++ {
-				src := unsafe.Add(bp, uintptr(q*n)*4)
-				st8(unsafe.Add(panel, q*64), ld8(src))
-				st8(unsafe.Add(panel, q*64+32), ld8(unsafe.Add(src, 32)))
-			}
-		} else {
-			for q := 0; q < p; q++ {
-				copy(pk[q*16:q*16+w], b[q*n+j0:q*n+j0+w])
-				clear(pk[q*16+w : (q+1)*16])
-			}
-		}
-		if w == 16 {
-			tileStrip(unsafe.Pointer(unsafe.SliceData(c[j0:])), uintptr(4*n), ap, as, panel, 64, m, p, tileStore)
-			continue
-		}
-		for r0 := 0; r0 < m; r0 += 6 {
-			rows := min(6, m-r0)
-			tileStrip(tp, 64, unsafe.Add(ap, uintptr(r0)*as), as, panel, 64, rows, p, tileStore)
-			for r := 0; r < rows; r++ {
-				i := r0 + r
-				copy(c[i*n+j0:i*n+n], tile[r*16:r*16+w])
-			}
-		}
+		packNNStrip(pk, b, n, j0, 0, p)
+		nnStrip(c, a, pk, m, n, p, j0)
 	}
 	archsimd.ClearAVXUpperBits()
 	packPool.Put(bufp)
+}
+
+// packNNStrip copies rows [q0, q1) of the 16-column strip of b (p×n) at
+// column j0 into rows [q0, q1) of panel (p×16), zero past column n.
+func packNNStrip(panel, b []float32, n, j0, q0, q1 int) {
+	w := min(16, n-j0)
+	if w < 16 {
+		for q := q0; q < q1; q++ {
+			copy(panel[q*16:q*16+w], b[q*n+j0:q*n+j0+w])
+			clear(panel[q*16+w : (q+1)*16])
+		}
+		return
+	}
+	if len(panel) < q1*16 || len(b) < (q1-1)*n+j0+16 {
+		panic("learn: internal error: packNNStrip lengths")
+	}
+	// Two 8-lane moves per row: copy, or a 64-byte array assignment, calls
+	// memmove for every row.
+	pp := unsafe.Pointer(unsafe.SliceData(panel))
+	bp := unsafe.Pointer(unsafe.SliceData(b[j0:]))
+	for q := q0; q < q1; q++ {
+		src := unsafe.Add(bp, uintptr(q*n)*4)
+		st8(unsafe.Add(pp, q*64), ld8(src))
+		st8(unsafe.Add(pp, q*64+32), ld8(unsafe.Add(src, 32)))
+	}
+}
+
+// nnStrip computes columns [j0, j0+16) of c = a·b (a m×p, c m×n) from the
+// packed strip panel (p×16) of b; columns past n go through a 6×16 buffer.
+func nnStrip(c, a, panel []float32, m, n, p, j0 int) {
+	as := uintptr(4 * p)
+	ap := unsafe.Pointer(unsafe.SliceData(a))
+	pp := unsafe.Pointer(unsafe.SliceData(panel))
+	w := min(16, n-j0)
+	if w == 16 {
+		tileStrip(unsafe.Pointer(unsafe.SliceData(c[j0:])), uintptr(4*n), ap, as, pp, 64, m, p, tileStore)
+		return
+	}
+	var tile [6 * 16]float32
+	tp := unsafe.Pointer(&tile[0])
+	for r0 := 0; r0 < m; r0 += 6 {
+		rows := min(6, m-r0)
+		tileStrip(tp, 64, unsafe.Add(ap, uintptr(r0)*as), as, pp, 64, rows, p, tileStore)
+		for r := 0; r < rows; r++ {
+			i := r0 + r
+			copy(c[i*n+j0:i*n+n], tile[r*16:r*16+w])
+		}
+	}
+}
+
+// packNNSIMD writes rows [q0, q1) of b (p×n) into pk in the layout
+// gemmNNPackedSIMD reads: the ⌈n/16⌉ strips of gemmNNSIMD's panels one
+// after the other, strip j at pk[j·16p:]. Disjoint row ranges may be
+// packed concurrently.
+func packNNSIMD(pk, b []float32, p, n, q0, q1 int) {
+	if len(pk) < (n+15)/16*16*p || len(b) < p*n {
+		panic("learn: internal error: packNNSIMD lengths")
+	}
+	for j0 := 0; j0 < n; j0 += 16 {
+		packNNStrip(pk[j0*p:(j0+16)*p], b, n, j0, q0, q1)
+	}
+	archsimd.ClearAVXUpperBits()
+}
+
+// gemmNNPackedSIMD is gemmNNSIMD with b packed once by packNNSIMD, for a
+// b that several products read (the head's inputs, read by every block of
+// its hidden layer's weight gradient): the same panels, the same tiles,
+// the same bits.
+func gemmNNPackedSIMD(c, a, pk []float32, m, n, p int) {
+	if m == 0 || n == 0 {
+		return
+	}
+	if len(a) < m*p || len(pk) < (n+15)/16*16*p || len(c) < m*n {
+		panic("learn: internal error: gemmNNPackedSIMD slice too short")
+	}
+	if p == 0 {
+		clear(c[:m*n])
+		return
+	}
+	for j0 := 0; j0 < n; j0 += 16 {
+		nnStrip(c, a, pk[j0*p:(j0+16)*p], m, n, p, j0)
+	}
+	archsimd.ClearAVXUpperBits()
 }
 
 // gemmNNSubSIMD is gemmNNSubGonum. b's rows are read in place (row stride

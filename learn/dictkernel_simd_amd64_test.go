@@ -39,3 +39,32 @@ func TestPackNTExact(t *testing.T) {
 		}
 	}
 }
+
+// TestGemmNNPackedMatchesGemmNN: b packed by packNNSIMD in row ranges (as
+// the head's chunks pack their rows) gives gemmNNPackedSIMD gemmNNSIMD's
+// product bit for bit, strips past a multiple of 16 included.
+func TestGemmNNPackedMatchesGemmNN(t *testing.T) {
+	r := rand.New(rand.NewPCG(7, 8))
+	for _, sh := range [][3]int{{128, 1077, 128}, {20, 40, 100}, {7, 16, 3}, {13, 5, 33}} {
+		m, n, p := sh[0], sh[1], sh[2]
+		a, b := make([]float32, m*p), make([]float32, p*n)
+		for i := range a {
+			a[i] = float32(r.NormFloat64())
+		}
+		for i := range b {
+			b[i] = float32(r.NormFloat64())
+		}
+		pk := make([]float32, (n+15)/16*16*p)
+		for q0 := 0; q0 < p; q0 += 32 {
+			packNNSIMD(pk, b, p, n, q0, min(p, q0+32))
+		}
+		want, got := make([]float32, m*n), make([]float32, m*n)
+		gemmNNSIMD(want, a, b, m, n, p)
+		gemmNNPackedSIMD(got, a, pk, m, n, p)
+		for i := range want {
+			if math.Float32bits(got[i]) != math.Float32bits(want[i]) {
+				t.Fatalf("%v: c[%d] = %v packed, %v by gemmNNSIMD", sh, i, got[i], want[i])
+			}
+		}
+	}
+}

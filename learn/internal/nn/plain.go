@@ -22,6 +22,13 @@ type GemmNNFunc func(c, a, b []float32, m, n, p int)
 type Kernels struct {
 	NT GemmNTFunc // c = a·bᵀ: forward passes and dA
 	NN GemmNNFunc // c = a·b: weight gradients dW = dZᵀ·X read the layer input in place
+	// PackNN and NNPacked, both set or both nil, split an NN product whose b
+	// several products read: PackNN writes rows [q0, q1) of b (p×n) into
+	// pk (disjoint row ranges may be packed concurrently), NNPacked
+	// computes c = a·b from pk with NN's bits. An mlp's chunks then pack
+	// their input rows once per step for all the blocks of dW1.
+	PackNN   func(pk, b []float32, p, n, q0, q1 int)
+	NNPacked func(c, a, pk []float32, m, n, p int)
 }
 
 // GemmNNGonum is the GemmNNFunc on gonum's blas32 (the default).
@@ -85,13 +92,16 @@ func GemmNTGonum(c, a, b []float32, m, n, p int) {
 // unit that finished it, so a training step needs no Runs of its own and
 // reads the weights once fewer.
 type Plain struct {
-	spec   Spec
-	gemm   GemmNTFunc
-	gemmNN GemmNNFunc
-	team   *Team
-	params [][]float32
-	x, y   []float32
-	w2t    []float32 // W2ᵀ (H×K), shared by the chunks (mlp)
+	spec     Spec
+	gemm     GemmNTFunc
+	gemmNN   GemmNNFunc
+	packNN   func(pk, b []float32, p, n, q0, q1 int)
+	nnPacked func(c, a, pk []float32, m, n, p int)
+	xnn      []float32 // the batch input packed by packNN (mlp with packNN)
+	team     *Team
+	params   [][]float32
+	x, y     []float32
+	w2t      []float32 // W2ᵀ (H×K), shared by the chunks (mlp)
 	// the whole-batch dAᵀ (H×B) the hidden blocks read (mlp)
 	dat    []float32
 	chunks []plainChunk
@@ -169,9 +179,16 @@ func NewPlain(s Spec, k Kernels, team *Team) (*Plain, error) {
 	if k.NN == nil {
 		k.NN = GemmNNGonum
 	}
+	if (k.PackNN == nil) != (k.NNPacked == nil) {
+		return nil, fmt.Errorf("nn: Kernels.PackNN and NNPacked must be set together")
+	}
 	p := &Plain{spec: s, gemm: k.NT, gemmNN: k.NN, team: team,
 		x: make([]float32, s.Batch*s.In),
 		y: make([]float32, s.Batch*s.Out),
+	}
+	if s.Hidden > 0 && k.PackNN != nil {
+		p.packNN, p.nnPacked = k.PackNN, k.NNPacked
+		p.xnn = make([]float32, (s.In+15)/16*16*s.Batch)
 	}
 	for i, sh := range s.ParamShapes() {
 		n := 1
@@ -318,14 +335,17 @@ func (p *Plain) Eval(grads any) (float64, error) {
 }
 
 // first runs unit u of Eval's first Run: chunk u (an mlp's: its input
-// only), or Σ w² of a weight range.
+// only, and its rows of the packed input), or Σ w² of a weight range.
 func (p *Plain) first(u int) {
 	if u < len(p.chunks) {
+		ch := &p.chunks[u]
 		if p.hooks.Fill != nil {
-			p.hooks.Fill(p.chunks[u].r0, p.chunks[u].r1)
+			p.hooks.Fill(ch.r0, ch.r1)
 		}
 		if p.spec.Hidden == 0 {
 			p.evalChunk(u)
+		} else if p.packNN != nil {
+			p.packNN(p.xnn, p.x, p.spec.Batch, p.spec.In, ch.r0, ch.r1)
 		}
 		return
 	}
@@ -442,7 +462,11 @@ func (p *Plain) hiddenBlock(u int) {
 	B, D := s.Batch, s.In
 	h0, h1 := u*plainHiddenBlock, min(s.Hidden, (u+1)*plainHiddenBlock)
 	dat := p.dat[h0*B : h1*B]
-	p.gemmNN(p.grads[0][h0*D:h1*D], dat, p.x, h1-h0, D, B)
+	if p.nnPacked != nil {
+		p.nnPacked(p.grads[0][h0*D:h1*D], dat, p.xnn, h1-h0, D, B)
+	} else {
+		p.gemmNN(p.grads[0][h0*D:h1*D], dat, p.x, h1-h0, D, B)
+	}
 	rowSums(p.grads[1][h0:h1], dat, B)
 }
 

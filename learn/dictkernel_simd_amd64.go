@@ -19,6 +19,7 @@ func init() {
 	if archsimd.X86.AVX2() && archsimd.X86.FMA() {
 		gemmNT, gemmNN, gemmNNSub, axpy = gemmNTSIMD, gemmNNSIMD, gemmNNSubSIMD, axpySIMD
 		packNN, gemmNNPacked = packNNSIMD, gemmNNPackedSIMD
+		packNTb, gemmNTPacked = packNTSIMD, gemmNTPackedSIMD
 		kernelBuild = "simd (GOEXPERIMENT=simd, AVX2+FMA, 8 float32 lanes)"
 	}
 }
@@ -133,9 +134,44 @@ func gemmNTSIMD(c, a, b []float32, m, n, p int) {
 		*bufp = make([]float32, np*16*p)
 	}
 	pk := (*bufp)[:np*16*p]
+	packNTSIMD(pk, b, n, p)
+	ntPanels(c, a, pk, m, n, p)
+	packPool.Put(bufp)
+}
+
+// packNTSIMD packs b (n×p) into the ⌈n/16⌉ panels gemmNTSIMD reads (see
+// packNT), panel j at pk[j·16p:].
+func packNTSIMD(pk, b []float32, n, p int) {
+	np := (n + 15) / 16
+	if len(pk) < np*16*p || len(b) < n*p {
+		panic("learn: internal error: packNTSIMD lengths")
+	}
 	for jp := 0; jp < np; jp++ {
 		packNT(pk[jp*16*p:(jp+1)*16*p], b[jp*16*p:min(n, jp*16+16)*p], p)
 	}
+}
+
+// gemmNTPackedSIMD is gemmNTSIMD with b packed once by packNTSIMD, for a b
+// that several products read (a head chunk's inputs, read by every block
+// of the hidden layer's forward pass): the same panels, the same tiles,
+// the same bits.
+func gemmNTPackedSIMD(c, a, pk []float32, m, n, p int) {
+	if m == 0 || n == 0 {
+		return
+	}
+	if len(a) < m*p || len(pk) < (n+15)/16*16*p || len(c) < m*n {
+		panic("learn: internal error: gemmNTPackedSIMD slice too short")
+	}
+	if p == 0 {
+		clear(c[:m*n])
+		return
+	}
+	ntPanels(c, a, pk, m, n, p)
+}
+
+// ntPanels computes c = a·bᵀ from b's packed panels pk.
+func ntPanels(c, a, pk []float32, m, n, p int) {
+	np := (n + 15) / 16
 	var tile [6 * 16]float32
 	tp := unsafe.Pointer(&tile[0])
 	as := uintptr(4 * p)
@@ -161,7 +197,6 @@ func gemmNTSIMD(c, a, b []float32, m, n, p int) {
 		}
 	}
 	archsimd.ClearAVXUpperBits()
-	packPool.Put(bufp)
 }
 
 //go:noescape

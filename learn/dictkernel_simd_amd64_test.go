@@ -68,3 +68,30 @@ func TestGemmNNPackedMatchesGemmNN(t *testing.T) {
 		}
 	}
 }
+
+// TestGemmNTPackedMatchesGemmNT: b packed once by packNTSIMD gives
+// gemmNTPackedSIMD gemmNTSIMD's product bit for bit, panels past a
+// multiple of 16 rows included.
+func TestGemmNTPackedMatchesGemmNT(t *testing.T) {
+	r := rand.New(rand.NewPCG(9, 10))
+	for _, sh := range [][3]int{{64, 32, 1077}, {20, 40, 100}, {7, 16, 3}, {13, 5, 33}} {
+		m, n, p := sh[0], sh[1], sh[2]
+		a, b := make([]float32, m*p), make([]float32, n*p)
+		for i := range a {
+			a[i] = float32(r.NormFloat64())
+		}
+		for i := range b {
+			b[i] = float32(r.NormFloat64())
+		}
+		pk := make([]float32, (n+15)/16*16*p)
+		packNTSIMD(pk, b, n, p)
+		want, got := make([]float32, m*n), make([]float32, m*n)
+		gemmNTSIMD(want, a, b, m, n, p)
+		gemmNTPackedSIMD(got, a, pk, m, n, p)
+		for i := range want {
+			if math.Float32bits(got[i]) != math.Float32bits(want[i]) {
+				t.Fatalf("%v: c[%d] = %v packed, %v by gemmNTSIMD", sh, i, got[i], want[i])
+			}
+		}
+	}
+}

@@ -29,6 +29,12 @@ type Kernels struct {
 	// their input rows once per step for all the blocks of dW1.
 	PackNN   func(pk, b []float32, p, n, q0, q1 int)
 	NNPacked func(c, a, pk []float32, m, n, p int)
+	// PackNT and NTPacked, both set or both nil, do the same for an NT
+	// product: PackNT packs all of b (n×p) into pk, NTPacked computes
+	// c = a·bᵀ from pk with NT's bits. An mlp's chunks then pack their
+	// rows once per step for all the blocks of the hidden forward pass.
+	PackNT   func(pk, b []float32, n, p int)
+	NTPacked func(c, a, pk []float32, m, n, p int)
 }
 
 // GemmNNGonum is the GemmNNFunc on gonum's blas32 (the default).
@@ -98,6 +104,8 @@ type Plain struct {
 	packNN   func(pk, b []float32, p, n, q0, q1 int)
 	nnPacked func(c, a, pk []float32, m, n, p int)
 	xnn      []float32 // the batch input packed by packNN (mlp with packNN)
+	packNT   func(pk, b []float32, n, p int)
+	ntPacked func(c, a, pk []float32, m, n, p int)
 	team     *Team
 	params   [][]float32
 	x, y     []float32
@@ -141,6 +149,7 @@ type plainChunk struct {
 	at, a  []float32   // activations Aᵀ (H×rows) and A (rows×H) (mlp)
 	da     []float32   // their gradient dAᵀ (H×rows) (mlp)
 	tout   []float32   // the transpose of dZ (K×rows)
+	xnt    []float32   // its input rows packed by packNT (mlp with packNT)
 	g      [][]float32 // gradient shares of the shared tensors (chunk 0: the caller's)
 	loss   float64     // Σ over its rows of −log p(y), not yet divided by B
 }
@@ -179,8 +188,8 @@ func NewPlain(s Spec, k Kernels, team *Team) (*Plain, error) {
 	if k.NN == nil {
 		k.NN = GemmNNGonum
 	}
-	if (k.PackNN == nil) != (k.NNPacked == nil) {
-		return nil, fmt.Errorf("nn: Kernels.PackNN and NNPacked must be set together")
+	if (k.PackNN == nil) != (k.NNPacked == nil) || (k.PackNT == nil) != (k.NTPacked == nil) {
+		return nil, fmt.Errorf("nn: Kernels.PackNN and NNPacked, PackNT and NTPacked must be set together")
 	}
 	p := &Plain{spec: s, gemm: k.NT, gemmNN: k.NN, team: team,
 		x: make([]float32, s.Batch*s.In),
@@ -189,6 +198,9 @@ func NewPlain(s Spec, k Kernels, team *Team) (*Plain, error) {
 	if s.Hidden > 0 && k.PackNN != nil {
 		p.packNN, p.nnPacked = k.PackNN, k.NNPacked
 		p.xnn = make([]float32, (s.In+15)/16*16*s.Batch)
+	}
+	if s.Hidden > 0 && k.PackNT != nil {
+		p.packNT, p.ntPacked = k.PackNT, k.NTPacked
 	}
 	for i, sh := range s.ParamShapes() {
 		n := 1
@@ -218,6 +230,9 @@ func NewPlain(s Spec, k Kernels, team *Team) (*Plain, error) {
 		rows := ch.r1 - ch.r0
 		ch.z = make([]float32, rows*s.Out)
 		ch.tout = make([]float32, s.Out*rows)
+		if p.packNT != nil {
+			ch.xnt = make([]float32, (rows+15)/16*16*s.In)
+		}
 		if s.Hidden > 0 {
 			ch.a = make([]float32, rows*s.Hidden)
 			ch.at = make([]float32, rows*s.Hidden)
@@ -344,8 +359,14 @@ func (p *Plain) first(u int) {
 		}
 		if p.spec.Hidden == 0 {
 			p.evalChunk(u)
-		} else if p.packNN != nil {
-			p.packNN(p.xnn, p.x, p.spec.Batch, p.spec.In, ch.r0, ch.r1)
+		} else {
+			D := p.spec.In
+			if p.packNN != nil {
+				p.packNN(p.xnn, p.x, p.spec.Batch, D, ch.r0, ch.r1)
+			}
+			if p.packNT != nil {
+				p.packNT(ch.xnt, p.x[ch.r0*D:ch.r1*D], ch.r1-ch.r0, D)
+			}
 		}
 		return
 	}
@@ -420,7 +441,11 @@ func (p *Plain) forward(u int) {
 		ch := &p.chunks[c]
 		B := ch.r1 - ch.r0
 		at := ch.at[h0*B : h1*B]
-		p.gemm(at, w1, p.x[ch.r0*D:ch.r1*D], h1-h0, B, D)
+		if p.ntPacked != nil {
+			p.ntPacked(at, w1, ch.xnt, h1-h0, B, D)
+		} else {
+			p.gemm(at, w1, p.x[ch.r0*D:ch.r1*D], h1-h0, B, D)
+		}
 		biasReLURows(at, p.params[1][h0:h1], B)
 	}
 }

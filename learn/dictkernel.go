@@ -14,6 +14,13 @@ var (
 	gemmNN    = nn.GemmNNGonum // c = a·b: the head's weight gradients
 	gemmNNSub = gemmNNSubGonum
 	axpy      = axpyGonum
+	// packNN and gemmNNPacked split gemmNN into packing b and the product
+	// (nn.Kernels.PackNN, NNPacked), packNTb and gemmNTPacked gemmNT
+	// (PackNT, NTPacked); nil without the SIMD kernels.
+	packNN       func(pk, b []float32, p, n, q0, q1 int)
+	gemmNNPacked func(c, a, pk []float32, m, n, p int)
+	packNTb      func(pk, b []float32, n, p int)
+	gemmNTPacked func(c, a, pk []float32, m, n, p int)
 	// kernelBuild names the kernels in use, for benchmark logs.
 	kernelBuild = "portable (gonum blas32)"
 )

@@ -2,12 +2,13 @@
 
 #include "textflag.h"
 
-// func tile6x16asm(c unsafe.Pointer, cs uintptr, a unsafe.Pointer, as uintptr, b unsafe.Pointer, bs uintptr, p int, sub int)
+// func tile6x16asm(c unsafe.Pointer, cs uintptr, a unsafe.Pointer, as uintptr, b unsafe.Pointer, bs uintptr, p int, mode int)
 //
 // t_r = Σ_{q<p} a_r[q]·b_q[0..16) for the six rows a_r = a + r·as and the
 // rows b_q = b + q·bs (offsets in bytes), each sum one chain of fused
-// multiply-adds in the order q = 0, 1, …, p−1; t_r is stored at c + r·cs, or
-// with sub ≠ 0 subtracted from what is there. p ≥ 1. AVX2 + FMA.
+// multiply-adds in the order q = 0, 1, …, p−1; t_r is stored at c + r·cs
+// (mode 0, tileStore), or subtracted from what is there (mode 1, tileSub).
+// p ≥ 1. AVX2 + FMA.
 TEXT ·tile6x16asm(SB), NOSPLIT, $0-64
 	MOVQ c+0(FP), DX
 	MOVQ cs+8(FP), R10
@@ -18,6 +19,7 @@ TEXT ·tile6x16asm(SB), NOSPLIT, $0-64
 	MOVQ p+48(FP), CX
 	LEAQ (SI)(R8*2), R9
 	ADDQ R8, R9
+	MOVQ mode+56(FP), AX
 	VXORPS Y0, Y0, Y0
 	VXORPS Y1, Y1, Y1
 	VXORPS Y2, Y2, Y2
@@ -58,9 +60,8 @@ loop:
 	DECQ CX
 	JNZ loop
 
-	MOVQ sub+56(FP), AX
-	TESTQ AX, AX
-	JNZ subtract
+	CMPQ AX, $1
+	JEQ subtract
 
 	VMOVUPS Y0, (DX)
 	VMOVUPS Y1, 32(DX)
@@ -124,5 +125,171 @@ subtract:
 	VMOVUPS 32(DX), Y13
 	VSUBPS Y11, Y13, Y13
 	VMOVUPS Y13, 32(DX)
+	VZEROUPPER
+	RET
+
+// func tile4x16asm(c unsafe.Pointer, cs uintptr, a unsafe.Pointer, as uintptr, b unsafe.Pointer, bs uintptr, p int, mode int)
+//
+// tile6x16asm for four rows (8 accumulators). p ≥ 1. AVX2 + FMA.
+TEXT ·tile4x16asm(SB), NOSPLIT, $0-64
+	MOVQ c+0(FP), DX
+	MOVQ cs+8(FP), R10
+	MOVQ a+16(FP), SI
+	MOVQ as+24(FP), R8
+	MOVQ b+32(FP), DI
+	MOVQ bs+40(FP), R11
+	MOVQ p+48(FP), CX
+	LEAQ (SI)(R8*2), R9
+	MOVQ mode+56(FP), AX
+	VXORPS Y0, Y0, Y0
+	VXORPS Y1, Y1, Y1
+	VXORPS Y2, Y2, Y2
+	VXORPS Y3, Y3, Y3
+	VXORPS Y4, Y4, Y4
+	VXORPS Y5, Y5, Y5
+	VXORPS Y6, Y6, Y6
+	VXORPS Y7, Y7, Y7
+
+loop4:
+	VMOVUPS (DI), Y12
+	VMOVUPS 32(DI), Y13
+	VBROADCASTSS (SI), Y14
+	VFMADD231PS Y14, Y12, Y0
+	VFMADD231PS Y14, Y13, Y1
+	VBROADCASTSS (SI)(R8*1), Y15
+	VFMADD231PS Y15, Y12, Y2
+	VFMADD231PS Y15, Y13, Y3
+	VBROADCASTSS (R9), Y14
+	VFMADD231PS Y14, Y12, Y4
+	VFMADD231PS Y14, Y13, Y5
+	VBROADCASTSS (R9)(R8*1), Y15
+	VFMADD231PS Y15, Y12, Y6
+	VFMADD231PS Y15, Y13, Y7
+	ADDQ R11, DI
+	ADDQ $4, SI
+	ADDQ $4, R9
+	DECQ CX
+	JNZ loop4
+
+	CMPQ AX, $1
+	JEQ subtract4
+
+	VMOVUPS Y0, (DX)
+	VMOVUPS Y1, 32(DX)
+	ADDQ R10, DX
+	VMOVUPS Y2, (DX)
+	VMOVUPS Y3, 32(DX)
+	ADDQ R10, DX
+	VMOVUPS Y4, (DX)
+	VMOVUPS Y5, 32(DX)
+	ADDQ R10, DX
+	VMOVUPS Y6, (DX)
+	VMOVUPS Y7, 32(DX)
+	VZEROUPPER
+	RET
+
+subtract4:
+	VMOVUPS (DX), Y12
+	VSUBPS Y0, Y12, Y12
+	VMOVUPS Y12, (DX)
+	VMOVUPS 32(DX), Y13
+	VSUBPS Y1, Y13, Y13
+	VMOVUPS Y13, 32(DX)
+	ADDQ R10, DX
+	VMOVUPS (DX), Y12
+	VSUBPS Y2, Y12, Y12
+	VMOVUPS Y12, (DX)
+	VMOVUPS 32(DX), Y13
+	VSUBPS Y3, Y13, Y13
+	VMOVUPS Y13, 32(DX)
+	ADDQ R10, DX
+	VMOVUPS (DX), Y12
+	VSUBPS Y4, Y12, Y12
+	VMOVUPS Y12, (DX)
+	VMOVUPS 32(DX), Y13
+	VSUBPS Y5, Y13, Y13
+	VMOVUPS Y13, 32(DX)
+	ADDQ R10, DX
+	VMOVUPS (DX), Y12
+	VSUBPS Y6, Y12, Y12
+	VMOVUPS Y12, (DX)
+	VMOVUPS 32(DX), Y13
+	VSUBPS Y7, Y13, Y13
+	VMOVUPS Y13, 32(DX)
+	VZEROUPPER
+	RET
+
+// func packNT16asm(panel unsafe.Pointer, b unsafe.Pointer, rs uintptr, blocks int)
+//
+// panel[q*16+c] = b_c[q] for the 16 rows b_c = b + c·rs (offsets in bytes)
+// and q < 8·blocks: per block of 8 values of q, the two 8×8 blocks of rows
+// 0-7 and 8-15 are transposed in registers (unpack, shuffle, permute; a
+// copy, no arithmetic) and stored as the first and second halves of the 8
+// panel rows. blocks ≥ 1. AVX.
+TEXT ·packNT16asm(SB), NOSPLIT, $0-32
+	MOVQ panel+0(FP), DI
+	MOVQ b+8(FP), SI
+	MOVQ rs+16(FP), R8
+	MOVQ blocks+24(FP), CX
+	LEAQ (R8)(R8*2), R11
+	MOVQ R8, R12
+	SHLQ $3, R12 // 8 rows
+
+block:
+	MOVQ SI, DX
+	MOVQ DI, BX
+	MOVQ $2, AX
+
+half:
+	LEAQ (DX)(R8*4), R9
+	VMOVUPS (DX), Y0
+	VMOVUPS (DX)(R8*1), Y1
+	VMOVUPS (DX)(R8*2), Y2
+	VMOVUPS (DX)(R11*1), Y3
+	VMOVUPS (R9), Y4
+	VMOVUPS (R9)(R8*1), Y5
+	VMOVUPS (R9)(R8*2), Y6
+	VMOVUPS (R9)(R11*1), Y7
+	VUNPCKLPS Y1, Y0, Y8
+	VUNPCKHPS Y1, Y0, Y9
+	VUNPCKLPS Y3, Y2, Y10
+	VUNPCKHPS Y3, Y2, Y11
+	VUNPCKLPS Y5, Y4, Y12
+	VUNPCKHPS Y5, Y4, Y13
+	VUNPCKLPS Y7, Y6, Y14
+	VUNPCKHPS Y7, Y6, Y15
+	VSHUFPS $0x44, Y10, Y8, Y0
+	VSHUFPS $0xEE, Y10, Y8, Y1
+	VSHUFPS $0x44, Y11, Y9, Y2
+	VSHUFPS $0xEE, Y11, Y9, Y3
+	VSHUFPS $0x44, Y14, Y12, Y4
+	VSHUFPS $0xEE, Y14, Y12, Y5
+	VSHUFPS $0x44, Y15, Y13, Y6
+	VSHUFPS $0xEE, Y15, Y13, Y7
+	VPERM2F128 $0x20, Y4, Y0, Y8
+	VPERM2F128 $0x20, Y5, Y1, Y9
+	VPERM2F128 $0x20, Y6, Y2, Y10
+	VPERM2F128 $0x20, Y7, Y3, Y11
+	VPERM2F128 $0x31, Y4, Y0, Y12
+	VPERM2F128 $0x31, Y5, Y1, Y13
+	VPERM2F128 $0x31, Y6, Y2, Y14
+	VPERM2F128 $0x31, Y7, Y3, Y15
+	VMOVUPS Y8, (BX)
+	VMOVUPS Y9, 64(BX)
+	VMOVUPS Y10, 128(BX)
+	VMOVUPS Y11, 192(BX)
+	VMOVUPS Y12, 256(BX)
+	VMOVUPS Y13, 320(BX)
+	VMOVUPS Y14, 384(BX)
+	VMOVUPS Y15, 448(BX)
+	ADDQ R12, DX
+	ADDQ $32, BX
+	DECQ AX
+	JNZ half
+
+	ADDQ $32, SI
+	ADDQ $512, DI
+	DECQ CX
+	JNZ block
 	VZEROUPPER
 	RET

@@ -228,7 +228,7 @@ func headKernels() nn.Kernels {
 	if reflect.ValueOf(gemmNT).Pointer() == reflect.ValueOf(gemmNTGonum).Pointer() {
 		return nn.Kernels{NT: headGemmSerial, NN: headGemmNNSerial}
 	}
-	return nn.Kernels{NT: gemmNT, NN: gemmNN}
+	return nn.Kernels{NT: gemmNT, NN: gemmNN, PackNN: packNN, NNPacked: gemmNNPacked, PackNT: packNTb, NTPacked: gemmNTPacked}
 }
 
 // gonum's Sgemm splits a product with at least 4 blocks of 64×64 outputs

@@ -6,6 +6,7 @@ import (
 	"math/rand/v2"
 	"sync"
 
+	"github.com/striate/striate/learn/internal/nn"
 	"github.com/striate/striate/v1layer"
 )
 
@@ -236,10 +237,27 @@ type TemplateFitReport struct {
 	Objective []float64      // k-means: mean cosine of each patch to its template, per iteration
 }
 
+// TemplateFitOptions carries the run-time (non-model) options of
+// TemplateConfig.FitWith.
+type TemplateFitOptions struct {
+	// Workers is the number of goroutines of the whitening, the k-means
+	// steps and the soft threshold's responses; 0 or less means 1. The
+	// fitted templates do not depend on it, bit for bit.
+	Workers int
+	// Progress receives the fit's steps; nil is silent.
+	Progress Progress
+}
+
 // Fit learns the templates from unlabeled complex-cell maps (all with the
 // same channel count; sizes may differ, each at least PatchSize square).
 // progress may be nil.
 func (c TemplateConfig) Fit(maps []v1layer.Maps, progress Progress) (*Templates, TemplateFitReport, error) {
+	return c.FitWith(maps, TemplateFitOptions{Progress: progress})
+}
+
+// FitWith is Fit on opt.Workers goroutines.
+func (c TemplateConfig) FitWith(maps []v1layer.Maps, opt TemplateFitOptions) (*Templates, TemplateFitReport, error) {
+	progress := opt.Progress
 	cfg, err := c.resolved()
 	rep := TemplateFitReport{Config: cfg}
 	if err != nil {
@@ -298,12 +316,14 @@ func (c TemplateConfig) Fit(maps []v1layer.Maps, progress Progress) (*Templates,
 		}
 	}
 	// Centre and whiten.
-	t.mean, t.whiten, err = fitWhitening(X, n, dim, cfg.WhitenEps)
+	team := nn.NewTeam(opt.Workers)
+	defer team.Close()
+	t.mean, t.whiten, err = fitWhitening(X, n, dim, cfg.WhitenEps, team)
 	if err != nil {
 		return nil, rep, err
 	}
 	Xw := make([]float32, n*dim)
-	applyWhitening(Xw, X, n, dim, t.mean, t.whiten)
+	applyWhitening(Xw, X, n, dim, t.mean, t.whiten, team)
 	if progress != nil {
 		progress.Step(0, cfg.Iters, "patches whitened")
 	}
@@ -313,7 +333,7 @@ func (c TemplateConfig) Fit(maps []v1layer.Maps, progress Progress) (*Templates,
 		for j, r := range rng.Perm(n)[:cfg.K] {
 			copy(init[j*dim:(j+1)*dim], Xw[r*dim:(r+1)*dim])
 		}
-		res := sphericalKMeans(Xw, n, dim, cfg.K, cfg.Iters, init, rng, progress)
+		res := sphericalKMeans(Xw, n, dim, cfg.K, cfg.Iters, init, rng, progress, team)
 		t.cent, rep.Empty, rep.Objective = res.centroids, res.empty, res.objective
 	case MethodSparse:
 		var dc DictConfig
@@ -332,16 +352,23 @@ func (c TemplateConfig) Fit(maps []v1layer.Maps, progress Progress) (*Templates,
 	}
 	t.derive()
 	// Soft threshold relative to the RMS template response on training patches.
+	// The responses are computed in blocks of rows on the team and summed
+	// in row order, as on one goroutine.
 	if cfg.Encoder == EncodeSoft && cfg.Alpha > 0 {
-		var ss float64
+		const rows = 256
 		m := min(n, 5000)
-		r := make([]float32, cfg.K)
-		for i := 0; i < m; i++ {
-			row := Xw[i*dim : (i+1)*dim]
-			for k := 0; k < cfg.K; k++ {
-				r[k] = dot32(t.cent[k*dim:(k+1)*dim], row)
-				ss += float64(r[k]) * float64(r[k])
+		r := make([]float32, m*cfg.K)
+		team.Run((m+rows-1)/rows, func(u int) {
+			for i := u * rows; i < min(m, (u+1)*rows); i++ {
+				row := Xw[i*dim : (i+1)*dim]
+				for k := 0; k < cfg.K; k++ {
+					r[i*cfg.K+k] = dot32(t.cent[k*dim:(k+1)*dim], row)
+				}
 			}
+		})
+		var ss float64
+		for _, v := range r {
+			ss += float64(v) * float64(v)
 		}
 		t.alpha = float32(cfg.Alpha * math.Sqrt(ss/float64(m*cfg.K)))
 	}

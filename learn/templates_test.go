@@ -49,7 +49,7 @@ func TestSphericalKMeansMatchesSklearn(t *testing.T) {
 		iters int
 		want  []float64
 	}{{1, ref.After1}, {ref.Iters, ref.After}} {
-		res := sphericalKMeans(X, ref.N, ref.D, ref.K, c.iters, init, rand.New(rand.NewPCG(1, 1)), nil)
+		res := sphericalKMeans(X, ref.N, ref.D, ref.K, c.iters, init, rand.New(rand.NewPCG(1, 1)), nil, nil)
 		if res.empty != 0 {
 			t.Errorf("%d iterations: %d empty clusters (scikit-learn had none)", c.iters, res.empty)
 		}
@@ -468,7 +468,7 @@ func TestWhiteningIsZCA(t *testing.T) {
 			X[i*dim+j] = float32(0.3*w + rng.NormFloat64() + 2)
 		}
 	}
-	mean, W, err := fitWhitening(X, n, dim, eps)
+	mean, W, err := fitWhitening(X, n, dim, eps, nil)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -530,6 +530,40 @@ func TestWhiteningIsZCA(t *testing.T) {
 			}
 			if math.Abs(s-want) > zcaTol {
 				t.Fatalf("(W(C+εI)W)[%d,%d] = %.6g, want %g (tol %g)", a, b, s, want, zcaTol)
+			}
+		}
+	}
+}
+
+// TestTemplateFitWorkersBitIdentical: the whitening, the k-means steps and
+// the soft threshold's responses run in units of rows or columns whose
+// sums keep the one-goroutine order, so 1, 2 and 3 workers give the same
+// templates and k-means objectives bit for bit (with 3,000 patches: three
+// row blocks of the assignment and covariance, the last one short).
+func TestTemplateFitWorkersBitIdentical(t *testing.T) {
+	maps := randomMaps(30, 3, 14, 14, 11)
+	cfg := TemplateConfig{K: 12, PatchSize: 5, Patches: 3000, Iters: 4, Seed: 9}
+	ref, refRep, err := cfg.FitWith(maps, TemplateFitOptions{Workers: 1})
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, w := range []int{2, 3} {
+		tm, rep, err := cfg.FitWith(maps, TemplateFitOptions{Workers: w})
+		if err != nil {
+			t.Fatal(err)
+		}
+		want, got := ref.Tensors(), tm.Tensors()
+		if len(got) != len(want) {
+			t.Fatalf("%d workers: %d tensors, want %d", w, len(got), len(want))
+		}
+		for i := range want {
+			if !sameF32(got[i].Data, want[i].Data) {
+				t.Errorf("%d workers: tensor %q differs from 1 worker's", w, want[i].Name)
+			}
+		}
+		for i, v := range refRep.Objective {
+			if math.Float64bits(rep.Objective[i]) != math.Float64bits(v) {
+				t.Errorf("%d workers: k-means objective of iteration %d is %v, 1 worker's %v", w, i+1, rep.Objective[i], v)
 			}
 		}
 	}

@@ -126,7 +126,7 @@ func (p *Plan) Fit(train *datasets.Set, opts FitOptions) (*Model, FitReport, err
 			p.frontTo(&maps[i], w, in)
 		})
 		var err error
-		if tmpl, err = fitTemplates(p, cfg.Templates, maps, opts.Progress); err != nil {
+		if tmpl, err = fitTemplates(p, cfg.Templates, maps, opts.Workers, opts.Progress); err != nil {
 			return nil, rep, err
 		}
 	}

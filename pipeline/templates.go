@@ -71,19 +71,20 @@ func newTemplateStage(p *Plan, layers []*learn.Templates) (*templateStage, error
 
 // fitTemplates fits the template layers in order on the front-end maps of
 // the unlabeled images (each later layer on the previous layer's response
-// maps). cfgs have their seeds resolved.
-func fitTemplates(p *Plan, cfgs []learn.TemplateConfig, maps []v1layer.Maps, prog learn.Progress) (*templateStage, error) {
+// maps), on workers goroutines (the layers do not depend on their number).
+// cfgs have their seeds resolved.
+func fitTemplates(p *Plan, cfgs []learn.TemplateConfig, maps []v1layer.Maps, workers int, prog learn.Progress) (*templateStage, error) {
 	var layers []*learn.Templates
 	for i, tc := range cfgs {
 		if i > 0 {
 			prev := layers[i-1]
 			next := make([]v1layer.Maps, len(maps))
-			for j := range maps {
+			parallelFor(len(maps), workers, func() struct{} { return struct{}{} }, func(struct{}) {}, func(j int, _ struct{}) {
 				prev.EncodeMaps(&next[j], &maps[j])
-			}
+			})
 			maps = next
 		}
-		t, _, err := tc.Fit(maps, prefixed{prog, fmt.Sprintf("templates %d: ", i)})
+		t, _, err := tc.FitWith(maps, learn.TemplateFitOptions{Workers: workers, Progress: prefixed{prog, fmt.Sprintf("templates %d: ", i)}})
 		if err != nil {
 			return nil, fmt.Errorf("pipeline: fitting template layer %d: %w", i, err)
 		}

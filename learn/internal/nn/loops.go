@@ -38,6 +38,17 @@ func biasReLUGo(row []float32, b float32) {
 	}
 }
 
+// biasReLURows applies biasReLU to the rows of m (len(b) rows of n
+// values), row h with bias b[h]. The SIMD build runs all rows in one call,
+// with biasReLU's operations.
+var biasReLURows = biasReLURowsGo
+
+func biasReLURowsGo(m, b []float32, n int) {
+	for h, bh := range b {
+		biasReLU(m[h*n:(h+1)*n], bh)
+	}
+}
+
 // maskReLU sets dst[i] = src[i] where act[i] > 0 and 0 elsewhere (a NaN
 // activation included: its NaN already reaches the loss): the gradient
 // through the ReLU.

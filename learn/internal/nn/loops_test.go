@@ -78,3 +78,63 @@ func TestReLULoopsMatchScalar(t *testing.T) {
 		}
 	}
 }
+
+// TestTransposeAndBiasRowsMatchDefinition checks transpose (8×8 register
+// blocks in the SIMD build) against its definition dst[c·ld+r] =
+// src[r·cols+c] bit for bit, with ld wider than rows and values outside
+// the block left alone, and biasReLURows against biasReLU row by row bit
+// for bit (zeros and their signs included: the same operations), on
+// shapes around the blocks of 8.
+func TestTransposeAndBiasRowsMatchDefinition(t *testing.T) {
+	r := rand.New(rand.NewPCG(7, 8))
+	for _, sh := range [][2]int{{1, 1}, {8, 8}, {7, 9}, {16, 24}, {32, 10}, {10, 512}, {512, 32}, {13, 17}} {
+		rows, cols := sh[0], sh[1]
+		for _, ld := range []int{rows, rows + 3} {
+			src := make([]float32, rows*cols)
+			for i := range src {
+				src[i] = float32(r.NormFloat64())
+			}
+			dst := make([]float32, (cols-1)*ld+rows+2)
+			for i := range dst {
+				dst[i] = float32(math.NaN())
+			}
+			transpose(dst, src, rows, cols, ld)
+			for c := 0; c < cols; c++ {
+				for rr := 0; rr < rows; rr++ {
+					if got, want := dst[c*ld+rr], src[rr*cols+c]; math.Float32bits(got) != math.Float32bits(want) {
+						t.Fatalf("%v ld %d: dst[%d·%d+%d] = %v, want %v", sh, ld, c, ld, rr, got, want)
+					}
+				}
+				for rr := rows; rr < ld && c*ld+rr < len(dst); rr++ {
+					if v := dst[c*ld+rr]; v == v {
+						t.Fatalf("%v ld %d: dst[%d·%d+%d] = %v written outside the block", sh, ld, c, ld, rr, v)
+					}
+				}
+			}
+		}
+		m := make([]float32, rows*cols)
+		for i := range m {
+			m[i] = float32(r.NormFloat64())
+			if i%5 == 0 {
+				m[i] = 0
+			}
+		}
+		b := make([]float32, rows)
+		for i := range b {
+			b[i] = float32(r.NormFloat64())
+			if i%3 == 0 {
+				b[i] = float32(math.Copysign(0, -1))
+			}
+		}
+		want := append([]float32(nil), m...)
+		for h, bh := range b {
+			biasReLU(want[h*cols:(h+1)*cols], bh)
+		}
+		biasReLURows(m, b, cols)
+		for i := range m {
+			if math.Float32bits(m[i]) != math.Float32bits(want[i]) {
+				t.Fatalf("%v: biasReLURows element %d = %v, biasReLU %v", sh, i, m[i], want[i])
+			}
+		}
+	}
+}

@@ -92,7 +92,7 @@ func normalizeInput(buf, img []float32, h, w int, c InputConfig) []float32 {
 	n := h * w
 	need := 4 * n
 	if c.Deblur == DeblurAuto {
-		need = 10 * n
+		need = 11 * n // edgeBlur's 7·n and Richardson-Lucy's 3·n after the 4·n
 	}
 	if cap(buf) < need {
 		buf = make([]float32, need)

@@ -51,19 +51,24 @@ const (
 	deblurMinExcess = 0.5
 )
 
-// gaussBlurClamp writes src blurred by a Gaussian of sigma (separable,
-// truncated at radius int(3σ + 0.5), weights summing to 1, border pixels
-// replicated) into dst; tmp holds h·w. Sums are float32.
-func gaussBlurClamp(dst, tmp, src []float32, h, w int, sigma float64) {
+// gaussKernel returns the float32 weights of the Gaussian of sigma that
+// gaussBlurClamp uses: radius int(3σ + 0.5) (at least 1), summing to 1.
+func gaussKernel(sigma float64) []float32 {
 	k64 := raster.Gaussian(sigma, max(1, int(3*sigma+0.5)))
-	var kbuf [64]float32
-	k := kbuf[:0]
-	if len(k64) > len(kbuf) {
-		k = make([]float32, 0, len(k64))
+	k := make([]float32, len(k64))
+	for i, v := range k64 {
+		k[i] = float32(v)
 	}
-	for _, v := range k64 {
-		k = append(k, float32(v))
-	}
+	return k
+}
+
+// deblurKernel0 is the re-blur's Gaussian of σ₀.
+var deblurKernel0 = gaussKernel(deblurSigma0)
+
+// gaussBlurClamp writes src blurred by the separable Gaussian k (from
+// gaussKernel; border pixels replicated) into dst; tmp holds h·w. Sums are
+// float32.
+func gaussBlurClamp(dst, tmp, src []float32, h, w int, k []float32) {
 	r := len(k) / 2
 	for y := range h {
 		row, out := src[y*w:][:w], tmp[y*w:][:w]
@@ -114,13 +119,14 @@ func gradMag(g, gx, gy, src []float32, h, w int) {
 // edgeBlur returns the estimated Gaussian blur σ̂ of src's edges (see the
 // comment above), the spread of the edge pixels' estimates (their
 // interquartile range over their median) and whether there were enough
-// edge pixels for an estimate. scratch holds 6·h·w.
+// edge pixels for an estimate. scratch holds 7·h·w (the last h·w hold the
+// edge pixels' estimates).
 func edgeBlur(scratch, src []float32, h, w int) (sigma, spread float64, ok bool) {
 	n := h * w
 	g, gx, gy := scratch[:n], scratch[n:2*n], scratch[2*n:3*n]
 	rb, tmp, g1 := scratch[3*n:4*n], scratch[4*n:5*n], scratch[5*n:6*n]
 	gradMag(g, gx, gy, src, h, w)
-	gaussBlurClamp(rb, tmp, src, h, w, deblurSigma0)
+	gaussBlurClamp(rb, tmp, src, h, w, deblurKernel0)
 	gradMag(g1, nil, nil, rb, h, w)
 	var gmax float32
 	for _, v := range g {
@@ -129,7 +135,7 @@ func edgeBlur(scratch, src []float32, h, w int) (sigma, spread float64, ok bool)
 	if gmax <= 0 {
 		return 0, 0, false
 	}
-	var est []float64
+	est := scratch[6*n : 6*n : 7*n]
 	for y := 1; y+1 < h; y++ {
 		for x := 1; x+1 < w; x++ {
 			i := y*w + x
@@ -155,11 +161,11 @@ func edgeBlur(scratch, src []float32, h, w int) (sigma, spread float64, ok bool)
 				continue
 			}
 			r := float64(v / g1[i])
-			s := deblurMaxSigma
+			s := float64(deblurMaxSigma)
 			if r > 1 {
 				s = min(deblurSigma0/math.Sqrt(r*r-1), deblurMaxSigma)
 			}
-			est = append(est, s)
+			est = append(est, float32(s))
 		}
 	}
 	if len(est) < deblurMinEdges {
@@ -172,13 +178,13 @@ func edgeBlur(scratch, src []float32, h, w int) (sigma, spread float64, ok bool)
 
 // quantileSorted is the q quantile of the sorted v by linear interpolation
 // between order statistics (NumPy's default, "linear").
-func quantileSorted(v []float64, q float64) float64 {
+func quantileSorted[T float32 | float64](v []T, q float64) float64 {
 	x := q * float64(len(v)-1)
 	i := int(x)
 	if i+1 >= len(v) {
-		return v[len(v)-1]
+		return float64(v[len(v)-1])
 	}
-	return v[i] + (x-float64(i))*(v[i+1]-v[i])
+	return float64(v[i]) + (x-float64(i))*float64(v[i+1]-v[i])
 }
 
 // deblurExcess returns σₑ, the blur of src in excess of ref (0 when there
@@ -205,12 +211,13 @@ func richardsonLucy(dst, scratch, src []float32, h, w int, sigma float64) {
 	for i, v := range src[:n] {
 		est[i] = max(v, 0) + deblurEps
 	}
+	k := gaussKernel(sigma)
 	for range deblurIters {
-		gaussBlurClamp(conv, tmp, est, h, w, sigma)
+		gaussBlurClamp(conv, tmp, est, h, w, k)
 		for i := range ratio {
 			ratio[i] = (max(src[i], 0) + deblurEps) / max(conv[i], deblurEps)
 		}
-		gaussBlurClamp(conv, tmp, ratio, h, w, sigma)
+		gaussBlurClamp(conv, tmp, ratio, h, w, k)
 		for i := range est {
 			est[i] *= conv[i]
 		}
@@ -238,7 +245,10 @@ func measureDeblurRef(p *Plan, train *datasets.Set, workers int) float64 {
 	c := p.cfg.Input
 	h, w := c.Height, c.Width
 	p.eachImage(train, idx, nil, workers, nil, "", nil, func(i int, in []float32, wk *work) {
-		buf := make([]float32, 10*h*w)
+		if cap(wk.norm) < 11*h*w {
+			wk.norm = make([]float32, 11*h*w)
+		}
+		buf := wk.norm[:11*h*w]
 		denoiseStage(buf[:h*w], buf[h*w:2*h*w], buf, in, h, w, c)
 		est[i], _, ok[i] = edgeBlur(buf[4*h*w:], buf[h*w:2*h*w], h, w)
 	})
